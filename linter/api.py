@@ -1,0 +1,183 @@
+"""The Python API: ``check`` a table and get a :class:`Report`. The command line is built on it."""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass, fields, replace
+from pathlib import Path
+from typing import TYPE_CHECKING, Any, Mapping
+
+import pyarrow as pa
+
+from . import __version__
+from .context import RunContext
+from .engine import RuleOutcome, error_finding, run_rules, select_rules
+from .errors import UsageProblem
+from .findings import GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade
+from .options import SETTINGS_BY_KEY, CheckOptions, parse_settings
+from .reading import ReadOptions, TableInfo, read_table
+from .registry import Registry, discover
+from .roles import apply_missing_codes, resolve_roles
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+TOOL_NAME = "prefit"
+REPORT_SCHEMA_VERSION = 1
+
+
+@dataclass(frozen=True)
+class Report:
+    """The outcome of one check: table facts, the design as built, and the findings in report order."""
+
+    info: TableInfo
+    target: str
+    parameters: int
+    complete_cases: int
+    design: Mapping[str, Any]
+    findings: tuple[Finding, ...]
+    outcomes: tuple[RuleOutcome, ...]
+    gate: Grade
+
+    @property
+    def failed_rules(self) -> tuple[str, ...]:
+        """Rules that raised instead of reporting: the check is incomplete when any did."""
+        return tuple(o.rule for o in self.outcomes if o.error is not None)
+
+    @property
+    def worst_grade(self) -> Grade | None:
+        """The strongest grade among the findings, or None when there are none."""
+        return max((f.grade for f in self.findings), default=None)
+
+    @property
+    def gated(self) -> tuple[Finding, ...]:
+        """Findings at or above the gate."""
+        return tuple(f for f in self.findings if f.grade >= self.gate and f.rule != "engine.rule-error")
+
+    @property
+    def exit_code(self) -> int:
+        """3 when a rule failed, else 1 when a finding reaches the gate, else 0."""
+        if self.failed_rules:
+            return 3
+        return 1 if self.gated else 0
+
+    def to_dict(self) -> dict[str, Any]:
+        """The report as plain JSON types, in the documented schema."""
+        return {
+            "schema": REPORT_SCHEMA_VERSION,
+            "tool": {"name": TOOL_NAME, "version": __version__},
+            "table": {"path": self.info.path, "format": self.info.format, "rows": self.info.rows, "columns": self.info.columns, "sha256": self.info.sha256},
+            "target": self.target,
+            "parameters": self.parameters,
+            "complete_cases": self.complete_cases,
+            "design": dict(self.design),
+            "gate": self.gate.word,
+            "complete": not self.failed_rules,
+            "rules_run": [o.rule for o in self.outcomes],
+            "findings": [f.to_dict() for f in self.findings],
+            "summary": count_by_grade(self.findings),
+        }
+
+    def to_json(self) -> str:
+        """The JSON report: sorted findings, NaN and infinities as null, stable bytes."""
+        return json.dumps(self.to_dict(), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+
+    def _repr_html_(self) -> str:
+        counts = ", ".join(f"{n} {word}" for word, n in count_by_grade(self.findings).items())
+        return f"<pre>prefit report for {_escape(self.info.path)}: {counts}</pre>"
+
+
+def _escape(text: str) -> str:
+    import html
+
+    return html.escape(text)
+
+
+def run_check(table: pa.Table, info: TableInfo, options: CheckOptions, registry: Registry | None = None, debug: bool = False) -> Report:
+    """Resolve roles, build the context, run the selected rules and assemble the report."""
+    registry = registry if registry is not None else discover()
+    selected = select_rules(registry, options)
+    table, replaced = apply_missing_codes(table, options.missing_codes)
+    roles = resolve_roles(table, options)
+    context = RunContext(table=table, info=info, roles=roles, options=options, replaced_codes=replaced)
+    outcomes = run_rules(context, selected, debug=debug)
+    findings = [f for o in outcomes for f in o.findings] + [error_finding(o) for o in outcomes if o.error]
+    design = context.design
+    description = design.describe()
+    description["kinds"] = {name: str(kind) for name, kind in roles.kinds.items()}
+    description["left_out"] = dict(roles.left_out)
+    description["id"] = roles.id
+    if replaced:
+        description["missing_codes_applied"] = dict(replaced)
+    return Report(
+        info=info,
+        target=roles.target,
+        parameters=design.p,
+        complete_cases=design.n,
+        design=description,
+        findings=tuple(sorted(findings, key=Finding.sort_key)),
+        outcomes=tuple(outcomes),
+        gate=options.gate,
+    )
+
+
+def _as_table(source: "pa.Table | pd.DataFrame | str | Path", read: ReadOptions) -> tuple[pa.Table, TableInfo]:
+    if isinstance(source, (str, Path)):
+        return read_table(str(source), read)
+    if isinstance(source, pa.Table):
+        table = source
+    else:
+        table = pa.Table.from_pandas(source, preserve_index=False)
+    if table.num_rows == 0:
+        raise UsageProblem("table", "has no data rows", "give a table with at least one row")
+    name = "<table>" if isinstance(source, pa.Table) else "<DataFrame>"
+    return table, TableInfo(path=name, format="memory", rows=table.num_rows, columns=table.num_columns, sha256=None)
+
+
+def options_from(**settings: Any) -> CheckOptions:
+    """CheckOptions from keyword settings (config keys with ``_`` for ``-``, or field names)."""
+    raw: dict[str, Any] = {}
+    for key, value in settings.items():
+        if value is None:
+            continue
+        config_key = key.replace("_", "-")
+        if key == "fail_at":
+            config_key = "gate"
+        if config_key not in SETTINGS_BY_KEY and key in {f.name for f in fields(CheckOptions)}:
+            config_key = next(s.key for s in SETTINGS_BY_KEY.values() if s.field == key)
+        raw[config_key] = value
+    return replace(CheckOptions(), **parse_settings(raw, "prefit.check"))
+
+
+def check(table: "pa.Table | pd.DataFrame | str | Path", target: str | None = None, **options: Any) -> Report:
+    """Vet ``table`` (a DataFrame, a pyarrow Table or a path) before fitting ``target`` on it.
+
+    Keyword options are the configuration keys (``id``, ``exclude``,
+    ``predictors``, ``categorical``, ``intercept``, ``fail_at``,
+    ``skip_rules``, ``rule``, ``missing_codes``, ``sep``, ``encoding``).
+    """
+    opts = options_from(target=target, **options)
+    data, info = _as_table(table, ReadOptions(sep=opts.sep, encoding=opts.encoding))
+    return run_check(data, info, opts)
+
+
+class NotReady(AssertionError):
+    """Raised by :func:`require_ready` when a table has findings at or above the gate."""
+
+    def __init__(self, report: Report) -> None:
+        self.report = report
+        lines = [f"{f.grade.word}: {f.rule}: {f.message}" for f in report.gated]
+        if report.failed_rules:
+            lines.append(f"check incomplete: rules failed: {', '.join(report.failed_rules)}")
+        super().__init__("table is not ready for a linear fit:\n" + "\n".join(lines))
+
+
+def require_ready(table: "pa.Table | pd.DataFrame | str | Path", target: str | None = None, fail_at: str = "misleads", **options: Any) -> Report:
+    """Check ``table`` and raise :class:`NotReady` listing the findings at or above ``fail_at``."""
+    report = check(table, target=target, fail_at=fail_at, **options)
+    if report.exit_code != 0:
+        raise NotReady(report)
+    return report
+
+
+GRADE_WORDS = tuple(g.word for g in GRADES_STRONGEST_FIRST)

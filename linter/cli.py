@@ -1,0 +1,189 @@
+"""The command line: ``prefit check``, ``prefit rules``, ``prefit why``; built on the Python API."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import sys
+from dataclasses import replace
+from pathlib import Path
+from typing import Any, NoReturn, Sequence
+
+from . import __version__
+from .errors import UsageProblem
+
+EXIT_OK, EXIT_GATE, EXIT_USAGE, EXIT_INCOMPLETE = 0, 1, 2, 3
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with one-line errors and exit code 2."""
+
+    def error(self, message: str) -> NoReturn:
+        raise UsageProblem(self.prog, message, f"see `{self.prog} --help`")
+
+
+def _names(text: str) -> list[str]:
+    return [part.strip() for part in text.split(",") if part.strip()]
+
+
+def _build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(prog="prefit", description="Vet a table before anyone fits a linear regression to it.")
+    parser.add_argument("--version", action="version", version=f"prefit {__version__}")
+    parser.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+    commands = parser.add_subparsers(dest="command", parser_class=_Parser, metavar="COMMAND")
+
+    check = commands.add_parser("check", help="vet a table and report graded findings")
+    check.add_argument("table", metavar="TABLE", help="CSV/TSV (optionally .gz/.bz2/.zst), Parquet, Arrow/Feather, JSON Lines; - for CSV on stdin")
+    check.add_argument("--target", help="the response column")
+    check.add_argument("--id", help="a column of row labels (never a predictor)")
+    check.add_argument("--exclude", type=_names, help="columns to leave out, comma-separated")
+    check.add_argument("--predictors", type=_names, help="exactly these predictors, comma-separated")
+    check.add_argument("--categorical", type=_names, help="numeric columns that are codes of categories")
+    check.add_argument("--no-intercept", action="store_true", help="fit without an intercept")
+    check.add_argument("--fail-at", metavar="GRADE", help="weakest grade that fails the check: blocks, misleads (default), weakens, note")
+    check.add_argument("--skip", type=_names, metavar="RULES", help="rule ids or families not to run, comma-separated")
+    check.add_argument("--missing-codes", action="append", metavar="COL=CODE[,CODE]", help="values of COL that mean missing (COL * for every column); repeatable")
+    check.add_argument("--sep", help="delimiter of a text table (sniffed when absent)")
+    check.add_argument("--encoding", help="encoding of a text table (default utf-8)")
+    check.add_argument("--format", default="text", help="text (default) or json")
+    check.add_argument("--output", metavar="FILE", help="write the report to FILE instead of stdout")
+    check.add_argument("--config", metavar="FILE", help="a prefit.toml or pyproject.toml (default: searched upward from here)")
+    check.add_argument("--no-config", action="store_true", help="ignore configuration files")
+    check.add_argument("--explain", action="store_true", help="print each finding's why under it")
+    check.add_argument("--colour", choices=("auto", "always", "never"), default="auto", help="colour in the text report")
+
+    rules = commands.add_parser("rules", help="list the rule catalogue")
+    rules.add_argument("--format", default="text", choices=("text", "json"))
+
+    why = commands.add_parser("why", help="explain a rule: what it does to a fit, thresholds, sources, remedy")
+    why.add_argument("rule", nargs="?", metavar="RULE")
+    return parser
+
+
+def _missing_codes(specs: list[str] | None) -> dict[str, list[str]]:
+    codes: dict[str, list[str]] = {}
+    for spec in specs or []:
+        column, sep, values = spec.partition("=")
+        if not sep or not column or not values:
+            raise UsageProblem(f"--missing-codes {spec!r}", "must be COL=CODE[,CODE]", "write e.g. --missing-codes humidity_pct=-999")
+        codes.setdefault(column, []).extend(v.strip() for v in values.split(","))
+    return codes
+
+
+def _options_from_args(args: argparse.Namespace) -> Any:
+    from .config import load_config
+    from .options import CheckOptions, parse_settings
+
+    values: dict[str, Any] = {}
+    if not args.no_config:
+        _, values = load_config(args.config, Path.cwd())
+    flags: dict[str, Any] = {}
+    for key, value in (
+        ("target", args.target),
+        ("id", args.id),
+        ("exclude", args.exclude),
+        ("predictors", args.predictors),
+        ("categorical", args.categorical),
+        ("gate", args.fail_at),
+        ("skip-rules", args.skip),
+        ("sep", args.sep),
+        ("encoding", args.encoding),
+    ):
+        if value is not None:
+            flags[key] = value
+    if args.no_intercept:
+        flags["intercept"] = False
+    if args.missing_codes:
+        flags["missing-codes"] = _missing_codes(args.missing_codes)
+    parsed = parse_settings(flags, "command line")
+    if "missing_codes" in parsed and "missing_codes" in values:
+        parsed["missing_codes"] = {**values["missing_codes"], **parsed["missing_codes"]}
+    return replace(CheckOptions(), **{**values, **parsed})
+
+
+def _write(text: str, output: str | None) -> None:
+    if output is None:
+        sys.stdout.write(text)
+        sys.stdout.flush()
+        return
+    try:
+        Path(output).write_text(text, encoding="utf-8")
+    except OSError as exc:
+        raise UsageProblem(f"--output {output}", f"cannot be written ({exc.strerror})", "choose a writable path") from None
+
+
+def _colour(choice: str, output: str | None) -> bool:
+    if choice != "auto":
+        return choice == "always"
+    return output is None and sys.stdout.isatty() and "NO_COLOR" not in os.environ
+
+
+def _command_check(args: argparse.Namespace) -> int:
+    from .api import run_check
+    from .reading import ReadOptions, read_table
+    from .report import FORMATS
+
+    if args.format not in FORMATS:
+        raise UsageProblem(f"--format {args.format}", "is not a report format", f"use one of {', '.join(FORMATS)}")
+    options = _options_from_args(args)
+    table, info = read_table(args.table, ReadOptions(sep=options.sep, encoding=options.encoding))
+    report = run_check(table, info, options, debug=args.debug)
+    if args.format == "text":
+        from .report.terminal import render_terminal
+
+        explain = _why_texts() if args.explain else None
+        text = render_terminal(report, colour=_colour(args.colour, args.output), explain=explain)
+    else:
+        text = FORMATS[args.format](report)
+    _write(text, args.output)
+    return report.exit_code
+
+
+def _why_texts() -> dict[str, str]:
+    from .registry import discover
+
+    return {rule.id: rule.why for rule in discover()}
+
+
+def _command_rules(args: argparse.Namespace) -> int:
+    from .catalogue import catalogue_json, catalogue_text
+
+    _write(catalogue_json() if args.format == "json" else catalogue_text(), None)
+    return EXIT_OK
+
+
+def _command_why(args: argparse.Namespace) -> int:
+    from .catalogue import explain_rule, list_by_family
+
+    _write(explain_rule(args.rule) if args.rule else list_by_family(), None)
+    return EXIT_OK
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; return the exit code."""
+    parser = _build_parser()
+    argv = list(sys.argv[1:] if argv is None else argv)
+    debug = "--debug" in argv
+    try:
+        args = parser.parse_args(argv)
+        if args.command is None:
+            parser.print_help()
+            return EXIT_USAGE
+        handler = {"check": _command_check, "rules": _command_rules, "why": _command_why}[args.command]
+        return handler(args)
+    except UsageProblem as problem:
+        if debug:
+            raise
+        print(f"prefit: {problem}", file=sys.stderr)
+        return EXIT_USAGE
+    except MemoryError:
+        print("prefit: the table does not fit in memory; run on a machine with more memory", file=sys.stderr)
+        return EXIT_USAGE
+    except KeyboardInterrupt:
+        print("prefit: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,112 @@
+"""The run context: the table, its roles and design, and shared statistics computed lazily and once."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from functools import cached_property
+from typing import Sequence
+
+import numpy as np
+import pyarrow as pa
+
+from .design import Design, build_design
+from .findings import MAX_LISTED_ROWS, RowLabel
+from .options import CheckOptions
+from .reading import TableInfo
+from .roles import Kind, Roles, label_values, numeric_values
+from .rule import top_rows
+from .stats.factor import DesignFactor
+from .stats.fit import PreliminaryFit, RowScores
+from .stats.mergeable import Moments
+from .stats.summaries import ColumnSummary, summarise
+
+
+@dataclass
+class RunContext:
+    """Everything a rule may read. Each statistic is computed on first use and then shared.
+
+    Rules must treat the context as read-only: they receive the same object
+    and every cached array is shared between them.
+    """
+
+    table: pa.Table
+    info: TableInfo
+    roles: Roles
+    options: CheckOptions
+    replaced_codes: dict[str, int] = field(default_factory=dict)
+    _summaries: dict[str, ColumnSummary] = field(default_factory=dict, init=False, repr=False)
+
+    @cached_property
+    def design(self) -> Design:
+        """The complete-case design matrix and target (built once)."""
+        return build_design(self.table, self.roles, intercept=self.options.intercept)
+
+    @cached_property
+    def factor(self) -> DesignFactor:
+        """Pivoted QR of the unit-length-scaled design; O(n p^2)."""
+        return DesignFactor.of(self.design.X, self.design.y)
+
+    @cached_property
+    def fit(self) -> PreliminaryFit:
+        """Least squares on the complete cases, from :attr:`factor`."""
+        y = self.design.y
+        moments = Moments.of(y)
+        tss = moments.m2 if self.options.intercept else float(np.dot(y, y))
+        return PreliminaryFit(self.factor, tss, self.options.intercept)
+
+    @cached_property
+    def row_scores(self) -> RowScores:
+        """Leverage and residuals of every complete case; O(n p^2), never an n x n matrix."""
+        return self.fit.score_rows(self.design.X, self.design.y)
+
+    def summary(self, column: str) -> ColumnSummary:
+        """Counts, moments and mode of one table column (all rows)."""
+        if column not in self._summaries:
+            kind = self.roles.kinds[column]
+            self._summaries[column] = summarise(column, self.table.column(column), kind)
+        return self._summaries[column]
+
+    def values(self, column: str) -> np.ndarray:
+        """A numeric column over all table rows as float64 (NaN for missing)."""
+        return numeric_values(self.table.column(column))
+
+    @property
+    def target_is_numeric(self) -> bool:
+        """Whether the target can enter a least-squares fit (numeric or true/false)."""
+        return self.roles.kinds[self.roles.target] in (Kind.NUMERIC, Kind.BOOLEAN)
+
+    @property
+    def model_columns(self) -> tuple[str, ...]:
+        """The target followed by the predictors."""
+        return (self.roles.target, *self.roles.predictors)
+
+    @property
+    def numeric_predictors(self) -> tuple[str, ...]:
+        """Predictors that enter the design as one numeric column each."""
+        return tuple(c for c in self.roles.predictors if self.roles.kinds[c] is Kind.NUMERIC)
+
+    @cached_property
+    def _labels(self) -> list[RowLabel] | None:
+        if self.roles.id is None:
+            return None
+        column = self.table.column(self.roles.id)
+        if pa.types.is_integer(column.type):
+            return [v if v is not None else "" for v in column.to_pylist()]
+        return [v if v is not None else "" for v in label_values(column)]
+
+    def row_label(self, position: int) -> RowLabel:
+        """The label of 0-based table row ``position``: its id value, or its 1-based data row number."""
+        labels = self._labels
+        return labels[position] if labels is not None else int(position) + 1
+
+    def listed_rows(
+        self, positions: Sequence[int] | np.ndarray, measures: Sequence[float] | np.ndarray | None = None
+    ) -> tuple[list[RowLabel], list[float | None], int]:
+        """Labels, measured values and total count of rows for a finding, most extreme first, capped."""
+        positions = np.asarray(positions, dtype=np.int64)
+        total = int(positions.size)
+        if measures is None:
+            chosen = np.sort(positions)[:MAX_LISTED_ROWS]
+            return [self.row_label(int(p)) for p in chosen], [], total
+        chosen, values = top_rows(positions, np.asarray(measures, dtype=float))
+        return [self.row_label(int(p)) for p in chosen], [float(v) for v in values], total

@@ -1,0 +1,82 @@
+"""Running the rules: configure each from the options, call it, and contain its failures."""
+
+from __future__ import annotations
+
+import traceback
+from dataclasses import dataclass
+from typing import Iterable
+
+from .context import RunContext
+from .errors import UsageProblem, closest_names
+from .findings import Finding, Grade
+from .options import CheckOptions
+from .registry import Registry
+from .rule import RuleLike, RuleSettings, rule_family
+
+RULE_ERROR = "engine.rule-error"
+
+
+@dataclass(frozen=True)
+class RuleOutcome:
+    """What one rule did: its findings, or the error that stopped it."""
+
+    rule: str
+    findings: tuple[Finding, ...]
+    error: str | None = None
+
+
+def select_rules(registry: Registry, options: CheckOptions) -> list[tuple[RuleLike, RuleSettings]]:
+    """The rules to run, each with its configured settings, in id order."""
+    families = set(registry.families())
+    for wanted in (*options.skip_rules, *options.rules):
+        if registry.get(wanted) is None and wanted not in families:
+            raise UsageProblem(f"rule {wanted!r}", "is not a known rule or family", closest_names(wanted, sorted(registry.rules)) + "; `prefit rules` lists them")
+    chosen: list[tuple[RuleLike, RuleSettings]] = []
+    for rule in registry:
+        if rule.id in options.skip_rules or rule_family(rule.id) in options.skip_rules:
+            continue
+        config = options.rules.get(rule.id) or options.rules.get(rule_family(rule.id))
+        settings = RuleSettings.defaults(rule)
+        if config is not None:
+            if not config.enabled:
+                continue
+            try:
+                settings = settings.with_values(config.thresholds)
+            except KeyError as exc:
+                names = ", ".join(t.name for t in rule.thresholds) or "none"
+                raise UsageProblem(f"rule {rule.id}", f"has no threshold {exc.args[0]!r}", f"its thresholds are: {names}") from None
+            settings = RuleSettings(settings.rule, settings.thresholds, config.grade, frozenset(config.exempt))
+        chosen.append((rule, settings))
+    return chosen
+
+
+def run_rule(rule: RuleLike, settings: RuleSettings, context: RunContext, debug: bool = False) -> RuleOutcome:
+    """Run one rule; an exception becomes an outcome with an error instead of stopping the run."""
+    try:
+        produced = list(rule.check(context, settings))
+        for item in produced:
+            if not isinstance(item, Finding):
+                raise TypeError(f"check() yielded {type(item).__name__}, not a Finding")
+    except Exception as exc:  # a rule never crashes the run
+        if debug:
+            traceback.print_exc()
+        return RuleOutcome(rule.id, (), f"{type(exc).__name__}: {exc}")
+    kept = tuple(f for f in produced if not (settings.exempt and settings.exempt.intersection(f.columns)))
+    return RuleOutcome(rule.id, kept)
+
+
+def error_finding(outcome: RuleOutcome) -> Finding:
+    """The report entry for a rule that failed: the check is incomplete."""
+    return Finding(
+        rule=RULE_ERROR,
+        grade=Grade.NOTE,
+        message=f"rule {outcome.rule} failed and reported nothing: {outcome.error}",
+        remedy=f"the check is incomplete; run with --debug for the traceback and report it, or skip the rule with --skip {outcome.rule}",
+        source="prefit engine",
+        details={"failed_rule": outcome.rule},
+    )
+
+
+def run_rules(context: RunContext, selected: Iterable[tuple[RuleLike, RuleSettings]], debug: bool = False) -> list[RuleOutcome]:
+    """Run every selected rule against one context."""
+    return [run_rule(rule, settings, context, debug) for rule, settings in selected]

@@ -1,0 +1,151 @@
+"""Grades and findings: the one record every rule produces and every reporter reads."""
+
+from __future__ import annotations
+
+import enum
+import math
+from dataclasses import dataclass, field, fields
+from typing import Any, Mapping, Sequence
+
+JSONScalar = str | int | float | bool | None
+RowLabel = str | int
+
+MAX_LISTED_ROWS = 50
+
+
+class Grade(enum.IntEnum):
+    """How much a finding damages a least-squares fit; larger is worse."""
+
+    NOTE = 1
+    WEAKENS = 2
+    MISLEADS = 3
+    BLOCKS = 4
+
+    @property
+    def word(self) -> str:
+        """The grade as printed and written in every report."""
+        return self.name.lower()
+
+    @classmethod
+    def parse(cls, word: str) -> "Grade":
+        """Read a grade word (``blocks``, ``misleads``, ``weakens``, ``note``)."""
+        try:
+            return cls[word.strip().upper()]
+        except KeyError:
+            raise ValueError(
+                f"{word!r} is not a grade; use one of {', '.join(g.word for g in GRADES_STRONGEST_FIRST)}"
+            ) from None
+
+
+GRADES_STRONGEST_FIRST: tuple[Grade, ...] = tuple(sorted(Grade, reverse=True))
+
+GRADE_MEANINGS: Mapping[Grade, str] = {
+    Grade.BLOCKS: "the model cannot be fitted, or its estimates are undefined",
+    Grade.MISLEADS: "the fit runs, but coefficients, standard errors or p-values would be materially wrong or unstable",
+    Grade.WEAKENS: "precision, power or generality suffer",
+    Grade.NOTE: "worth knowing; no action needed",
+}
+
+
+def json_number(value: float | int | None) -> float | int | None:
+    """A number as JSON can carry it: NaN and infinities become None."""
+    if value is None:
+        return None
+    if isinstance(value, bool):
+        return int(value)
+    if isinstance(value, int):
+        return value
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+def plain_json(value: Any) -> Any:
+    """Turn numpy scalars, tuples and non-finite floats into plain JSON types."""
+    if isinstance(value, Mapping):
+        return {str(k): plain_json(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [plain_json(v) for v in value]
+    if isinstance(value, (str, bool)) or value is None:
+        return value
+    if hasattr(value, "item"):
+        value = value.item()
+    if isinstance(value, (int, float)):
+        return json_number(value)
+    return str(value)
+
+
+@dataclass(frozen=True)
+class Finding:
+    """One graded observation about the table, with the numbers behind it.
+
+    ``rows`` lists at most ``MAX_LISTED_ROWS`` row labels (values of the id
+    column, or 1-based data row numbers); ``row_count`` is the total number of
+    rows concerned, and ``row_values`` the measured value for each listed row.
+    """
+
+    rule: str
+    grade: Grade
+    message: str
+    columns: tuple[str, ...] = ()
+    rows: tuple[RowLabel, ...] = ()
+    row_values: tuple[float | None, ...] = ()
+    row_count: int = 0
+    value: float | None = None
+    threshold: float | None = None
+    source: str = ""
+    remedy: str = ""
+    details: Mapping[str, Any] = field(default_factory=dict)
+
+    def sort_key(self) -> tuple[Any, ...]:
+        """Strongest grade first, then rule, columns and rows, for a stable report order."""
+        return (
+            -int(self.grade),
+            self.rule,
+            self.columns,
+            tuple((isinstance(r, str), str(r) if isinstance(r, str) else r) for r in self.rows),
+            self.message,
+        )
+
+    def to_dict(self) -> dict[str, Any]:
+        """The finding as plain JSON types (NaN and infinities as None)."""
+        return {
+            "rule": self.rule,
+            "grade": self.grade.word,
+            "columns": list(self.columns),
+            "rows": list(self.rows),
+            "row_values": [json_number(v) for v in self.row_values],
+            "row_count": self.row_count,
+            "value": json_number(self.value),
+            "threshold": json_number(self.threshold),
+            "message": self.message,
+            "remedy": self.remedy,
+            "source": self.source,
+            "details": plain_json(self.details),
+        }
+
+    @classmethod
+    def from_dict(cls, data: Mapping[str, Any]) -> "Finding":
+        """Rebuild a finding written by :meth:`to_dict`."""
+        known = {f.name for f in fields(cls)}
+        unknown = set(data) - known
+        if unknown:
+            raise ValueError(f"finding has unknown keys: {', '.join(sorted(unknown))}")
+        return cls(
+            rule=data["rule"],
+            grade=Grade.parse(data["grade"]),
+            message=data["message"],
+            columns=tuple(data.get("columns", ())),
+            rows=tuple(data.get("rows", ())),
+            row_values=tuple(data.get("row_values", ())),
+            row_count=int(data.get("row_count", 0)),
+            value=data.get("value"),
+            threshold=data.get("threshold"),
+            source=data.get("source", ""),
+            remedy=data.get("remedy", ""),
+            details=dict(data.get("details", {})),
+        )
+
+
+def count_by_grade(findings: Sequence[Finding]) -> dict[str, int]:
+    """Number of findings per grade word, strongest grade first."""
+    return {g.word: sum(1 for f in findings if f.grade is g) for g in GRADES_STRONGEST_FIRST}

@@ -1,0 +1,259 @@
+"""Reading a table from disk (or stdin) into a pyarrow Table, keeping exact types."""
+
+from __future__ import annotations
+
+import bz2
+import csv
+import gzip
+import hashlib
+import io
+import os
+import sys
+from dataclasses import dataclass
+from pathlib import Path
+from typing import BinaryIO
+
+import pyarrow as pa
+
+from .errors import UsageProblem
+
+SNIFF_BYTES = 64 * 1024
+GZIP_MAGIC = b"\x1f\x8b"
+BZ2_MAGIC = b"BZh"
+ZSTD_MAGIC = b"\x28\xb5\x2f\xfd"
+PARQUET_MAGIC = b"PAR1"
+ARROW_FILE_MAGIC = b"ARROW1"
+ARROW_STREAM_MAGIC = b"\xff\xff\xff\xff"
+TEXT_FORMATS = ("csv", "jsonl")
+
+
+@dataclass(frozen=True)
+class TableInfo:
+    """Facts about the input: how it was named, what it holds, and its digest."""
+
+    path: str
+    format: str
+    rows: int
+    columns: int
+    sha256: str | None
+
+
+@dataclass(frozen=True)
+class ReadOptions:
+    """How to read a table: delimiter and encoding for text formats."""
+
+    sep: str | None = None
+    encoding: str = "utf-8"
+
+
+def _format_from_name(name: str) -> tuple[str | None, str | None]:
+    lowered = name.lower()
+    compression = None
+    for suffix, codec in ((".gz", "gzip"), (".bz2", "bz2"), (".zst", "zstd"), (".zstd", "zstd")):
+        if lowered.endswith(suffix):
+            compression = codec
+            lowered = lowered[: -len(suffix)]
+    for suffixes, fmt in (
+        ((".parquet", ".pq"), "parquet"),
+        ((".arrow", ".feather", ".ipc"), "arrow"),
+        ((".jsonl", ".ndjson"), "jsonl"),
+        ((".csv", ".tsv", ".txt", ".tab", ".psv"), "csv"),
+    ):
+        if lowered.endswith(suffixes):
+            return fmt, compression
+    return None, compression
+
+
+def _format_from_bytes(head: bytes) -> tuple[str | None, str | None]:
+    if head.startswith(PARQUET_MAGIC):
+        return "parquet", None
+    if head.startswith(ARROW_FILE_MAGIC) or head.startswith(ARROW_STREAM_MAGIC):
+        return "arrow", None
+    for magic, codec in ((GZIP_MAGIC, "gzip"), (BZ2_MAGIC, "bz2"), (ZSTD_MAGIC, "zstd")):
+        if head.startswith(magic):
+            return None, codec
+    if head.lstrip().startswith(b"{"):
+        return "jsonl", None
+    return None, None
+
+
+def _decompress(data: bytes, codec: str | None, where: str) -> bytes:
+    if codec is None:
+        return data
+    try:
+        if codec == "gzip":
+            return gzip.decompress(data)
+        if codec == "bz2":
+            return bz2.decompress(data)
+        stream = pa.input_stream(pa.py_buffer(data), compression="zstd")
+        return bytes(stream.read())
+    except (OSError, EOFError, ValueError, pa.ArrowException) as exc:
+        raise UsageProblem(where, f"is not a readable {codec} file ({exc})", "check that the file is complete") from None
+
+
+def _sniff_sep(text_head: str, where: str) -> str:
+    sample = "\n".join(text_head.splitlines()[:50])
+    try:
+        return csv.Sniffer().sniff(sample, delimiters=",;\t|").delimiter
+    except csv.Error:
+        return ","
+
+
+def _check_encoding(data: bytes, encoding: str, where: str) -> bytes:
+    """Return UTF-8 bytes (without BOM); any other encoding is transcoded when declared."""
+    if encoding.lower().replace("_", "-") in ("utf-8", "utf8", "utf-8-sig"):
+        if data.startswith(b"\xef\xbb\xbf"):
+            data = data[3:]
+        try:
+            data.decode("utf-8")
+        except UnicodeDecodeError as exc:
+            line = data.count(b"\n", 0, exc.start) + 1
+            raise UsageProblem(
+                where,
+                f"is not valid UTF-8 (byte {data[exc.start]:#04x} on line {line})",
+                "name the file's encoding with --encoding, e.g. --encoding latin-1",
+            ) from None
+        return data
+    try:
+        return data.decode(encoding).encode("utf-8")
+    except LookupError:
+        raise UsageProblem("--encoding", f"{encoding!r} is not a known encoding", "use e.g. utf-8, latin-1, cp1252") from None
+    except UnicodeDecodeError as exc:
+        raise UsageProblem(where, f"cannot be decoded as {encoding} ({exc.reason})", "name the right --encoding") from None
+
+
+def _read_csv(data: bytes, options: ReadOptions, where: str) -> pa.Table:
+    import pyarrow.csv as pacsv
+
+    if not data.strip():
+        raise UsageProblem(where, "is empty", "give a table with a header row and data rows")
+    text_head = data[:SNIFF_BYTES].decode("utf-8", errors="ignore")
+    sep = options.sep if options.sep is not None else _sniff_sep(text_head, where)
+    if sep == "\\t":
+        sep = "\t"
+    if len(sep) != 1:
+        raise UsageProblem("--sep", f"must be one character, got {sep!r}", "use e.g. --sep ';' or --sep '\\t'")
+    header = next(csv.reader(io.StringIO(text_head.splitlines()[0] if text_head else ""), delimiter=sep), [])
+    _check_header(header, where)
+    try:
+        table = pacsv.read_csv(
+            io.BytesIO(data),
+            read_options=pacsv.ReadOptions(block_size=1 << 24),
+            parse_options=pacsv.ParseOptions(delimiter=sep),
+            convert_options=pacsv.ConvertOptions(null_values=[""], strings_can_be_null=True, quoted_strings_can_be_null=True),
+        )
+    except pa.ArrowInvalid as exc:
+        text = str(exc)
+        if "Expected" in text and "columns" in text:
+            line, found = _first_ragged_line(data, sep, len(header))
+            raise UsageProblem(
+                where,
+                f"line {line} has {found} fields where the header has {len(header)}",
+                "fix that line (a stray delimiter or an unquoted value) or give the right --sep",
+            ) from None
+        if "Empty CSV file" in text:
+            raise UsageProblem(where, "is empty", "give a table with a header row and data rows") from None
+        raise UsageProblem(where, f"cannot be read as delimited text ({text.splitlines()[0]})", "check the file and --sep") from None
+    return table
+
+
+def _first_ragged_line(data: bytes, sep: str, width: int) -> tuple[int, int]:
+    reader = csv.reader(io.StringIO(data.decode("utf-8", errors="replace")), delimiter=sep)
+    for row in reader:
+        if row and len(row) != width:
+            return reader.line_num, len(row)
+    return 0, width
+
+
+def _check_header(header: list[str], where: str) -> None:
+    seen: set[str] = set()
+    for name in header:
+        if name in seen:
+            raise UsageProblem(where, f"has two columns named {name!r}", "rename one of them so every column name is unique")
+        seen.add(name)
+
+
+def _read_jsonl(data: bytes, where: str) -> pa.Table:
+    import pyarrow.json as pajson
+
+    if not data.strip():
+        raise UsageProblem(where, "is empty", "give one JSON object per line")
+    try:
+        return pajson.read_json(io.BytesIO(data))
+    except pa.ArrowInvalid as exc:
+        raise UsageProblem(where, f"is not valid JSON Lines ({str(exc).splitlines()[0]})", "write one JSON object per line") from None
+
+
+def _read_parquet(source: BinaryIO | str, where: str) -> pa.Table:
+    import pyarrow.parquet as pq
+
+    try:
+        return pq.read_table(source)
+    except (pa.ArrowInvalid, OSError) as exc:
+        raise UsageProblem(where, f"is not a readable Parquet file ({str(exc).splitlines()[0]})", "re-export it or check that the copy is complete") from None
+
+
+def _read_arrow(data: bytes, where: str) -> pa.Table:
+    import pyarrow.ipc as ipc
+
+    try:
+        if data.startswith(ARROW_FILE_MAGIC):
+            return ipc.open_file(pa.py_buffer(data)).read_all()
+        return ipc.open_stream(pa.py_buffer(data)).read_all()
+    except (pa.ArrowInvalid, OSError) as exc:
+        raise UsageProblem(where, f"is not a readable Arrow IPC/Feather file ({str(exc).splitlines()[0]})", "re-export it") from None
+
+
+def _load_bytes(path: str) -> bytes:
+    if path == "-":
+        return sys.stdin.buffer.read()
+    file = Path(path)
+    if not file.exists():
+        raise UsageProblem(path, "does not exist", "check the path (relative paths start from the current directory)")
+    if file.is_dir():
+        raise UsageProblem(path, "is a folder, not a table file", "name one file (CSV, Parquet, Arrow, JSON Lines)")
+    try:
+        with open(file, "rb") as handle:
+            return handle.read()
+    except OSError as exc:
+        raise UsageProblem(path, f"cannot be opened ({exc.strerror})", "check the file's permissions") from None
+
+
+def read_table(path: str, options: ReadOptions = ReadOptions()) -> tuple[pa.Table, TableInfo]:
+    """Read ``path`` (``-`` for CSV on stdin) read-only and return the table with its facts."""
+    raw = _load_bytes(path)
+    if not raw:
+        raise UsageProblem(path, "is empty", "give a table with a header row and data rows")
+    digest = hashlib.sha256(raw).hexdigest()
+    fmt, codec = _format_from_name(path) if path != "-" else (None, None)
+    sniffed_fmt, sniffed_codec = _format_from_bytes(raw[:16])
+    codec = sniffed_codec or (codec if sniffed_fmt is None else None)
+    data = _decompress(raw, codec, path)
+    if fmt is None or codec:
+        content_fmt, _ = _format_from_bytes(data[:16])
+        fmt = fmt or content_fmt
+    if sniffed_fmt in ("parquet", "arrow"):
+        fmt = sniffed_fmt
+    fmt = fmt or "csv"
+    if fmt == "parquet":
+        table = _read_parquet(pa.BufferReader(data), path)  # type: ignore[arg-type]
+    elif fmt == "arrow":
+        table = _read_arrow(data, path)
+    else:
+        data = _check_encoding(data, options.encoding, path)
+        table = _read_jsonl(data, path) if fmt == "jsonl" else _read_csv(data, options, path)
+    _check_header(list(table.column_names), path)
+    if table.num_columns == 0:
+        raise UsageProblem(path, "has no columns", "give a table with a header row")
+    if table.num_rows == 0:
+        raise UsageProblem(path, "has a header but no data rows", "give a table with at least one data row")
+    for name, column in zip(table.column_names, table.columns):
+        if pa.types.is_binary(column.type) or pa.types.is_large_binary(column.type):
+            raise UsageProblem(path, f"column {name!r} holds bytes that are not text", "name the file's encoding with --encoding")
+    info = TableInfo(path=path, format=fmt, rows=table.num_rows, columns=table.num_columns, sha256=digest)
+    return table, info
+
+
+def is_readable_file(path: str) -> bool:
+    """Whether ``path`` names an existing regular file (or stdin)."""
+    return path == "-" or os.path.isfile(path)

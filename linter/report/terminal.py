@@ -1,0 +1,138 @@
+"""The terminal report, drawn with rich; our own semantic style names map to colours in one Theme."""
+
+from __future__ import annotations
+
+import io
+from typing import TYPE_CHECKING
+
+from rich.console import Console
+from rich.padding import Padding
+from rich.text import Text
+from rich.theme import Theme
+
+from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade
+
+if TYPE_CHECKING:
+    from ..api import Report
+
+THEME = Theme(
+    {
+        "grade.blocks": "bold white on dark_red",
+        "grade.misleads": "bold red1",
+        "grade.weakens": "bold dark_orange",
+        "grade.note": "bold steel_blue",
+        "facts.label": "grey50",
+        "facts.value": "bold",
+        "finding.rule": "bold",
+        "finding.columns": "italic",
+        "finding.remedy": "green4",
+        "finding.why": "grey62",
+        "verdict.pass": "bold green4",
+        "verdict.fail": "bold red1",
+    }
+)
+PLAIN_WIDTH = 100
+MARKERS = {Grade.BLOCKS: "xx", Grade.MISLEADS: "!!", Grade.WEAKENS: "~~", Grade.NOTE: ".."}
+
+
+def _facts(report: "Report") -> Text:
+    text = Text()
+    pairs = [
+        ("rows", f"{report.info.rows:,}"),
+        ("columns", f"{report.info.columns:,}"),
+        ("target", report.target),
+        ("parameters", f"{report.parameters:,}"),
+        ("complete cases", f"{report.complete_cases:,}"),
+    ]
+    for i, (label, value) in enumerate(pairs):
+        if i:
+            text.append("  ")
+        text.append(f"{label} ", style="facts.label")
+        text.append(value, style="facts.value")
+    return text
+
+
+def _design_line(report: "Report") -> Text:
+    terms = report.design["terms"]
+    parts = ["intercept"] if report.design["intercept"] else []
+    numeric = sum(1 for t in terms if t["kind"] in ("numeric", "datetime"))
+    if numeric:
+        parts.append(f"{numeric} numeric")
+    for term in terms:
+        if "reference" in term:
+            parts.append(f"{term['column']} ({term['parameters']} dummies, reference {term['reference']!r})")
+        elif term["kind"] in ("categorical", "boolean"):
+            parts.append(f"{term['column']} (no complete rows)")
+    line = Text("design ", style="facts.label")
+    line.append(" + ".join(parts) or "empty")
+    left_out = report.design.get("left_out", {})
+    if report.design.get("id"):
+        line.append(f"; row labels from {report.design['id']!r}")
+    if left_out:
+        line.append("; left out: " + ", ".join(left_out))
+    return line
+
+
+INDENT_HEAD, INDENT_BODY = 2, 5
+
+
+def _finding_lines(finding: Finding, explain: str | None) -> list[tuple[int, Text]]:
+    head = Text()
+    head.append(f"{MARKERS[finding.grade]} ", style=f"grade.{finding.grade.word}")
+    head.append(finding.rule, style="finding.rule")
+    if finding.columns:
+        head.append("  " + ", ".join(finding.columns), style="finding.columns")
+    lines: list[tuple[int, Text]] = [(INDENT_HEAD, head), (INDENT_BODY, Text(finding.message))]
+    if finding.rows:
+        shown = ", ".join(str(r) for r in finding.rows[:10])
+        more = finding.row_count - min(len(finding.rows), 10)
+        lines.append((INDENT_BODY, Text(f"rows: {shown}" + (f" (+{more} more)" if more > 0 else ""), style="facts.label")))
+    if explain:
+        lines.append((INDENT_BODY, Text("why: " + explain, style="finding.why")))
+    if finding.remedy:
+        lines.append((INDENT_BODY, Text("fix: " + finding.remedy, style="finding.remedy")))
+    if finding.source:
+        lines.append((INDENT_BODY, Text("threshold source: " + finding.source, style="facts.label")))
+    return lines
+
+
+def render_terminal(report: "Report", colour: bool, width: int | None = None, explain: dict[str, str] | None = None) -> str:
+    """The report as terminal text; plain (no colour codes) when ``colour`` is false."""
+    buffer = io.StringIO()
+    console = Console(
+        file=buffer,
+        theme=THEME,
+        width=width or (None if colour else PLAIN_WIDTH),
+        force_terminal=colour,
+        color_system="truecolor" if colour else None,
+        highlight=False,
+        emoji=False,
+        soft_wrap=False,
+    )
+    console.print(Text(f"prefit {report.info.path}", style="bold"))
+    console.print(Padding(_facts(report), (0, 0, 0, INDENT_HEAD)))
+    console.print(Padding(_design_line(report), (0, 0, 0, INDENT_HEAD)))
+    counts = count_by_grade(report.findings)
+    for grade in GRADES_STRONGEST_FIRST:
+        group = [f for f in report.findings if f.grade is grade]
+        if not group:
+            continue
+        console.print()
+        heading = Text(f" {grade.word.upper()} ", style=f"grade.{grade.word}")
+        heading.append(f" {len(group)}  ({GRADE_MEANINGS[grade]})", style="facts.label")
+        console.print(heading)
+        for finding in group:
+            for indent, line in _finding_lines(finding, (explain or {}).get(finding.rule)):
+                console.print(Padding(line, (0, 0, 0, indent)))
+    console.print()
+    summary = ", ".join(f"{n} {word}" for word, n in counts.items())
+    if report.failed_rules:
+        verdict = Text(f"INCOMPLETE: {len(report.failed_rules)} rule(s) failed ({', '.join(report.failed_rules)}); ", style="verdict.fail")
+    elif report.gated:
+        verdict = Text(f"NOT READY at gate {report.gate.word}: ", style="verdict.fail")
+    else:
+        verdict = Text(f"READY at gate {report.gate.word}: ", style="verdict.pass")
+    verdict.append(summary or "no findings")
+    console.print(verdict)
+    text = buffer.getvalue()
+    return text if colour else "\n".join(line.rstrip() for line in text.split("\n"))

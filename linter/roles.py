@@ -1,0 +1,224 @@
+"""Column kinds and roles: which column is the target, which are labels, which enter the design."""
+
+from __future__ import annotations
+
+import enum
+import re
+from dataclasses import dataclass, field
+from typing import Mapping
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from .errors import UsageProblem, closest_names
+from .options import CheckOptions
+
+FREE_TEXT_MIN_LEVELS = 50
+FREE_TEXT_LEVEL_SHARE = 0.5
+IDENTIFIER_MIN_ROWS = 20
+
+
+class Kind(enum.Enum):
+    """What a column holds, as far as a linear model is concerned."""
+
+    NUMERIC = "numeric"
+    BOOLEAN = "boolean"
+    CATEGORICAL = "categorical"
+    DATETIME = "datetime"
+    TEXT = "text"
+
+    def __str__(self) -> str:
+        return self.value
+
+
+@dataclass(frozen=True)
+class Roles:
+    """The resolved roles of every column, and why any column was left out of the design."""
+
+    target: str
+    id: str | None
+    predictors: tuple[str, ...]
+    kinds: Mapping[str, Kind]
+    left_out: Mapping[str, str] = field(default_factory=dict)
+    declared_categorical: tuple[str, ...] = ()
+
+
+def _is_text_type(t: pa.DataType) -> bool:
+    return bool(pa.types.is_string(t) or pa.types.is_large_string(t) or pa.types.is_string_view(t))
+
+
+def _is_numeric_type(t: pa.DataType) -> bool:
+    return bool(pa.types.is_integer(t) or pa.types.is_floating(t) or pa.types.is_decimal(t) or pa.types.is_null(t))
+
+
+def infer_kind(column: pa.ChunkedArray, declared_categorical: bool) -> Kind:
+    """The kind of one column from its Arrow type and, for text, its number of distinct values."""
+    t = column.type
+    if pa.types.is_dictionary(t):
+        t = t.value_type
+    if _is_numeric_type(t):
+        return Kind.CATEGORICAL if declared_categorical else Kind.NUMERIC
+    if pa.types.is_boolean(t):
+        return Kind.BOOLEAN
+    if pa.types.is_temporal(t):
+        return Kind.DATETIME
+    if _is_text_type(t):
+        if declared_categorical:
+            return Kind.CATEGORICAL
+        present = len(column) - column.null_count
+        distinct = pc.count_distinct(column).as_py() if present else 0
+        if present >= IDENTIFIER_MIN_ROWS and distinct == present:
+            return Kind.TEXT
+        if distinct > FREE_TEXT_MIN_LEVELS and distinct > FREE_TEXT_LEVEL_SHARE * present:
+            return Kind.TEXT
+        return Kind.CATEGORICAL
+    return Kind.TEXT
+
+
+def _code_matches(column: pa.ChunkedArray, codes: tuple[str, ...]) -> pa.ChunkedArray:
+    """A boolean mask of values equal to one of ``codes`` (numbers compared as numbers)."""
+    if _is_text_type(column.type):
+        stripped = pc.utf8_trim_whitespace(column)
+        return pc.is_in(stripped, value_set=pa.array(list(codes), pa.string()))
+    if _is_numeric_type(column.type) and not pa.types.is_null(column.type):
+        numbers = [float(c) for c in codes if _is_number(c)]
+        if not numbers:
+            return pc.is_in(column, value_set=pa.array([], column.type))
+        return pc.is_in(pc.cast(column, pa.float64()), value_set=pa.array(numbers, pa.float64()))
+    return pc.is_in(pc.cast(column, pa.string()), value_set=pa.array(list(codes), pa.string()))
+
+
+_NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
+
+
+def _is_number(text: str) -> bool:
+    return bool(_NUMBER.match(text.strip()))
+
+
+def apply_missing_codes(table: pa.Table, codes: Mapping[str, tuple[str, ...]]) -> tuple[pa.Table, dict[str, int]]:
+    """Set declared missing codes to null; text columns that then hold only numbers become numeric.
+
+    Returns the new table and how many values each column lost to its codes.
+    """
+    names = table.column_names
+    for column in codes:
+        if column != "*" and column not in names:
+            raise UsageProblem(f"missing-codes: column {column!r}", "is not in the table", closest_names(column, names))
+    replaced: dict[str, int] = {}
+    for name in names:
+        wanted = codes.get(name, ()) + codes.get("*", ())
+        if not wanted:
+            continue
+        column = table.column(name)
+        mask = _code_matches(column, wanted)
+        hits = int(pc.sum(pc.cast(pc.fill_null(mask, False), pa.int64())).as_py() or 0)
+        if not hits:
+            continue
+        replaced[name] = hits
+        cleaned = pc.if_else(mask, pa.scalar(None, column.type), column)
+        if _is_text_type(cleaned.type):
+            cleaned = _numeric_if_possible(cleaned)
+        table = table.set_column(names.index(name), name, cleaned)
+    return table, replaced
+
+
+def _numeric_if_possible(column: pa.ChunkedArray) -> pa.ChunkedArray:
+    stripped = pc.utf8_trim_whitespace(column)
+    for target in (pa.int64(), pa.float64()):
+        try:
+            return pc.cast(stripped, target)
+        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+            continue
+    return column
+
+
+def _require_columns(names: list[str], wanted: tuple[str, ...], what: str) -> None:
+    for name in wanted:
+        if name not in names:
+            raise UsageProblem(f"{what} {name!r}", "is not a column of the table", closest_names(name, names))
+
+
+def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
+    """Decide target, id and predictors from the options and the columns' kinds."""
+    names = list(table.column_names)
+    if options.target is None:
+        raise UsageProblem("--target", "is required", f"name the response column, e.g. --target {names[-1]!r}")
+    _require_columns(names, (options.target,), "--target")
+    if options.id is not None:
+        _require_columns(names, (options.id,), "--id")
+    _require_columns(names, options.exclude, "--exclude")
+    _require_columns(names, options.categorical, "--categorical")
+    if options.predictors is not None:
+        _require_columns(names, options.predictors, "--predictors")
+        for special, flag in ((options.target, "--target"), (options.id, "--id")):
+            if special in options.predictors:
+                raise UsageProblem("--predictors", f"lists {special!r}, which is the {flag} column", f"remove it from --predictors")
+    declared = set(options.categorical)
+    kinds = {name: infer_kind(table.column(name), name in declared) for name in names}
+    left_out: dict[str, str] = {}
+    if options.predictors is not None:
+        predictors = tuple(dict.fromkeys(options.predictors))
+        for name in predictors:
+            if kinds[name] is Kind.TEXT:
+                kinds[name] = Kind.CATEGORICAL
+    else:
+        chosen: list[str] = []
+        for name in names:
+            if name in (options.target, options.id) or name in options.exclude:
+                continue
+            kind = kinds[name]
+            if kind is Kind.TEXT:
+                left_out[name] = _text_reason(table.column(name))
+            elif kind is Kind.DATETIME:
+                left_out[name] = "a date or time: its raw value is not a predictor; derive a trend, season or weekday column, or use it to order rows"
+            else:
+                chosen.append(name)
+        predictors = tuple(chosen)
+    return Roles(
+        target=options.target,
+        id=options.id,
+        predictors=predictors,
+        kinds=kinds,
+        left_out=left_out,
+        declared_categorical=tuple(options.categorical),
+    )
+
+
+def _text_reason(column: pa.ChunkedArray) -> str:
+    present = len(column) - column.null_count
+    distinct = pc.count_distinct(column).as_py() if present else 0
+    if distinct == present:
+        return f"text with a different value in each of its {present} rows (an identifier or free text); as a category it would cost one parameter per row"
+    return f"text with {distinct} distinct values in {present} rows; as a category it would cost {distinct - 1} parameters"
+
+
+def numeric_values(column: pa.ChunkedArray) -> np.ndarray:
+    """A numeric, boolean or datetime column as float64 with NaN for missing values."""
+    t = column.type
+    if pa.types.is_dictionary(t):
+        column = column.cast(t.value_type)
+        t = column.type
+    if pa.types.is_null(t):
+        return np.full(len(column), np.nan)
+    if pa.types.is_temporal(t):
+        seconds = pc.cast(pc.cast(column, pa.timestamp("s")), pa.int64())
+        return np.asarray(seconds.to_numpy(zero_copy_only=False), dtype=np.float64) / 86400.0
+    if pa.types.is_boolean(t):
+        column = pc.cast(column, pa.int8())
+    values = pc.cast(column, pa.float64()).to_numpy(zero_copy_only=False)
+    return np.asarray(values, dtype=np.float64)
+
+
+def label_values(column: pa.ChunkedArray) -> list[str | None]:
+    """A column as text labels (None for missing), for categories and row labels."""
+    t = column.type
+    if pa.types.is_dictionary(t):
+        column = column.cast(t.value_type)
+    if pa.types.is_floating(column.type):
+        return [None if v is None else _float_label(v) for v in column.to_pylist()]
+    return [None if v is None else (v if isinstance(v, str) else str(v)) for v in column.to_pylist()]
+
+
+def _float_label(value: float) -> str:
+    return str(int(value)) if float(value).is_integer() else repr(value)

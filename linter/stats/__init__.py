@@ -1,0 +1,1 @@
+"""The statistics layer: mergeable summaries, the QR factor of the design, the preliminary fit."""

@@ -1,0 +1,115 @@
+"""The preliminary least-squares fit, from the QR factor: coefficients, standard errors, residuals, leverage."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+
+import numpy as np
+import scipy.linalg
+
+from .factor import DesignFactor
+
+
+@dataclass(frozen=True)
+class RowScores:
+    """Per-row quantities of one batch of complete rows: leverage and raw residual."""
+
+    hat: np.ndarray
+    residual: np.ndarray
+
+
+@dataclass(frozen=True)
+class PreliminaryFit:
+    """Ordinary least squares on the complete cases, computed from the pivoted QR factor.
+
+    Columns beyond the numerical rank are not estimable: their coefficient
+    and standard error are NaN. ``tss`` is centred when the model has an
+    intercept and uncentred otherwise, as statistics packages report R^2.
+    """
+
+    factor: DesignFactor
+    tss: float
+    has_intercept: bool
+
+    @property
+    def n(self) -> int:
+        """Complete cases."""
+        return self.factor.n
+
+    @property
+    def rank(self) -> int:
+        """Numerical rank of the design."""
+        return self.factor.rank
+
+    @property
+    def df_resid(self) -> int:
+        """Residual degrees of freedom, n - rank."""
+        return self.n - self.rank
+
+    @cached_property
+    def _r11_inverse(self) -> np.ndarray:
+        k = self.rank
+        return scipy.linalg.solve_triangular(self.factor.r[:k, :k], np.eye(k)) if k else np.zeros((0, 0))
+
+    @cached_property
+    def coef(self) -> np.ndarray:
+        """Coefficients in the units of the design columns."""
+        f, k = self.factor, self.rank
+        out = np.full(f.p, np.nan)
+        if k:
+            solution = scipy.linalg.solve_triangular(f.r[:k, :k], f.qty[:k])
+            out[f.perm[:k]] = solution / f.scales[f.perm[:k]]
+        return out
+
+    @property
+    def rss(self) -> float:
+        """Residual sum of squares."""
+        return float(self.factor.rss_outside + np.sum(self.factor.qty[self.rank :] ** 2))
+
+    @property
+    def sigma(self) -> float:
+        """Residual standard deviation, sqrt(RSS / (n - rank)); NaN without residual degrees of freedom."""
+        return float(np.sqrt(self.rss / self.df_resid)) if self.df_resid > 0 else float("nan")
+
+    @cached_property
+    def cov_unscaled(self) -> np.ndarray:
+        """(X'X)^-1 over the estimable columns (others NaN), from R^-1 without forming X'X."""
+        f, k = self.factor, self.rank
+        out = np.full((f.p, f.p), np.nan)
+        if k:
+            inv = self._r11_inverse
+            cols = f.perm[:k]
+            scale = f.scales[cols]
+            out[np.ix_(cols, cols)] = (inv @ inv.T) / np.outer(scale, scale)
+        return out
+
+    @cached_property
+    def se(self) -> np.ndarray:
+        """Standard errors of the coefficients."""
+        return self.sigma * np.sqrt(np.diag(self.cov_unscaled))
+
+    @property
+    def r_squared(self) -> float:
+        """R^2 (centred with an intercept, uncentred without)."""
+        return 1.0 - self.rss / self.tss if self.tss > 0 else float("nan")
+
+    @property
+    def adjusted_r_squared(self) -> float:
+        """R^2 adjusted for the parameters used."""
+        dof_total = self.n - 1 if self.has_intercept else self.n
+        if self.df_resid <= 0 or dof_total <= 0:
+            return float("nan")
+        return 1.0 - (1.0 - self.r_squared) * dof_total / self.df_resid
+
+    def score_rows(self, X: np.ndarray, y: np.ndarray) -> RowScores:
+        """Leverage h_ii = ||R^-T x_i||^2 and residuals for a batch of complete rows (O(rows p^2))."""
+        f, k = self.factor, self.rank
+        coef = np.nan_to_num(self.coef)
+        residual = y - X @ coef
+        if not k:
+            return RowScores(np.zeros(len(y)), residual)
+        cols = f.perm[:k]
+        scaled = X[:, cols] / f.scales[cols]
+        w = scipy.linalg.solve_triangular(f.r[:k, :k], scaled.T, trans="T", check_finite=False)
+        return RowScores(np.einsum("ij,ij->j", w, w), residual)

@@ -1,0 +1,5 @@
+"""assumptions rules (being written)."""
+
+from prefit.rule import Rule
+
+RULES: list[Rule] = []

@@ -1,0 +1,5 @@
+"""influence rules (being written)."""
+
+from prefit.rule import Rule
+
+RULES: list[Rule] = []

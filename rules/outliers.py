@@ -1,0 +1,5 @@
+"""outliers rules (being written)."""
+
+from prefit.rule import Rule
+
+RULES: list[Rule] = []

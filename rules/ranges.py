@@ -1,0 +1,5 @@
+"""ranges rules (being written)."""
+
+from prefit.rule import Rule
+
+RULES: list[Rule] = []

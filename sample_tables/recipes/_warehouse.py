@@ -1,0 +1,55 @@
+"""The invented cold-storage scenario shared by every sample table: sites, days and their refrigeration energy.
+
+Every number here is invented for demonstrations; none is a measurement.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+COMPRESSOR_TYPES = ("screw", "scroll", "reciprocating", "CO2 transcritical")
+TYPE_EFFECT_KWH = {"screw": 0.0, "scroll": 350.0, "reciprocating": 650.0, "CO2 transcritical": -300.0}
+START_DAY = "2026-06-01"
+
+
+def sites(rng: np.random.Generator, count: int = 40) -> pd.DataFrame:
+    """Invented site facts that do not change from day to day."""
+    area = rng.uniform(2_000, 40_000, count).round(-1)
+    return pd.DataFrame(
+        {
+            "site_id": [f"CS-{i:03d}" for i in range(1, count + 1)],
+            "floor_area_m2": area,
+            "occupancy": rng.uniform(0.25, 0.95, count),
+            "climate_c": rng.uniform(8, 22, count),
+            "compressor_type": rng.choice(COMPRESSOR_TYPES, count, p=(0.4, 0.25, 0.2, 0.15)),
+            "frozen": rng.random(count) < 0.45,
+        }
+    )
+
+
+def site_days(rng: np.random.Generator, site_count: int = 40, days: int = 90, noise_kwh: float = 400.0) -> pd.DataFrame:
+    """One invented row per site-day, with a linear, homoscedastic energy response."""
+    facts = sites(rng, site_count)
+    calendar = pd.date_range(START_DAY, periods=days, freq="D")
+    frame = facts.loc[facts.index.repeat(days)].reset_index(drop=True)
+    frame.insert(1, "day", np.tile(calendar.date, site_count))
+    n = len(frame)
+    season = 6 * np.sin(np.linspace(0, np.pi, days))
+    frame["outdoor_c"] = (frame["climate_c"] + np.tile(season, site_count) + rng.normal(0, 3.0, n)).round(1)
+    frame["door_openings"] = rng.integers(50, 800, n)
+    frame["pallets_stored"] = (frame["floor_area_m2"] * 0.55 * frame["occupancy"] * rng.uniform(0.85, 1.15, n)).round(0).astype(int)
+    frame["defrost_cycles"] = rng.integers(0, 9, n)
+    energy = (
+        600
+        + 0.22 * frame["floor_area_m2"]
+        + 0.08 * frame["pallets_stored"]
+        + 55 * frame["outdoor_c"]
+        + 2.5 * frame["door_openings"]
+        + 140 * frame["defrost_cycles"]
+        + frame["compressor_type"].map(TYPE_EFFECT_KWH)
+        + rng.normal(0, noise_kwh, n)
+    )
+    frame["energy_kwh"] = energy.round(1)
+    columns = ["site_id", "day", "energy_kwh", "outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "compressor_type"]
+    return frame[columns]

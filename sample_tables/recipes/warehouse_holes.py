@@ -1,0 +1,26 @@
+"""Holes: door counts missing for a sixth of site-days (a counter offline), stored as Parquet."""
+
+import numpy as np
+import pandas as pd
+
+from ._warehouse import site_days
+
+NAME = "warehouse_holes"
+FORMAT = "parquet"
+ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
+EXPECTED = [
+    ("missingness.complete-cases", "weakens", ("door_openings", "outdoor_c")),
+]
+EXIT_CODE = 0
+
+
+def build(rng: np.random.Generator) -> pd.DataFrame:
+    frame = site_days(rng)
+    n = len(frame)
+    doors = frame["door_openings"].astype("Float64")
+    doors[rng.random(n) < 0.16] = pd.NA
+    frame["door_openings"] = doors
+    outdoor = frame["outdoor_c"].copy()
+    outdoor[rng.random(n) < 0.01] = np.nan
+    frame["outdoor_c"] = outdoor
+    return frame

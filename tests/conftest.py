@@ -1,0 +1,66 @@
+"""Shared fixtures: run the command line in-process, reference-data paths, a fresh registry."""
+
+from __future__ import annotations
+
+import io
+import json
+import os
+from contextlib import redirect_stderr, redirect_stdout
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import pytest
+
+from prefit.cli import main
+from prefit.registry import Registry, discover
+
+ROOT = Path(__file__).resolve().parent.parent
+SAMPLE_TABLES = ROOT / "sample_tables"
+REFERENCE = Path(__file__).resolve().parent / "reference"
+
+
+@dataclass
+class Run:
+    """What one in-process run of the command line produced."""
+
+    code: int
+    out: str
+    err: str
+
+    def json(self) -> Any:
+        return json.loads(self.out)
+
+    def rules(self) -> list[str]:
+        """Rule ids of the findings of a JSON report."""
+        return [f["rule"] for f in self.json()["findings"]]
+
+
+def run_cli(*args: str | os.PathLike[str]) -> Run:
+    """Run ``prefit ARGS`` in this process, capturing stdout, stderr and the exit code."""
+    out, err = io.StringIO(), io.StringIO()
+    with redirect_stdout(out), redirect_stderr(err):
+        code = main([str(a) for a in args])
+    return Run(code, out.getvalue(), err.getvalue())
+
+
+@pytest.fixture
+def cli() -> Any:
+    """The in-process command-line runner."""
+    return run_cli
+
+
+@pytest.fixture
+def registry() -> Registry:
+    """A fresh registry of every installed rule, per test."""
+    return discover()
+
+
+@pytest.fixture(autouse=True)
+def _isolated_cwd(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
+    """Run every test in an empty folder so that no stray prefit.toml is picked up; no colour."""
+    monkeypatch.chdir(tmp_path)
+    monkeypatch.delenv("FORCE_COLOR", raising=False)
+    monkeypatch.setenv("NO_COLOR", "1")
+    monkeypatch.setenv("COLUMNS", "100")
+    return tmp_path
