@@ -133,7 +133,7 @@ def _read_csv(data: bytes, options: ReadOptions, where: str) -> pa.Table:
         sep = "\t"
     if len(sep) != 1:
         raise UsageProblem("--sep", f"must be one character, got {sep!r}", "use e.g. --sep ';' or --sep '\\t'")
-    header = next(csv.reader(io.StringIO(text_head.splitlines()[0] if text_head else ""), delimiter=sep), [])
+    header = next(csv.reader(io.StringIO(text_head), delimiter=sep), [])
     _check_header(header, where)
     try:
         table = pacsv.read_csv(

@@ -14,8 +14,17 @@ EPS = float(np.finfo(np.float64).eps)
 
 
 def column_scales(X: np.ndarray) -> np.ndarray:
-    """Euclidean norm of each column (1 for an all-zero column), to scale columns to unit length."""
-    norms = np.sqrt(np.einsum("ij,ij->j", X, X)) if X.size else np.ones(X.shape[1])
+    """Euclidean norm of each column (1 for an all-zero column), to scale columns to unit length.
+
+    Each column is divided by its largest magnitude before squaring, so values up to the largest
+    double do not overflow.
+    """
+    if not X.size:
+        return np.ones(X.shape[1])
+    largest = np.max(np.abs(X), axis=0)
+    largest = np.where(largest > 0, largest, 1.0)
+    shrunk = X / largest
+    norms = largest * np.sqrt(np.einsum("ij,ij->j", shrunk, shrunk))
     return np.where(norms > 0, norms, 1.0)
 
 

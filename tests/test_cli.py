@@ -1,0 +1,130 @@
+"""The command line end to end: reports, exit codes, determinism, catalogue and explanations."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from importlib import resources
+from pathlib import Path
+
+import jsonschema
+import numpy as np
+import pandas as pd
+import pytest
+
+import prefit
+from conftest import SAMPLE_TABLES, run_cli
+
+
+def report_schema() -> dict:
+    return json.loads(resources.files("prefit").joinpath("report/report.schema.json").read_text())
+
+
+def _sum_table(tmp_path: Path) -> Path:
+    rng = np.random.default_rng(2)
+    n = 300
+    frame = pd.DataFrame({"compressor_kwh": rng.uniform(2000, 9000, n).round(1), "lighting_kwh": rng.uniform(50, 400, n).round(1), "defrost_kwh": rng.uniform(0, 300, n).round(1)})
+    frame["gross_kwh"] = frame["compressor_kwh"] + frame["lighting_kwh"] + frame["defrost_kwh"]
+    frame["outdoor_c"] = rng.uniform(-5, 35, n).round(1)
+    frame["energy_kwh"] = (1.1 * frame["gross_kwh"] + 40 * frame["outdoor_c"] + rng.normal(0, 200, n)).round(1)
+    path = tmp_path / "sum.csv"
+    frame.to_csv(path, index=False)
+    return path
+
+
+def test_exact_total_blocks_and_names_all_four_columns(tmp_path: Path) -> None:
+    run = run_cli("check", _sum_table(tmp_path), "--target", "energy_kwh", "--format", "json")
+    assert run.code == 1
+    exact = [f for f in run.json()["findings"] if f["rule"] == "collinearity.exact"]
+    assert len(exact) == 1 and exact[0]["grade"] == "blocks"
+    assert sorted(exact[0]["columns"]) == ["compressor_kwh", "defrost_kwh", "gross_kwh", "lighting_kwh"]
+    assert "gross_kwh = 1.00*compressor_kwh + 1.00*lighting_kwh + 1.00*defrost_kwh" in exact[0]["message"]
+
+
+def test_duplicate_column_and_dummy_trap(tmp_path: Path) -> None:
+    rng = np.random.default_rng(4)
+    n = 120
+    kind = rng.choice(["chilled", "frozen", "blast"], n)
+    frame = pd.DataFrame({"outdoor_c": rng.normal(15, 6, n)})
+    frame["outdoor_f"] = frame["outdoor_c"] * 1.8 + 32
+    for level in ("chilled", "frozen", "blast"):
+        frame[f"is_{level}"] = (kind == level).astype(int)
+    frame["energy_kwh"] = 50 * frame["outdoor_c"] + 300 * frame["is_frozen"] + rng.normal(0, 30, n)
+    path = tmp_path / "t.csv"
+    frame.to_csv(path, index=False)
+    findings = [f for f in run_cli("check", path, "--target", "energy_kwh", "--format", "json").json()["findings"] if f["rule"] == "collinearity.exact"]
+    equations = sorted(f["details"]["equation"] for f in findings)
+    assert len(findings) == 2
+    assert any(e.startswith("(intercept) = ") and all(f"is_{lvl}" in e for lvl in ("chilled", "frozen", "blast")) for e in equations)
+    assert any("outdoor_f" in e and "outdoor_c" in e for e in equations)
+
+
+def test_json_validates_is_sorted_and_byte_identical(tmp_path: Path) -> None:
+    table = SAMPLE_TABLES / "warehouse_submeters.csv"
+    first = run_cli("check", table, "--target", "energy_kwh", "--id", "site_id", "--format", "json")
+    second = run_cli("check", table, "--target", "energy_kwh", "--id", "site_id", "--format", "json")
+    assert first.out == second.out
+    document = first.json()
+    jsonschema.validate(document, report_schema())
+    order = [("blocks", "misleads", "weakens", "note").index(f["grade"]) for f in document["findings"]]
+    assert order == sorted(order)
+    assert document["summary"]["blocks"] == sum(f["grade"] == "blocks" for f in document["findings"])
+    assert document["tool"] == {"name": "prefit", "version": prefit.__version__}
+    import hashlib
+
+    assert document["table"]["sha256"] == hashlib.sha256(table.read_bytes()).hexdigest()
+
+
+def test_output_file_and_plain_text_report(tmp_path: Path) -> None:
+    out = tmp_path / "report.json"
+    run = run_cli("check", SAMPLE_TABLES / "warehouse_submeters.csv", "--target", "energy_kwh", "--format", "json", "--output", out)
+    assert run.out == "" and run.code == 1
+    assert json.loads(out.read_text())["findings"]
+    text = run_cli("check", SAMPLE_TABLES / "warehouse_submeters.csv", "--target", "energy_kwh", "--id", "site_id")
+    assert "\x1b[" not in text.out
+    assert "BLOCKS" in text.out and "collinearity.exact" in text.out and "NOT READY" in text.out
+    assert all(line == line.rstrip() for line in text.out.splitlines())
+
+
+def test_colour_always_carries_the_grade_word(tmp_path: Path) -> None:
+    run = run_cli("check", SAMPLE_TABLES / "warehouse_submeters.csv", "--target", "energy_kwh", "--colour", "always")
+    assert "\x1b[" in run.out and "BLOCKS" in run.out
+
+
+def test_rules_catalogue_and_why() -> None:
+    catalogue = json.loads(run_cli("rules", "--format", "json").out)["rules"]
+    ids = [r["id"] for r in catalogue]
+    assert ids == sorted(ids) and "collinearity.exact" in ids
+    per_parameter = next(r for r in catalogue if r["id"] == "sample-size.per-parameter")
+    assert {t["name"] for t in per_parameter["thresholds"]} >= {"misleads", "weakens"}
+    assert all(t["source"] for r in catalogue for t in r["thresholds"])
+    assert "sample-size.per-parameter" in run_cli("rules").out
+    why = run_cli("why", "collinearity.exact")
+    assert why.code == 0 and "What it does to a fit" in why.out and "Remedy" in why.out
+    listing = run_cli("why")
+    assert "collinearity:" in listing.out and "target.constant" in listing.out
+    unknown = run_cli("why", "collinearity.exakt")
+    assert unknown.code == 2 and "collinearity.exact" in unknown.err
+
+
+def test_version_and_module_entry() -> None:
+    run = subprocess.run([sys.executable, "-m", "prefit", "--version"], capture_output=True, text=True)
+    assert run.returncode == 0 and run.stdout.strip() == f"prefit {prefit.__version__}"
+
+
+@pytest.mark.parametrize(
+    "frame, rule, grade",
+    [
+        (pd.DataFrame({"y": [np.nan] * 5, "x": [1.0, 2, 3, 4, 5]}), "target.missing-values", "blocks"),
+        (pd.DataFrame({"y": [3.0] * 30, "x": np.arange(30.0)}), "target.constant", "blocks"),
+        (pd.DataFrame({"y": np.arange(30.0) % 7, "x": np.arange(30.0), "k": [5.0] * 30}), "hygiene.constant-predictor", "blocks"),
+        (pd.DataFrame({"y": [1.0, 2.0, 3.5], "a": [1.0, 2.0, 4.0], "b": [3.0, 1.0, 2.0]}), "sample-size.per-parameter", "blocks"),
+    ],
+)
+def test_first_rules_grade_as_documented(tmp_path: Path, frame: pd.DataFrame, rule: str, grade: str) -> None:
+    path = tmp_path / "t.csv"
+    frame.to_csv(path, index=False)
+    run = run_cli("check", path, "--target", "y", "--format", "json")
+    assert run.code == 1, run.err
+    assert (rule, grade) in {(f["rule"], f["grade"]) for f in run.json()["findings"]}
