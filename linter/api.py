@@ -3,21 +3,26 @@
 from __future__ import annotations
 
 import json
-from dataclasses import dataclass, fields, replace
+from dataclasses import dataclass, field, fields, replace
+from functools import cached_property
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Mapping
+from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 import pyarrow as pa
 
 from . import __version__
+from .accepted import AcceptedSet, Fingerprint, fingerprints, load_accepted, save_accepted
 from .context import RunContext
-from .engine import RuleOutcome, error_finding, run_rules, select_rules
+from .engine import RuleOutcome, error_finding, run_rule, select_rules
 from .errors import UsageProblem
 from .findings import GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade
 from .options import SETTINGS_BY_KEY, CheckOptions, parse_settings
+from .progress import RunProgress
 from .reading import ReadOptions, TableInfo, read_table
 from .registry import Registry, discover
 from .roles import apply_missing_codes, resolve_roles
+from .scoring import check_declared_ranges, read_score_table
+from .rule import RuleLike
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -28,7 +33,13 @@ REPORT_SCHEMA_VERSION = 1
 
 @dataclass(frozen=True)
 class Report:
-    """The outcome of one check: table facts, the design as built, and the findings in report order."""
+    """The outcome of one check: table facts, the design as built, and the findings in report order.
+
+    ``accepted`` holds findings matched by an accepted-findings file: they are
+    reported as a count and never reach the gate. ``rules`` are the rules the
+    run knew and ``context`` the run's statistics (for plots and fingerprints);
+    neither is part of the JSON report.
+    """
 
     info: TableInfo
     target: str
@@ -38,6 +49,9 @@ class Report:
     findings: tuple[Finding, ...]
     outcomes: tuple[RuleOutcome, ...]
     gate: Grade
+    accepted: tuple[Finding, ...] = ()
+    rules: tuple[RuleLike, ...] = field(default=(), compare=False, repr=False)
+    context: RunContext | None = field(default=None, compare=False, repr=False)
 
     @property
     def failed_rules(self) -> tuple[str, ...]:
@@ -61,6 +75,18 @@ class Report:
             return 3
         return 1 if self.gated else 0
 
+    @cached_property
+    def fingerprints(self) -> tuple[Fingerprint, ...]:
+        """The fingerprint of each finding, in report order (rule, grade, columns, digest of the flagged rows)."""
+        return fingerprints(self.findings, self.context)
+
+    def accepting(self, accepted: AcceptedSet) -> "Report":
+        """This report with the findings ``accepted`` matches moved out of ``findings`` into ``accepted``."""
+        keys = self.fingerprints
+        kept = tuple(f for f, k in zip(self.findings, keys) if k not in accepted or f.rule == "engine.rule-error")
+        matched = tuple(f for f, k in zip(self.findings, keys) if k in accepted and f.rule != "engine.rule-error")
+        return replace(self, findings=kept, accepted=self.accepted + matched)
+
     def to_dict(self) -> dict[str, Any]:
         """The report as plain JSON types, in the documented schema."""
         return {
@@ -76,31 +102,71 @@ class Report:
             "rules_run": [o.rule for o in self.outcomes],
             "findings": [f.to_dict() for f in self.findings],
             "summary": count_by_grade(self.findings),
+            "accepted": len(self.accepted),
         }
 
     def to_json(self) -> str:
         """The JSON report: sorted findings, NaN and infinities as null, stable bytes."""
         return json.dumps(self.to_dict(), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
 
+    def render(self, format: str, **settings: Any) -> str:
+        """The report in any registered format (``text``, ``json``, ``sarif``, ``junit``, ``markdown``, ``html``)."""
+        from .report import WriterSettings, render
+
+        return render(format, [self], WriterSettings(**settings))
+
+    def to_sarif(self) -> str:
+        """The report as a SARIF 2.1.0 log (one run)."""
+        return self.render("sarif")
+
+    def to_junit(self) -> str:
+        """The report as JUnit XML: one test suite, one test case per rule that ran."""
+        return self.render("junit")
+
+    def to_markdown(self) -> str:
+        """A compact Markdown summary for a pull-request comment."""
+        return self.render("markdown")
+
+    def to_html(self, plots: bool = True) -> str:
+        """One self-contained HTML page: facts, findings with why and remedy, and (with ``plots``) SVG plots."""
+        return self.render("html", plots=plots)
+
     def _repr_html_(self) -> str:
-        counts = ", ".join(f"{n} {word}" for word, n in count_by_grade(self.findings).items())
-        return f"<pre>prefit report for {_escape(self.info.path)}: {counts}</pre>"
+        from .report.html import html_fragment
+
+        return html_fragment(self)
 
 
-def _escape(text: str) -> str:
-    import html
+def run_check(
+    table: pa.Table,
+    info: TableInfo,
+    options: CheckOptions,
+    registry: Registry | None = None,
+    debug: bool = False,
+    progress: RunProgress | None = None,
+) -> Report:
+    """Resolve roles, build the context, run the selected rules and assemble the report.
 
-    return html.escape(text)
-
-
-def run_check(table: pa.Table, info: TableInfo, options: CheckOptions, registry: Registry | None = None, debug: bool = False) -> Report:
-    """Resolve roles, build the context, run the selected rules and assemble the report."""
+    ``progress``, when given, is told the number of rules, each rule before it runs, and the end.
+    """
     registry = registry if registry is not None else discover()
     selected = select_rules(registry, options)
     table, replaced = apply_missing_codes(table, options.missing_codes)
     roles = resolve_roles(table, options)
-    context = RunContext(table=table, info=info, roles=roles, options=options, replaced_codes=replaced)
-    outcomes = run_rules(context, selected, debug=debug)
+    check_declared_ranges(roles, options.ranges)
+    score = read_score_table(options, roles)
+    context = RunContext(table=table, info=info, roles=roles, options=options, replaced_codes=replaced, score=score)
+    outcomes = []
+    if progress is not None:
+        progress.start(info.path, len(selected))
+    try:
+        for rule, settings in selected:
+            if progress is not None:
+                progress.advance(rule.id)
+            outcomes.append(run_rule(rule, settings, context, debug))
+    finally:
+        if progress is not None:
+            progress.finish()
     findings = [f for o in outcomes for f in o.findings] + [error_finding(o) for o in outcomes if o.error]
     design = context.design
     description = design.describe()
@@ -118,6 +184,8 @@ def run_check(table: pa.Table, info: TableInfo, options: CheckOptions, registry:
         findings=tuple(sorted(findings, key=Finding.sort_key)),
         outcomes=tuple(outcomes),
         gate=options.gate,
+        rules=tuple(registry),
+        context=context,
     )
 
 
@@ -149,16 +217,50 @@ def options_from(**settings: Any) -> CheckOptions:
     return replace(CheckOptions(), **parse_settings(raw, "prefit.check"))
 
 
-def check(table: "pa.Table | pd.DataFrame | str | Path", target: str | None = None, **options: Any) -> Report:
+def apply_accepted(reports: Sequence[Report], accept_file: str | Path | None, accept_current: bool = False) -> list[Report]:
+    """Move accepted findings out of the gate.
+
+    With ``accept_current`` every current finding of ``reports`` is written to
+    ``accept_file`` first (keeping the reasons of entries already there), so
+    that this run and later ones gate only on new findings.
+    """
+    if accept_file is None:
+        if accept_current:
+            raise UsageProblem("--accept-current", "needs a file to write", "add --accept-file FILE")
+        return list(reports)
+    if accept_current:
+        previous = load_accepted(accept_file) if Path(accept_file).is_file() else None
+        findings = [f for r in reports for f in r.findings]
+        keys = [k for r in reports for k in r.fingerprints]
+        accepted = AcceptedSet.from_findings(findings, keys, previous)
+        save_accepted(accepted, accept_file)
+    else:
+        accepted = load_accepted(accept_file)
+    return [r.accepting(accepted) for r in reports]
+
+
+def check(
+    table: "pa.Table | pd.DataFrame | str | Path",
+    target: str | None = None,
+    *,
+    accept_file: str | Path | None = None,
+    accept_current: bool = False,
+    **options: Any,
+) -> Report:
     """Vet ``table`` (a DataFrame, a pyarrow Table or a path) before fitting ``target`` on it.
 
     Keyword options are the configuration keys (``id``, ``exclude``,
     ``predictors``, ``categorical``, ``intercept``, ``fail_at``,
-    ``skip_rules``, ``rule``, ``missing_codes``, ``sep``, ``encoding``).
+    ``skip_rules``, ``rule``, ``missing_codes``, ``sep``, ``encoding``,
+    ``ranges``, ``anticipated_r2``, ``score``).
+    ``accept_file`` names an accepted-findings file: findings it lists are
+    counted, not gated; with ``accept_current`` today's findings are written to it.
     """
     opts = options_from(target=target, **options)
+    if accept_file is not None and not accept_current:
+        load_accepted(accept_file)
     data, info = _as_table(table, ReadOptions(sep=opts.sep, encoding=opts.encoding))
-    return run_check(data, info, opts)
+    return apply_accepted([run_check(data, info, opts)], accept_file, accept_current)[0]
 
 
 class NotReady(AssertionError):

@@ -8,6 +8,7 @@ import textwrap
 from .errors import UsageProblem, closest_names
 from .registry import Registry, discover
 from .rule import RuleLike, default_grades, rule_family
+from .teaching import demonstration_for
 
 WRAP = 96
 
@@ -68,8 +69,10 @@ def explain_rule(rule_id: str, registry: Registry | None = None) -> str:
         out.append("")
     out += ["Remedy:"] + textwrap.wrap(rule.remedy, WRAP, initial_indent="  ", subsequent_indent="  ")
     demo = getattr(rule, "demonstration", None)
+    if not callable(demo):
+        demo = demonstration_for(rule.id)
     if callable(demo):
-        out += ["", "Demonstration on invented warehouse data:", demo()]
+        out += ["", "Demonstration on invented warehouse data:", str(demo())]
     return "\n".join(out) + "\n"
 
 

@@ -34,7 +34,7 @@ def _build_parser() -> argparse.ArgumentParser:
     commands = parser.add_subparsers(dest="command", parser_class=_Parser, metavar="COMMAND")
 
     check = commands.add_parser("check", help="vet a table and report graded findings")
-    check.add_argument("table", metavar="TABLE", help="CSV/TSV (optionally .gz/.bz2/.zst), Parquet, Arrow/Feather, JSON Lines; - for CSV on stdin")
+    check.add_argument("tables", nargs="+", metavar="TABLE", help="CSV/TSV (optionally .gz/.bz2/.zst), Parquet, Arrow/Feather, JSON Lines; - for CSV on stdin; several tables share the options")
     check.add_argument("--target", help="the response column")
     check.add_argument("--id", help="a column of row labels (never a predictor)")
     check.add_argument("--exclude", type=_names, help="columns to leave out, comma-separated")
@@ -44,10 +44,16 @@ def _build_parser() -> argparse.ArgumentParser:
     check.add_argument("--fail-at", metavar="GRADE", help="weakest grade that fails the check: blocks, misleads (default), weakens, note")
     check.add_argument("--skip", type=_names, metavar="RULES", help="rule ids or families not to run, comma-separated")
     check.add_argument("--missing-codes", action="append", metavar="COL=CODE[,CODE]", help="values of COL that mean missing (COL * for every column); repeatable")
+    check.add_argument("--range", action="append", dest="ranges", metavar="COL=LOW:HIGH", help="the range of COL the model is meant to cover; repeatable")
+    check.add_argument("--anticipated-r2", metavar="R2", help="the R-squared expected of the model, for sample-size planning (default: the preliminary fit's adjusted R-squared)")
+    check.add_argument("--score", metavar="NEWTABLE", help="a table of new rows the model will be asked to predict, checked for extrapolation")
     check.add_argument("--sep", help="delimiter of a text table (sniffed when absent)")
     check.add_argument("--encoding", help="encoding of a text table (default utf-8)")
-    check.add_argument("--format", default="text", help="text (default) or json")
+    check.add_argument("--order", metavar="COL", help="the column giving the rows' time order, for the autocorrelation preview (default: the first date column)")
+    check.add_argument("--format", default="text", help="text (default), json, sarif, junit, markdown or html")
     check.add_argument("--output", metavar="FILE", help="write the report to FILE instead of stdout")
+    check.add_argument("--accept-file", metavar="FILE", help="findings listed in FILE are counted, not gated; only new findings fail")
+    check.add_argument("--accept-current", action="store_true", help="write today's findings to the --accept-file, keeping reasons already given")
     check.add_argument("--config", metavar="FILE", help="a prefit.toml or pyproject.toml (default: searched upward from here)")
     check.add_argument("--no-config", action="store_true", help="ignore configuration files")
     check.add_argument("--explain", action="store_true", help="print each finding's why under it")
@@ -71,6 +77,16 @@ def _missing_codes(specs: list[str] | None) -> dict[str, list[str]]:
     return codes
 
 
+def _ranges(specs: list[str] | None) -> dict[str, str]:
+    ranges: dict[str, str] = {}
+    for spec in specs or []:
+        column, sep, bounds = spec.rpartition("=")
+        if not sep or not column or bounds.count(":") != 1:
+            raise UsageProblem(f"--range {spec!r}", "must be COL=LOW:HIGH", "write e.g. --range outdoor_c=-10:38")
+        ranges[column] = bounds
+    return ranges
+
+
 def _options_from_args(args: argparse.Namespace) -> Any:
     from .config import load_config
     from .options import CheckOptions, parse_settings
@@ -89,6 +105,9 @@ def _options_from_args(args: argparse.Namespace) -> Any:
         ("skip-rules", args.skip),
         ("sep", args.sep),
         ("encoding", args.encoding),
+        ("order", args.order),
+        ("anticipated-r2", args.anticipated_r2),
+        ("score", args.score),
     ):
         if value is not None:
             flags[key] = value
@@ -96,9 +115,13 @@ def _options_from_args(args: argparse.Namespace) -> Any:
         flags["intercept"] = False
     if args.missing_codes:
         flags["missing-codes"] = _missing_codes(args.missing_codes)
+    if args.ranges:
+        flags["ranges"] = _ranges(args.ranges)
     parsed = parse_settings(flags, "command line")
     if "missing_codes" in parsed and "missing_codes" in values:
         parsed["missing_codes"] = {**values["missing_codes"], **parsed["missing_codes"]}
+    if "ranges" in parsed and "ranges" in values:
+        parsed["ranges"] = {**values["ranges"], **parsed["ranges"]}
     return replace(CheckOptions(), **{**values, **parsed})
 
 
@@ -120,30 +143,27 @@ def _colour(choice: str, output: str | None) -> bool:
 
 
 def _command_check(args: argparse.Namespace) -> int:
-    from .api import run_check
+    from .accepted import load_accepted
+    from .api import apply_accepted, run_check
+    from .progress import progress_for
     from .reading import ReadOptions, read_table
-    from .report import FORMATS
+    from .report import FORMATS, WriterSettings, render
 
     if args.format not in FORMATS:
         raise UsageProblem(f"--format {args.format}", "is not a report format", f"use one of {', '.join(FORMATS)}")
     options = _options_from_args(args)
-    table, info = read_table(args.table, ReadOptions(sep=options.sep, encoding=options.encoding))
-    report = run_check(table, info, options, debug=args.debug)
-    if args.format == "text":
-        from .report.terminal import render_terminal
-
-        explain = _why_texts() if args.explain else None
-        text = render_terminal(report, colour=_colour(args.colour, args.output), explain=explain)
-    else:
-        text = FORMATS[args.format](report)
-    _write(text, args.output)
-    return report.exit_code
-
-
-def _why_texts() -> dict[str, str]:
-    from .registry import discover
-
-    return {rule.id: rule.why for rule in discover()}
+    if args.accept_current and args.accept_file is None:
+        raise UsageProblem("--accept-current", "needs a file to write", "add --accept-file FILE")
+    if args.accept_file is not None and not args.accept_current:
+        load_accepted(args.accept_file)
+    reports = []
+    for path in args.tables:
+        table, info = read_table(path, ReadOptions(sep=options.sep, encoding=options.encoding))
+        reports.append(run_check(table, info, options, debug=args.debug, progress=progress_for()))
+    reports = apply_accepted(reports, args.accept_file, args.accept_current)
+    settings = WriterSettings(colour=_colour(args.colour, args.output), explain=args.explain)
+    _write(render(args.format, reports, settings), args.output)
+    return max(report.exit_code for report in reports)
 
 
 def _command_rules(args: argparse.Namespace) -> int:

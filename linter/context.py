@@ -15,10 +15,16 @@ from .options import CheckOptions
 from .reading import TableInfo
 from .roles import Kind, Roles, label_values, numeric_values
 from .rule import top_rows
+from .scoring import ScoredRows, ScoreTable, score_rows
+from .stats.collinearity import Collinearity
+from .stats.curvature import CurvatureCheck, curvature_checks
 from .stats.factor import DesignFactor
 from .stats.fit import PreliminaryFit, RowScores
+from .stats.influence import RowInfluence, row_influence
 from .stats.mergeable import Moments
+from .stats.missingness import Holes
 from .stats.summaries import ColumnSummary, summarise
+from .stats.textnumbers import TextNumbers
 
 
 @dataclass
@@ -34,7 +40,9 @@ class RunContext:
     roles: Roles
     options: CheckOptions
     replaced_codes: dict[str, int] = field(default_factory=dict)
+    score: ScoreTable | None = None
     _summaries: dict[str, ColumnSummary] = field(default_factory=dict, init=False, repr=False)
+    _text_numbers: dict[str, TextNumbers] = field(default_factory=dict, init=False, repr=False)
 
     @cached_property
     def design(self) -> Design:
@@ -52,12 +60,34 @@ class RunContext:
         y = self.design.y
         moments = Moments.of(y)
         tss = moments.m2 if self.options.intercept else float(np.dot(y, y))
-        return PreliminaryFit(self.factor, tss, self.options.intercept)
+        return PreliminaryFit(self.factor, tss, self.options.intercept, self.design.X, y)
+
+    @cached_property
+    def collinearity(self) -> Collinearity:
+        """VIFs, predictor correlations and condition indices of the estimable design, from :attr:`factor`; O(p^3)."""
+        return Collinearity.of(self.design, self.factor)
 
     @cached_property
     def row_scores(self) -> RowScores:
         """Leverage and residuals of every complete case; O(n p^2), never an n x n matrix."""
         return self.fit.score_rows(self.design.X, self.design.y)
+
+    @cached_property
+    def curvature(self) -> tuple[CurvatureCheck, ...]:
+        """An added square per numeric predictor, tested against the preliminary fit's residuals; O(n p m)."""
+        return curvature_checks(self.design, self.factor, self.row_scores.residual, self.numeric_predictors)
+
+    @cached_property
+    def influence(self) -> RowInfluence:
+        """Studentized residuals, Cook's distance, DFFITS and DFBETAS of every complete case; O(n p^2)."""
+        return row_influence(self.fit, self.design.X, self.design.y, self.row_scores)
+
+    @cached_property
+    def scoring(self) -> ScoredRows | None:
+        """The scoring table's rows through the fitted design, with their leverage; None without ``--score``."""
+        if self.score is None:
+            return None
+        return score_rows(self.score, self.design, self.roles, self.fit, self.row_scores.hat)
 
     def summary(self, column: str) -> ColumnSummary:
         """Counts, moments and mode of one table column (all rows)."""
@@ -65,6 +95,17 @@ class RunContext:
             kind = self.roles.kinds[column]
             self._summaries[column] = summarise(column, self.table.column(column), kind)
         return self._summaries[column]
+
+    @cached_property
+    def holes(self) -> Holes:
+        """Where the target and predictors are missing (null or NaN), row by row, and the row patterns."""
+        return Holes.of(self.table, self.model_columns, self.roles.kinds)
+
+    def text_numbers(self, column: str) -> TextNumbers:
+        """How many values of a text column are numbers, formatted numbers or other tokens."""
+        if column not in self._text_numbers:
+            self._text_numbers[column] = TextNumbers.of(self.table.column(column))
+        return self._text_numbers[column]
 
     def values(self, column: str) -> np.ndarray:
         """A numeric column over all table rows as float64 (NaN for missing)."""

@@ -35,6 +35,10 @@ class CheckOptions:
     missing_codes: Mapping[str, tuple[str, ...]] = field(default_factory=dict)
     sep: str | None = None
     encoding: str = "utf-8"
+    ranges: Mapping[str, tuple[float, float]] = field(default_factory=dict)
+    anticipated_r2: float | None = None
+    score: str | None = None
+    order: str | None = None
 
 
 def _as_text(value: Any, where: str) -> str:
@@ -74,6 +78,41 @@ def _as_codes(value: Any, where: str) -> dict[str, tuple[str, ...]]:
             raise UsageProblem(f"{where}.{column}", f"must be numbers or texts, got {listed!r}", "write e.g. [-999, \"N/A\"]")
         codes[str(column)] = tuple(_code_text(c) for c in items)
     return codes
+
+
+def _as_number(value: Any, where: str) -> float:
+    if isinstance(value, str):
+        try:
+            value = float(value)
+        except ValueError:
+            pass
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or value != value or value in (float("inf"), float("-inf")):
+        raise UsageProblem(where, f"must be a finite number, got {value!r}", "write e.g. 0.5")
+    return float(value)
+
+
+def _as_share(value: Any, where: str) -> float:
+    number = _as_number(value, where)
+    if not 0.0 < number < 1.0:
+        raise UsageProblem(where, f"must lie strictly between 0 and 1, got {number:g}", "write e.g. 0.6")
+    return number
+
+
+def _as_ranges(value: Any, where: str) -> dict[str, tuple[float, float]]:
+    if not isinstance(value, Mapping):
+        raise UsageProblem(where, f"must map column names to [low, high], got {value!r}", "write e.g. {outdoor_c = [-10, 38]}")
+    ranges: dict[str, tuple[float, float]] = {}
+    for column, bounds in value.items():
+        here = f"{where}.{column}"
+        if isinstance(bounds, str):
+            bounds = bounds.split(":")
+        if not isinstance(bounds, (list, tuple)) or len(bounds) != 2:
+            raise UsageProblem(here, f"must be [low, high] or \"LOW:HIGH\", got {bounds!r}", "write e.g. [-10, 38]")
+        low, high = (_as_number(b, here) for b in bounds)
+        if not low < high:
+            raise UsageProblem(here, f"must have low < high, got {low:g} and {high:g}", "write the lower end first")
+        ranges[str(column)] = (low, high)
+    return ranges
 
 
 def _code_text(code: str | int | float) -> str:
@@ -133,6 +172,10 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("missing-codes", "missing_codes", _as_codes, "per-column values that mean missing ('*' for all)"),
     Setting("sep", "sep", _as_text, "the delimiter of text tables"),
     Setting("encoding", "encoding", _as_text, "the encoding of text tables"),
+    Setting("ranges", "ranges", _as_ranges, "per-column range the model is meant to cover, [low, high]"),
+    Setting("anticipated-r2", "anticipated_r2", _as_share, "the R-squared expected of the model, for sample-size planning"),
+    Setting("score", "score", _as_text, "a table of new rows the model will be asked to predict"),
+    Setting("order", "order", _as_text, "a column giving the rows' time order, for the autocorrelation preview"),
 )
 SETTINGS_BY_KEY: Mapping[str, Setting] = {s.key: s for s in SETTINGS}
 

@@ -13,6 +13,7 @@ import pyarrow.compute as pc
 
 from .errors import UsageProblem, closest_names
 from .options import CheckOptions
+from .stats.textnumbers import numbers_as_text_reason
 
 FREE_TEXT_MIN_LEVELS = 50
 FREE_TEXT_LEVEL_SHARE = 0.5
@@ -149,6 +150,8 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
         _require_columns(names, (options.id,), "--id")
     _require_columns(names, options.exclude, "--exclude")
     _require_columns(names, options.categorical, "--categorical")
+    if options.order is not None:
+        _require_columns(names, (options.order,), "--order")
     if options.predictors is not None:
         _require_columns(names, options.predictors, "--predictors")
         for special, flag in ((options.target, "--target"), (options.id, "--id")):
@@ -168,7 +171,10 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
             if name in (options.target, options.id) or name in options.exclude:
                 continue
             kind = kinds[name]
-            if kind is Kind.TEXT:
+            numbers_reason = numbers_as_text_reason(table.column(name)) if kind in (Kind.TEXT, Kind.CATEGORICAL) and name not in declared else None
+            if numbers_reason is not None:
+                left_out[name] = numbers_reason
+            elif kind is Kind.TEXT:
                 left_out[name] = _text_reason(table.column(name))
             elif kind is Kind.DATETIME:
                 left_out[name] = "a date or time: its raw value is not a predictor; derive a trend, season or weekday column, or use it to order rows"

@@ -1,4 +1,10 @@
-"""Collinearity rules: predictors that are (nearly) linear combinations of each other."""
+"""Collinearity rules: predictors that are (nearly) linear combinations of each other.
+
+``collinearity.exact`` reports exact dependencies (the only ``blocks`` rule
+here); the others describe the design with those columns left out
+(:class:`prefit.stats.collinearity.Collinearity`), so no relation is
+reported twice.
+"""
 
 from __future__ import annotations
 
@@ -9,10 +15,30 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.design import INTERCEPT, Design
 from prefit.findings import Finding, Grade
-from prefit.rule import Rule, RuleSettings
+from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.stats.collinearity import NearDependency, TermInflation
 from prefit.stats.factor import EPS, DesignFactor, Relation
 
 NEGLIGIBLE = 1e-9
+MAX_CONTRIBUTORS = 3
+NOTABLE_RELIEF = 0.9
+
+VIF_SOURCE = (
+    f"{COMMON_PRACTICE}: VIF above 10 taken as serious (Kutner, Nachtsheim, Neter & Li 2005, Applied Linear "
+    "Statistical Models, 5th ed., sec. 10.5), 5 or 10 as problematic (James, Witten, Hastie & Tibshirani 2013, "
+    "An Introduction to Statistical Learning, sec. 3.3.3); from memory. Terms of several dummies: GVIF^(1/(2 df)) "
+    "against the square root of the limit (Fox & Monette 1992, JASA 87, 178-183)"
+)
+CONDITION_SOURCE = (
+    "Belsley, Kuh & Welsch 1980, Regression Diagnostics, ch. 3: condition indices near 10 begin to affect "
+    "estimates, 30 and above are moderate to strong, with two or more variance-decomposition proportions above 0.5; from memory"
+)
+PAIRWISE_SOURCE = f"{COMMON_PRACTICE}: |r| of 0.9 and above between two predictors signals harmful collinearity; from memory"
+PRECISION_SOURCE = (
+    "Higham 2002, Accuracy and Stability of Numerical Algorithms, 2nd ed., sec. 20.1 and 20.4 (QR loses about log10(kappa) "
+    "of double precision's 16 digits, the normal equations about 2 log10(kappa)); Golub & Van Loan 2013, Matrix "
+    "Computations, 4th ed., sec. 5.3; from memory"
+)
 
 
 def _coefficient(c: float) -> str:
@@ -84,6 +110,278 @@ def _exact(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         )
 
 
+def _ready(ctx: RunContext) -> bool:
+    return ctx.design.n >= 2 and ctx.design.p > 0
+
+
+def _names(items: list[str]) -> str:
+    return ", ".join(items[:-1]) + f" and {items[-1]}" if len(items) > 1 else "".join(items)
+
+
+def _contributors(relief: tuple[tuple[str, float], ...], current: float) -> list[tuple[str, float]]:
+    """The two other terms whose removal brings the most relief, and a third when it cuts the inflation by 10% or more."""
+    named = list(relief[:2])
+    named += [item for item in relief[2:MAX_CONTRIBUTORS] if item[1] <= NOTABLE_RELIEF * current]
+    return named
+
+
+def _vif_message(term: TermInflation, named: list[tuple[str, float]]) -> str:
+    share = f"{100 * term.auxiliary_r_squared:.1f}%"
+    if term.df == 1:
+        head = (
+            f"{term.term}: VIF {fmt(term.gvif)}; the other predictors explain {share} of its variation "
+            f"(auxiliary R-squared {term.auxiliary_r_squared:.4f}), so its standard error is {fmt(term.se_inflation)}x "
+            "as wide as with uncorrelated predictors"
+        )
+        unit = "VIF"
+    else:
+        head = (
+            f"{term.term} ({term.df} dummy columns): GVIF^(1/(2 df)) {fmt(term.se_inflation)} (GVIF {fmt(term.gvif)}); "
+            f"its coefficients' standard errors are about {fmt(term.se_inflation)}x as wide as with uncorrelated predictors "
+            f"(R-squared equivalent {term.auxiliary_r_squared:.4f})"
+        )
+        unit = "GVIF^(1/df)"
+    if not named:
+        return head
+    reasons = ", ".join(f"{other} ({unit} {fmt(value)} without it)" for other, value in named)
+    return f"{head}; explained mostly by {reasons}"
+
+
+def _vif(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    if not _ready(ctx):
+        return
+    diagnostics = ctx.collinearity
+    for term in diagnostics.terms:
+        graded = settings.grade_of(term.vif_scale)
+        if graded is None:
+            continue
+        grade, limit = graded
+        named = _contributors(diagnostics.relief(term), term.vif_scale)
+        others = [other for other, _ in named]
+        together = _names([term.term, *others])
+        if term.df == 1:
+            value, threshold = term.gvif, limit.value
+            reshape = (
+                f"drop or combine {together} (keep one, or replace them by their sum, difference or ratio; "
+                "for a total and its parts keep either the total or the parts)"
+            )
+        else:
+            value, threshold = term.se_inflation, float(np.sqrt(limit.value))
+            reshape = f"merge levels of {term.term} that coincide with {_names(others) or 'the other predictors'}, or drop one of {together}"
+        yield settings.finding(
+            grade,
+            _vif_message(term, named),
+            columns=[term.term],
+            value=value,
+            threshold=threshold,
+            source=limit.source,
+            remedy=f"{reshape}; centre variables before forming powers or products of them; collect rows where they vary "
+            "independently; if the model is for prediction only, a penalised (ridge) or component-based (principal "
+            "components, partial least squares) fit tolerates it",
+            details={
+                "gvif": term.gvif,
+                "df": term.df,
+                "gvif_1_over_df": term.vif_scale,
+                "se_inflation": term.se_inflation,
+                "auxiliary_r_squared": term.auxiliary_r_squared,
+                "explained_by": {other: without for other, without in named},
+                "design_columns": list(term.columns),
+            },
+        )
+
+
+def _settings_as_run(ctx: RunContext, rule: Rule) -> RuleSettings | None:
+    """The settings the engine gives ``rule`` in this run, or None when the run skips it."""
+    options = ctx.options
+    if rule.id in options.skip_rules or rule.family in options.skip_rules:
+        return None
+    config = options.rules.get(rule.id) or options.rules.get(rule.family)
+    settings = RuleSettings.defaults(rule)
+    if config is None:
+        return settings
+    if not config.enabled:
+        return None
+    try:
+        settings = settings.with_values(config.thresholds)
+    except KeyError:
+        return settings
+    return RuleSettings(settings.rule, settings.thresholds, config.grade, frozenset(config.exempt))
+
+
+def _pairs_reported_by_vif(ctx: RunContext) -> set[frozenset[str]]:
+    settings = _settings_as_run(ctx, VIF_RULE)
+    if settings is None:
+        return set()
+    covered: set[frozenset[str]] = set()
+    for finding in _vif(ctx, settings):
+        if settings.exempt.intersection(finding.columns):
+            continue
+        for other in finding.details["explained_by"]:
+            covered.add(frozenset((finding.columns[0], other)))
+    return covered
+
+
+def _pairwise(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    if not _ready(ctx):
+        return
+    diagnostics = ctx.collinearity
+    singles = [term for term in diagnostics.terms if term.df == 1]
+    if len(singles) < 2:
+        return
+    lowest = min(t.value for t in settings.thresholds if t.grade is not None)
+    index = [term.indices[0] for term in singles]
+    r = diagnostics.correlation[np.ix_(index, index)]
+    candidates = np.argwhere(np.triu(np.abs(r) >= lowest, 1))
+    if candidates.size == 0:
+        return
+    covered = _pairs_reported_by_vif(ctx)
+    for a, b in candidates:
+        first, second = singles[a].term, singles[b].term
+        graded = settings.grade_of(abs(float(r[a, b])))
+        if graded is None or frozenset((first, second)) in covered:
+            continue
+        grade, limit = graded
+        correlation = float(r[a, b])
+        kind = "correlation" if diagnostics.centred else "uncentred correlation (cosine; the model has no intercept)"
+        yield settings.finding(
+            grade,
+            f"{first} and {second} have {kind} {correlation:.4f}: each carries almost the same information, "
+            "so the fit cannot tell their effects apart",
+            columns=[first, second],
+            value=abs(correlation),
+            threshold=limit,
+            remedy=f"keep one of {first} and {second}, or combine them (their sum, difference or ratio); collect rows where "
+            "they vary independently; for prediction only, a penalised (ridge) fit tolerates it",
+            details={"r": correlation, "centred": diagnostics.centred},
+        )
+
+
+def _sources(ctx: RunContext) -> dict[str, str]:
+    return dict(zip(ctx.design.column_names, ctx.design.column_sources))
+
+
+def _condition(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    if not _ready(ctx):
+        return
+    diagnostics = ctx.collinearity
+    graded_thresholds = [t for t in settings.thresholds if t.grade is not None]
+    strongest = max(t.grade for t in graded_thresholds if t.grade is not None)
+    inflation = {column: term.vif_scale for term in diagnostics.terms for column in term.columns}
+    reported: list[tuple[NearDependency, Grade, Threshold]] = []
+    for dependency in diagnostics.near_dependencies(min(t.value for t in graded_thresholds), settings.limit("proportion")):
+        predictors = [name for name, _ in dependency.proportions if name != INTERCEPT]
+        graded = settings.grade_of(dependency.index)
+        if graded is None or len(predictors) < 2:
+            continue
+        grade, limit = graded
+        if grade < strongest and max(inflation.get(name, 1.0) for name in predictors) < settings.limit("weak-vif"):
+            continue
+        reported.append((dependency, grade, limit))
+    if not reported:
+        return
+    worst = max(reported, key=lambda item: (item[1], item[0].index))
+    source_of = _sources(ctx)
+    involved = {name for dependency, _, _ in reported for name, _ in dependency.proportions if name != INTERCEPT}
+    columns = list(dict.fromkeys(source_of[name] for name in ctx.design.column_names if name in involved))
+    parts = [
+        f"index {fmt(dependency.index)} among " + ", ".join(f"{name} ({share:.2f})" for name, share in dependency.proportions)
+        for dependency, _, _ in reported
+    ]
+    yield settings.finding(
+        worst[1],
+        f"the design (columns scaled to unit length, intercept kept) has condition number {fmt(diagnostics.condition_number)}; "
+        f"near dependencies, with each column's share of its coefficient variance: {'; '.join(parts)}",
+        columns=columns,
+        value=diagnostics.condition_number,
+        threshold=worst[2],
+        remedy=f"the columns of each dependency move together: drop or combine some of {_names(columns)}; centre variables "
+        "before forming powers or products of them; collect rows that break the dependence; if the model is for "
+        "prediction only, use a penalised (ridge) or component-based fit",
+        details={
+            "condition_number": diagnostics.condition_number,
+            "dependencies": [
+                {"index": dependency.index, "proportions": dict(dependency.proportions)} for dependency, _, _ in reported
+            ],
+            "condition_indices": [float(v) for v in diagnostics.condition_indices],
+        },
+    )
+
+
+def _trust_phrase(coef_digits: float, se_digits: float) -> str:
+    parts = []
+    for digits, what in ((coef_digits, "coefficients"), (se_digits, "standard errors")):
+        if digits < 1:
+            parts.append(f"cannot vouch for a single digit of its {what}")
+        else:
+            parts.append(f"keeps about {digits:.0f} correct significant digits in its {what}")
+    return " and ".join(parts)
+
+
+def _precision(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    if not _ready(ctx):
+        return
+    diagnostics = ctx.collinearity
+    worst = diagnostics.raw_dependency()
+    kappa = worst.index
+    graded = settings.grade_of(kappa)
+    if graded is None:
+        return
+    grade, limit = graded
+    lost = float(np.log10(kappa)) if np.isfinite(kappa) else float("inf")
+    ranked = sorted((item for item in worst.proportions if item[0] != INTERCEPT), key=lambda item: (-item[1], item[0]))
+    named = [name for name, share in ranked if share > 0.5] or [name for name, _ in ranked[:2]]
+    source_of = _sources(ctx)
+    columns = list(dict.fromkeys(source_of[name] for name in ctx.design.column_names if name in named))
+    fit = ctx.fit
+    digits = fit.digits
+    if digits is None:
+        trust = "prefit could not estimate the accuracy of its own fit"
+        coef_digits = se_digits = None
+    else:
+        coef_digits = float(digits.coef.min()) if digits.coef.size else None
+        se_digits = float(digits.se.min()) if digits.se.size else None
+        trust = (
+            f"prefit's own preliminary fit (unit-length scaling, QR, refinement in extended precision) "
+            f"{_trust_phrase(coef_digits or 0.0, se_digits or 0.0)}"
+        )
+    yield settings.finding(
+        grade,
+        f"the design in its own units has condition number {kappa:.3g}, driven by {_names(named)}: a least-squares "
+        f"solver that does not rescale columns loses about {lost:.1f} of double precision's 16 digits, one that forms "
+        f"X'X about {min(2 * lost, 16.0):.1f}; {trust}",
+        columns=columns,
+        value=kappa,
+        threshold=limit,
+        remedy=f"centre and scale {_names(columns)} before fitting (and before forming powers or products of them); replace "
+        "raw powers of one variable by orthogonal polynomials; express columns in units of similar size",
+        details={
+            "condition_number_raw": kappa,
+            "digits_lost": lost,
+            "digits_lost_normal_equations": 2 * lost,
+            "condition_number_scaled": diagnostics.condition_number,
+            "fit_coefficient_digits": coef_digits,
+            "fit_standard_error_digits": se_digits,
+            "proportions": dict(worst.proportions),
+        },
+    )
+
+
+VIF_RULE = Rule(
+    id="collinearity.vif",
+    summary="Variance inflation factor of each predictor (generalised VIF for a categorical term of several dummies).",
+    why="A predictor that the other predictors explain well carries little information of its own: its coefficient is "
+    "estimated from the small part of its variation that is unique, so its variance is multiplied by the VIF, "
+    "confidence intervals widen by sqrt(VIF), and the estimate swings with small changes in the data.",
+    remedy="drop or combine the predictors that explain each other, centre before forming powers or products, collect "
+    "data that breaks the dependence, or use a penalised or component-based fit for prediction only",
+    check=_vif,
+    thresholds=(
+        Threshold("weakens", 5.0, VIF_SOURCE, Grade.WEAKENS),
+        Threshold("misleads", 10.0, VIF_SOURCE, Grade.MISLEADS),
+    ),
+)
+
+
 RULES = [
     Rule(
         id="collinearity.exact",
@@ -94,5 +392,67 @@ RULES = [
         remedy="drop one of the columns in the relation, or replace a total by its parts (or the reverse)",
         check=_exact,
         grades=(Grade.BLOCKS,),
+    ),
+    VIF_RULE,
+    Rule(
+        id="collinearity.condition",
+        summary="Condition indices of the unit-length-scaled design (intercept kept) and the variables in each near dependency.",
+        why="A near dependency among several columns makes the design close to singular: the coefficients of the columns "
+        "involved share a direction the data barely determine, so their variances balloon together and their "
+        "estimates can change sign with a few rows. Condition indices find every such direction and the variance-"
+        "decomposition proportions name the columns caught in it, which pairwise correlations and single VIFs can miss.",
+        remedy="drop or combine variables of the dependency, centre before forming powers or products, collect data "
+        "that breaks the dependence, or use a penalised or component-based fit for prediction only",
+        check=_condition,
+        thresholds=(
+            Threshold("weakens", 10.0, CONDITION_SOURCE, Grade.WEAKENS),
+            Threshold("misleads", 30.0, CONDITION_SOURCE, Grade.MISLEADS),
+            Threshold("proportion", 0.5, CONDITION_SOURCE),
+            Threshold(
+                "weak-vif",
+                5.0,
+                "prefit: a dependency below the strongest index limit is reported only when it inflates some "
+                "involved predictor's variance to the VIF weakens level; one between the intercept and a single "
+                "predictor is never reported (centring removes it without changing a slope: Marquardt 1980, "
+                "JASA 75, 87-91; from memory)",
+            ),
+        ),
+    ),
+    Rule(
+        id="collinearity.pairwise",
+        summary="Pairs of predictors with a very high correlation that the VIF findings do not already name.",
+        why="Two predictors that move almost in lockstep carry nearly the same information; the fit can estimate their "
+        "joint effect but not how to split it between them, so their coefficients are unstable and may take "
+        "opposite signs.",
+        remedy="keep one of the pair or combine them, collect rows where they vary independently, or use a penalised fit "
+        "for prediction only",
+        check=_pairwise,
+        thresholds=(
+            Threshold("weakens", 0.9, PAIRWISE_SOURCE, Grade.WEAKENS),
+            Threshold("misleads", 0.98, PAIRWISE_SOURCE, Grade.MISLEADS),
+        ),
+    ),
+    Rule(
+        id="collinearity.precision",
+        summary="Digits of double precision a least-squares solver loses to the design's condition number in its own units.",
+        why="Floating-point least squares loses about log10(kappa) of its 16 significant digits to the condition number "
+        "kappa of the design as given (twice that when it forms X'X). Raw powers of a variable and columns in wildly "
+        "different units make kappa huge, so a solver can return coefficients whose leading digits are rounding noise "
+        "with no warning at all.",
+        remedy="centre and scale the columns, use orthogonal polynomials instead of raw powers, and express columns in "
+        "units of similar size",
+        check=_precision,
+        needs=frozenset({"fit"}),
+        thresholds=(
+            Threshold(
+                "note",
+                1e6,
+                "kappa(X'X) = kappa^2 >= 1e12: a solver that forms the normal equations keeps fewer than 4 digits "
+                "(Higham 2002, sec. 20.4; from memory)",
+                Grade.NOTE,
+            ),
+            Threshold("weakens", 1e8, PRECISION_SOURCE, Grade.WEAKENS),
+            Threshold("misleads", 1e12, PRECISION_SOURCE, Grade.MISLEADS),
+        ),
     ),
 ]

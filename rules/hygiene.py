@@ -1,14 +1,31 @@
-"""Table hygiene rules: columns whose values cannot support a coefficient."""
+"""Table hygiene rules: columns and rows whose values cannot support a coefficient as they stand."""
 
 from __future__ import annotations
 
+import re
 from typing import Iterator
 
 import numpy as np
+import pyarrow as pa
+import pyarrow.compute as pc
 
 from prefit.context import RunContext
+from prefit.design import category_codes
 from prefit.findings import Finding, Grade
-from prefit.rule import Rule, RuleSettings
+from prefit.roles import Kind
+from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.stats.textnumbers import is_text_type, mostly_number_like
+
+SQUARE_SAFE = float(np.sqrt(np.finfo(np.float64).max))
+IDENTIFIER_MIN_ROWS = 20
+COUNTER_MIN_DISTINCT = 10
+COUNTER_RUN_RATIO = 3.0
+TIME_NAME = re.compile(r"(^|[_\W])(t|year|yr|quarter|month|week|day|date|time|hour|period|trend)s?($|[_\W])", re.IGNORECASE)
+MANY_DUMMIES = 100
+EXACT_CORRELATION = 1e-12
+
+
+# ---------------------------------------------------------------- constant-predictor
 
 
 def _constant_predictor(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
@@ -22,14 +39,14 @@ def _constant_predictor(ctx: RunContext, settings: RuleSettings) -> Iterator[Fin
         if term.reference is not None or term.df == 0:
             if term.df == 0:
                 only = term.reference if term.reference is not None else "(none)"
-                yield _finding(settings, grade, term.source, f"category {only!r}", design.n)
+                yield _constant_finding(settings, grade, term.source, f"category {only!r}", design.n)
             continue
         column = design.X[:, design.column_names.index(term.columns[0])]
         if np.ptp(column) == 0:
-            yield _finding(settings, grade, term.source, f"{column[0]:g}", design.n)
+            yield _constant_finding(settings, grade, term.source, f"{column[0]:g}", design.n)
 
 
-def _finding(settings: RuleSettings, grade: Grade, column: str, value: str, n: int) -> Finding:
+def _constant_finding(settings: RuleSettings, grade: Grade, column: str, value: str, n: int) -> Finding:
     return settings.finding(
         grade,
         f"{column} takes the single value {value} in all {n:,} complete cases: its coefficient cannot be estimated",
@@ -39,6 +56,399 @@ def _finding(settings: RuleSettings, grade: Grade, column: str, value: str, n: i
         source="definition: a slope needs at least two distinct values of its predictor",
         remedy=f"drop {column} from the predictors, or collect rows where it varies",
     )
+
+
+# ---------------------------------------------------------------- duplicate-rows
+
+
+def _row_groups(columns: list[pa.ChunkedArray]) -> tuple[np.ndarray, np.ndarray]:
+    """For each row, the index of its group of identical rows, and the size of each group."""
+    codes = []
+    for chunked in columns:
+        column = chunked.combine_chunks()
+        if pa.types.is_null(column.type):
+            codes.append(np.full(len(column), -1, dtype=np.int64))
+            continue
+        if pa.types.is_floating(column.type):
+            column = pc.if_else(pc.is_nan(column), pa.scalar(None, column.type), column)
+        encoded = pc.dictionary_encode(column)
+        codes.append(encoded.indices.fill_null(-1).to_numpy(zero_copy_only=False).astype(np.int64))
+    return _group_codes(codes)
+
+
+def _group_codes(codes: list[np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
+    """Combine per-column codes (>= -1) into one group index per row; O(rows log rows) per column, no row matrix."""
+    key = np.zeros(codes[0].size if codes else 0, dtype=np.int64)
+    span = 1
+    for column in codes:
+        width = int(column.max()) + 2 if column.size else 1
+        if span * width >= 2**62:
+            _, key = np.unique(key, return_inverse=True)
+            key = key.reshape(-1).astype(np.int64)
+            span = int(key.max()) + 1 if key.size else 1
+        key = key * width + (column + 1)
+        span *= width
+    _, inverse, counts = np.unique(key, return_inverse=True, return_counts=True)
+    return inverse.reshape(-1), counts
+
+
+def _later_copies(groups: np.ndarray) -> np.ndarray:
+    """Positions of rows that repeat an earlier row of the same group."""
+    _, first = np.unique(groups, return_index=True)
+    is_first = np.zeros(groups.size, dtype=bool)
+    is_first[first] = True
+    return np.flatnonzero(~is_first)
+
+
+def _duplicate_rows(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    table = ctx.table
+    rows = table.num_rows
+    groups, counts = _row_groups(list(table.columns))
+    copies = _later_copies(groups)
+    limit = settings.threshold("weakens")
+    if copies.size and limit.crossed(copies.size / rows):
+        listed, _, total = ctx.listed_rows(copies)
+        repeated = int((counts > 1).sum())
+        yield settings.finding(
+            Grade.WEAKENS,
+            f"{copies.size:,} of {rows:,} rows ({copies.size / rows:.1%}) repeat an earlier row exactly in every column "
+            f"({repeated:,} distinct rows appear more than once): each copy counts the same observation again and "
+            "shrinks the standard errors",
+            rows=listed,
+            row_count=total,
+            value=copies.size / rows,
+            threshold=limit,
+            remedy="remove the repeated rows (keep the first of each), and fix the export step that appended them twice",
+            details={"extra_copies": int(copies.size), "rows_repeated": repeated},
+        )
+    yield from _replicates(ctx, settings)
+
+
+def _replicates(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    design = ctx.design
+    if design.n < 3 or design.p == 0 or not ctx.target_is_numeric:
+        return
+    columns = [np.unique(design.X[:, j], return_inverse=True)[1].reshape(-1).astype(np.int64) for j in range(design.p)]
+    inverse, counts = _group_codes(columns)
+    shared = np.flatnonzero(counts > 1)
+    if shared.size == 0:
+        return
+    y = design.y
+    low = np.full(counts.size, np.inf)
+    high = np.full(counts.size, -np.inf)
+    np.minimum.at(low, inverse, y)
+    np.maximum.at(high, inverse, y)
+    varying = shared[high[shared] > low[shared]]
+    if varying.size == 0:
+        return
+    in_groups = np.isin(inverse, varying)
+    listed, _, total = ctx.listed_rows(design.positions[in_groups])
+    yield settings.finding(
+        Grade.NOTE,
+        f"{varying.size:,} groups of rows ({int(in_groups.sum()):,} rows) share every predictor value but differ in "
+        f"{ctx.roles.target}: replicate measurements, which allow a lack-of-fit test of the linear form",
+        columns=[ctx.roles.target],
+        rows=listed,
+        row_count=total,
+        value=float(varying.size),
+        source="Draper & Smith (1998), Applied Regression Analysis, 3rd ed., sec. 2.1 (pure error and lack of fit)",
+        remedy="keep the replicates; use them for a pure-error lack-of-fit test",
+        details={"groups": int(varying.size), "rows": int(in_groups.sum())},
+    )
+
+
+# ---------------------------------------------------------------- identifier
+
+
+def _identifier(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    for column in ctx.roles.predictors:
+        kind = ctx.roles.kinds[column]
+        if kind is Kind.NUMERIC:
+            verdict = _numeric_identifier(ctx.values(column))
+        elif kind in (Kind.CATEGORICAL, Kind.TEXT):
+            verdict = _label_identifier(ctx, column)
+        else:
+            verdict = None
+        if verdict is None:
+            continue
+        timelike = bool(TIME_NAME.search(column)) and kind is Kind.NUMERIC and "unique" not in verdict
+        grade = Grade.NOTE if timelike else Grade.MISLEADS
+        consequence = (
+            "named like a time unit, it acts as a linear trend in row order; keep it only if a trend is intended"
+            if timelike
+            else "as a predictor it fits noise or encodes the order of the rows, not a property of the process"
+        )
+        yield settings.finding(
+            grade,
+            f"predictor {column} looks like an identifier: {verdict}; {consequence}",
+            columns=[column],
+            source=COMMON_PRACTICE,
+            remedy=f"pass {column} as --id (row labels) or --exclude it; if site-level differences matter, "
+            "use the site's measured properties (area, equipment) as predictors instead",
+        )
+
+
+def _numeric_identifier(values: np.ndarray) -> str | None:
+    present = values[np.isfinite(values)]
+    if present.size < IDENTIFIER_MIN_ROWS or np.any(present != np.round(present)):
+        return None
+    distinct, counts = np.unique(present, return_counts=True)
+    if distinct.size < COUNTER_MIN_DISTINCT:
+        return None
+    steps = np.diff(present)
+    monotone = bool(np.all(steps >= 0) or np.all(steps <= 0))
+    gaps = np.diff(distinct)
+    evenly_spaced = bool(gaps.size and np.all(gaps == gaps[0]))
+    unique = distinct.size == present.size
+    if unique and (monotone or evenly_spaced):
+        order = "in row order" if monotone else "in steps of " + fmt(float(gaps[0]))
+        return f"a different whole number in each of its {present.size:,} rows, counting {order}"
+    if monotone and evenly_spaced and counts.max() <= COUNTER_RUN_RATIO * counts.min():
+        return (
+            f"{distinct.size:,} evenly spaced whole numbers ({fmt(float(distinct[0]))} to {fmt(float(distinct[-1]))}) "
+            f"that only {'rise' if np.all(steps >= 0) else 'fall'} from row to row, in runs of {counts.min():,} to {counts.max():,} rows"
+        )
+    return None
+
+
+def _label_identifier(ctx: RunContext, column: str) -> str | None:
+    summary = ctx.summary(column)
+    present = summary.rows - summary.missing
+    if present >= IDENTIFIER_MIN_ROWS and summary.distinct == present:
+        return f"a different value in each of its {present:,} rows, so each dummy fits one row exactly"
+    return None
+
+
+# ---------------------------------------------------------------- numeric-as-text
+
+
+def _numeric_as_text(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    roles = ctx.roles
+    candidates = [roles.target, *roles.predictors, *(c for c in roles.left_out if c not in roles.predictors)]
+    for column in dict.fromkeys(candidates):
+        if not is_text_type(ctx.table.column(column).type) or not mostly_number_like(ctx.table.column(column)):
+            continue
+        profile = ctx.text_numbers(column)
+        if not profile.is_numeric:
+            continue
+        only_missing_codes = not profile.formatted and not profile.other_tokens and profile.missing_tokens
+        levels = profile.distinct_numbers + len(profile.tokens)
+        if column == roles.target:
+            if only_missing_codes:
+                continue
+            grade, role, effect = Grade.MISLEADS, "target", "a text target cannot be fitted"
+        elif column in roles.predictors:
+            if not profile.formatted:
+                continue
+            grade = Grade.MISLEADS if levels - 1 >= MANY_DUMMIES else Grade.WEAKENS
+            role, effect = "predictor", f"as a category it becomes {levels - 1:,} dummies, one per distinct value"
+        else:
+            if only_missing_codes or not profile.is_quantity:
+                continue
+            grade, role, effect = Grade.WEAKENS, "column", "it is left out of the model"
+        formatting = ", ".join(profile.format_words()) or "nothing: plain numbers stored as text"
+        examples = [e for k in sorted(profile.examples) for e in profile.examples[k]][:4]
+        shown = f"; e.g. {', '.join(repr(e) for e in examples)}" if examples else ""
+        others = profile.other_tokens
+        stray = (
+            f"; other entries: {', '.join(f'{t!r} ({others[t]:,})' for t in sorted(others, key=lambda t: (-others[t], t))[:5])}"
+            if others
+            else ""
+        )
+        yield settings.finding(
+            grade,
+            f"{role} {column} holds numbers as text: {profile.numeric_share:.1%} of its {profile.present:,} values parse as "
+            f"numbers ({profile.formatted:,} only after removing {formatting}){shown}{stray}; {effect}",
+            columns=[column],
+            value=profile.numeric_share,
+            source="definition: least squares needs numbers; text becomes one dummy per distinct value",
+            remedy=f"re-export {column} as plain numbers (no thousands separators, units or currency marks; "
+            "a dot for decimals), or convert it before the check",
+            details={
+                "parsed_share": profile.numeric_share,
+                "formatted": profile.formatted,
+                "formats": profile.format_words(),
+                "examples": examples,
+                "other_values": dict(profile.tokens),
+            },
+        )
+
+
+# ---------------------------------------------------------------- non-finite
+
+
+def _non_finite(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    for column in ctx.model_columns:
+        if ctx.roles.kinds[column] is not Kind.NUMERIC:
+            continue
+        values = ctx.values(column)
+        infinite = np.isinf(values)
+        huge = np.isfinite(values) & (np.abs(values) > SQUARE_SAFE)
+        bad = infinite | huge
+        if not bad.any():
+            continue
+        positions = np.flatnonzero(bad)
+        listed, shown, total = ctx.listed_rows(positions, np.where(np.isinf(values[positions]), np.sign(values[positions]) * np.finfo(np.float64).max, values[positions]))
+        parts = []
+        if infinite.any():
+            parts.append(f"{int(infinite.sum()):,} infinite value(s)")
+        if huge.any():
+            parts.append(f"{int(huge.sum()):,} value(s) beyond {SQUARE_SAFE:.3g} in absolute value, whose squares overflow double precision")
+        yield settings.finding(
+            Grade.BLOCKS,
+            f"{column} holds {' and '.join(parts)}: sums of squares become infinite or NaN and least squares fails",
+            columns=[column],
+            rows=listed,
+            row_count=total,
+            value=float(bad.sum()),
+            threshold=SQUARE_SAFE,
+            source="IEEE 754 double precision: largest finite value about 1.8e308, so |x| above its square root overflows when squared",
+            remedy=f"find how {column} got these values (division by zero, a unit error, a code) and correct or declare them missing",
+        )
+
+
+# ---------------------------------------------------------------- high-cardinality and rare-levels
+
+
+def _categorical_terms(ctx: RunContext) -> Iterator[tuple[str, np.ndarray, list[str]]]:
+    design = ctx.design
+    for term in design.terms:
+        if term.kind not in (Kind.CATEGORICAL, Kind.BOOLEAN, Kind.TEXT):
+            continue
+        codes, levels = category_codes(ctx.table.column(term.source), term.kind)
+        yield term.source, codes[design.positions], levels
+
+
+def _high_cardinality(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    n = ctx.design.n
+    if n == 0:
+        return
+    for column, codes, levels in _categorical_terms(ctx):
+        present = np.unique(codes[codes >= 0])
+        ratio = present.size / n
+        graded = settings.grade_of(ratio)
+        if graded is None:
+            continue
+        grade, limit = graded
+        yield settings.finding(
+            grade,
+            f"{column} has {present.size:,} levels among {n:,} complete cases ({fmt(ratio)} levels per row, "
+            f"{fmt(n / present.size)} rows per level): its {present.size - 1:,} dummies eat the sample",
+            columns=[column],
+            value=ratio,
+            threshold=limit,
+            remedy=f"merge rare levels of {column} into broader groups, replace it by a measured property of the "
+            "groups, or treat it as a random effect in a mixed model",
+            details={"levels": int(present.size), "complete_cases": n},
+        )
+
+
+def _rare_levels(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    floor = settings.threshold("weakens")
+    for column, codes, levels in _categorical_terms(ctx):
+        counts = np.bincount(codes[codes >= 0], minlength=len(levels))
+        rare = [i for i in range(len(levels)) if 0 < counts[i] and floor.crossed(float(counts[i]))]
+        present = int((counts > 0).sum())
+        if not rare or present < 2:
+            continue
+        fewest = int(min(counts[i] for i in rare))
+        graded = settings.grade_of(float(fewest))
+        assert graded is not None
+        grade, limit = graded
+        rare.sort(key=lambda i: (counts[i], levels[i]))
+        described = ", ".join(f"{levels[i]!r} ({counts[i]} row{'s' if counts[i] != 1 else ''})" for i in rare[:10])
+        more = f" and {len(rare) - 10} more" if len(rare) > 10 else ""
+        positions = ctx.design.positions[np.isin(codes, rare)]
+        listed, _, total = ctx.listed_rows(positions)
+        yield settings.finding(
+            grade,
+            f"{column} has {len(rare)} level(s) with fewer than {floor.value:g} complete rows: {described}{more}; "
+            "each such dummy is estimated from those rows alone, which get leverage near 1 and residuals near 0",
+            columns=[column],
+            rows=listed,
+            row_count=total,
+            value=fewest,
+            threshold=limit,
+            remedy=f"merge the rare levels of {column} into a broader level (or an 'other' level), or collect more rows for them",
+            details={"rare_levels": {levels[i]: int(counts[i]) for i in rare}},
+        )
+
+
+# ---------------------------------------------------------------- scale-disparity
+
+
+def _scale_disparity(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    design = ctx.design
+    if design.n == 0:
+        return
+    magnitudes: dict[str, float] = {}
+    for column in ctx.numeric_predictors:
+        values = design.X[:, design.column_names.index(column)]
+        nonzero = np.abs(values[values != 0])
+        if nonzero.size:
+            magnitudes[column] = float(np.median(nonzero))
+    if len(magnitudes) < 2:
+        return
+    largest = max(magnitudes, key=lambda c: (magnitudes[c], c))
+    smallest = min(magnitudes, key=lambda c: (magnitudes[c], c))
+    ratio = magnitudes[largest] / magnitudes[smallest]
+    limit = settings.threshold("note")
+    if not limit.crossed(ratio):
+        return
+    yield settings.finding(
+        Grade.NOTE,
+        f"typical magnitudes of the numeric predictors differ by a factor of {ratio:.3g}: {largest} about "
+        f"{magnitudes[largest]:.3g}, {smallest} about {magnitudes[smallest]:.3g} (median absolute non-zero value)",
+        columns=[largest, smallest],
+        value=ratio,
+        threshold=limit,
+        remedy=f"rescale units (e.g. {largest} in thousands or millions) so coefficients and their printed digits are readable "
+        "and the design is better conditioned",
+        details={"magnitudes": dict(sorted(magnitudes.items()))},
+    )
+
+
+# ---------------------------------------------------------------- target-leak
+
+
+def _target_leak(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    design = ctx.design
+    if design.n < 3 or not ctx.target_is_numeric:
+        return
+    with np.errstate(over="ignore", invalid="ignore"):
+        y = design.y - design.y.mean()
+        y_norm = float(np.linalg.norm(y))
+    if y_norm == 0 or not np.isfinite(y_norm):
+        return
+    limit = settings.threshold("misleads")
+    for column in ctx.numeric_predictors:
+        x = design.X[:, design.column_names.index(column)]
+        with np.errstate(over="ignore", invalid="ignore"):
+            x = x - x.mean()
+            x_norm = float(np.linalg.norm(x))
+        if x_norm == 0 or not np.isfinite(x_norm):
+            continue
+        r = float(np.dot(x / x_norm, y / y_norm))
+        r2 = r * r
+        if not limit.crossed(r2):
+            continue
+        slope = float(np.dot(x, y) / (x_norm * x_norm))
+        intercept = float(design.y.mean() - slope * (design.X[:, design.column_names.index(column)].mean()))
+        exact = 1 - abs(r) < EXACT_CORRELATION
+        if exact:
+            what = f"{ctx.roles.target} = {slope:.6g} x {column} + {intercept:.6g} exactly: the target itself under another name or a fixed multiple"
+        else:
+            what = f"{column} alone explains R² = {r2:.4f} of {ctx.roles.target}"
+        yield settings.finding(
+            Grade.MISLEADS,
+            f"{what}; a predictor that near-copies the response makes every other coefficient meaningless",
+            columns=[column, ctx.roles.target],
+            value=r2,
+            threshold=limit,
+            remedy=f"drop {column} unless it is truly known before {ctx.roles.target} is measured; check whether it is "
+            f"computed from {ctx.roles.target} (a sub-meter sum, a unit conversion, a later reading)",
+            details={"r_squared": r2, "slope": slope, "intercept": intercept, "exact": exact},
+        )
 
 
 RULES = [
@@ -51,5 +461,96 @@ RULES = [
         remedy="drop the column, or collect rows where it varies",
         check=_constant_predictor,
         grades=(Grade.BLOCKS, Grade.NOTE),
+    ),
+    Rule(
+        id="hygiene.duplicate-rows",
+        summary="Rows repeated exactly in every column, and replicate rows (same predictors, different target).",
+        why="A copied row is one observation counted twice: least squares weighs it double, standard errors shrink "
+        "as if there were more information, and p-values overstate certainty. Rows that share every predictor but "
+        "differ in the response are genuine replicates; they measure pure error.",
+        remedy="remove exact copies; keep replicates and use them for a lack-of-fit test",
+        check=_duplicate_rows,
+        thresholds=(Threshold("weakens", 0.0, "definition: any copied row counts one observation twice", Grade.WEAKENS, ">"),),
+        grades=(Grade.NOTE,),
+    ),
+    Rule(
+        id="hygiene.identifier",
+        summary="A predictor that is unique per row or a counter (row number, record number, site code as a number).",
+        why="An identifier carries no property of the process. As a number it imposes an arbitrary order and "
+        "spacing on the rows and picks up whatever drifts with row order; as a category it spends one parameter "
+        "per row and fits each row exactly.",
+        remedy="declare it as --id or exclude it",
+        check=_identifier,
+        grades=(Grade.MISLEADS, Grade.NOTE),
+    ),
+    Rule(
+        id="hygiene.numeric-as-text",
+        summary="Text columns whose values are numbers with thousands separators, units, currency marks, decimal commas or spaces.",
+        why="A number stored as text cannot enter a least-squares fit as a number. It is either dropped or turned "
+        "into one dummy per distinct value, which spends the sample on hundreds of parameters.",
+        remedy="re-export the column as plain numbers",
+        check=_numeric_as_text,
+        grades=(Grade.MISLEADS, Grade.WEAKENS),
+    ),
+    Rule(
+        id="hygiene.non-finite",
+        summary="Infinite values, or values so large that their squares overflow double precision, in the design.",
+        why="Least squares sums squares and cross products. An infinity, or a value above about 1.3e154 whose square "
+        "overflows, turns those sums into infinities or NaN and the fit fails or returns garbage.",
+        remedy="correct the values at the source or declare them missing",
+        check=_non_finite,
+        grades=(Grade.BLOCKS,),
+    ),
+    Rule(
+        id="hygiene.high-cardinality",
+        summary="Categorical predictors with many levels per complete case.",
+        why="Each level beyond the reference costs one parameter. A category with a level for every few rows "
+        "spends the sample on dummies, each estimated from a handful of rows, and leaves little for the other "
+        "coefficients.",
+        remedy="merge levels, use a measured property of the groups, or a mixed model",
+        check=_high_cardinality,
+        thresholds=(
+            Threshold("misleads", 0.5, COMMON_PRACTICE + ": fewer than 2 rows per level", Grade.MISLEADS, ">"),
+            Threshold("weakens", 0.1, COMMON_PRACTICE + ": fewer than 10 rows per level", Grade.WEAKENS, ">"),
+        ),
+    ),
+    Rule(
+        id="hygiene.rare-levels",
+        summary="Levels of a categorical predictor with fewer than 5 complete rows.",
+        why="The dummy of a level seen in one row fits that row exactly: its leverage is 1, its residual 0, and "
+        "its coefficient is that row's value. With a few rows the coefficient rests on them alone and the rows "
+        "have leverage near 1.",
+        remedy="merge rare levels into a broader level",
+        check=_rare_levels,
+        thresholds=(
+            Threshold("misleads", 2, "definition: a level in one row has leverage 1", Grade.MISLEADS, "<"),
+            Threshold("weakens", 5, COMMON_PRACTICE, Grade.WEAKENS, "<"),
+        ),
+    ),
+    Rule(
+        id="hygiene.scale-disparity",
+        summary="Numeric predictors whose typical magnitudes differ by more than a factor of a million.",
+        why="Columns on wildly different scales inflate the condition number of the design and give coefficients "
+        "that differ by many orders of magnitude; printed to a few digits they lose meaning.",
+        remedy="rescale units",
+        check=_scale_disparity,
+        thresholds=(
+            Threshold(
+                "note",
+                1e6,
+                COMMON_PRACTICE + " (scaling and conditioning: Belsley, Kuh & Welsch 1980, Regression Diagnostics, ch. 3)",
+                Grade.NOTE,
+                ">",
+            ),
+        ),
+    ),
+    Rule(
+        id="hygiene.target-leak",
+        summary="A single predictor that alone explains the target with R² above 0.99, or equals a fixed multiple of it.",
+        why="A predictor that is the response under another name (a unit conversion, a total that contains it, a "
+        "later reading) explains it perfectly and leaves every other coefficient near zero and meaningless.",
+        remedy="drop the leaking predictor",
+        check=_target_leak,
+        thresholds=(Threshold("misleads", 0.99, COMMON_PRACTICE, Grade.MISLEADS, ">"),),
     ),
 ]

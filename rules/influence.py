@@ -1,5 +1,349 @@
-"""influence rules (being written)."""
+"""Influence rules: rows whose position or deletion decides the least-squares fit.
 
-from prefit.rule import Rule
+All measures come from the shared preliminary fit (``RunContext.influence``),
+in closed form and O(n p^2); no n x n matrix and no refits.
+"""
 
-RULES: list[Rule] = []
+from __future__ import annotations
+
+from typing import Iterator
+
+import numpy as np
+import scipy.stats
+
+from prefit.context import RunContext
+from prefit.design import INTERCEPT
+from prefit.findings import Finding, Grade
+from prefit.rule import Rule, RuleSettings, Threshold, fmt
+from prefit.stats.chance import chance_check, cooks_tail, expected_count, hat_tail, t_tail
+from prefit.stats.influence import group_deletion
+
+from ._rowfindings import (
+    CHANCE,
+    beyond_chance,
+    chance_details,
+    group_message,
+    impact_message,
+    movement,
+    rows_text,
+    single_row_impacts,
+)
+
+LEVERAGE_SOURCE = "Hoaglin & Welsch (1978), The American Statistician 32(1); Velleman & Welsch (1981), The American Statistician 35(4)"
+COOK_MEDIAN_SOURCE = "Cook & Weisberg (1982), Residuals and Influence in Regression, sec. 3.4: D_i beyond the median of F(p, n-p)"
+COOK_FOUR_SOURCE = "common practice: Cook's distance above 4/n"
+BKW_SOURCE = "Belsley, Kuh & Welsch (1980), Regression Diagnostics, sec. 2.1 (size-adjusted cutoffs)"
+GROUP_CAP = 200
+LEVERAGE_GROUP_MULTIPLE = 3
+
+
+def _ratio(top: np.ndarray, bottom: np.ndarray) -> np.ndarray:
+    """``top / bottom`` with infinity where ``bottom`` is zero (the cutoff cannot be crossed)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(bottom > 0, top / np.where(bottom > 0, bottom, 1.0), np.inf)
+
+
+def _usable(ctx: RunContext) -> bool:
+    fit = ctx.fit
+    return ctx.target_is_numeric and fit.rank > 0 and fit.df_resid > 1 and np.isfinite(fit.sigma) and fit.sigma > 0
+
+
+def _listed(ctx: RunContext, rows: np.ndarray, measures: np.ndarray) -> tuple[list, list, int]:
+    return ctx.listed_rows(ctx.design.positions[rows], measures)
+
+
+# ---------------------------------------------------------------- leverage
+
+
+def _leverage(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    if not ctx.target_is_numeric or ctx.fit.rank == 0 or ctx.design.n <= ctx.fit.rank:
+        return
+    hat = ctx.row_scores.hat
+    n, k = ctx.design.n, ctx.fit.rank
+    relative = hat * n / k
+    for threshold in (settings.threshold("weakens"), settings.threshold("note")):
+        crossed = _crossed(threshold, relative)
+        if not crossed.any():
+            continue
+        cutoff = threshold.value * k / n
+        expected = n * float(hat_tail(np.array([cutoff]), n, k, ctx.design.intercept)[0])
+        check = chance_check(crossed, expected, hat_tail(np.array([hat[crossed].max()]), n, k, ctx.design.intercept))
+        if not beyond_chance(settings, check):
+            continue
+        rows = np.flatnonzero(crossed)
+        labels, values, total = _listed(ctx, rows, hat[rows])
+        assert threshold.grade is not None
+        yield settings.finding(
+            threshold.grade,
+            f"{total:,} of {n:,} complete rows {'has' if total == 1 else 'have'} leverage above {threshold.value:g}p/n = "
+            f"{fmt(cutoff)} (largest h = {fmt(float(hat[rows].max()))}, {fmt(float(relative[rows].max()))} times the "
+            f"average p/n; {check.describe()}): these rows sit far from the rest in predictor space and can pull the fit; "
+            "leverage alone does no harm when the row lies on the line, Cook's distance and DFBETAS tell whether it does",
+            rows=labels,
+            row_values=values,
+            row_count=total,
+            value=float(hat[rows].max()),
+            threshold=cutoff,
+            source=threshold.source,
+            details={"cutoff_multiple_of_p_over_n": threshold.value, **chance_details(check)},
+        )
+        return
+
+
+_ARRAY_COMPARISONS = {">": np.greater, ">=": np.greater_equal, "<": np.less, "<=": np.less_equal}
+
+
+def _crossed(threshold: Threshold, values: np.ndarray) -> np.ndarray:
+    """Per row, whether the value is on the bad side of the threshold (NaN never is)."""
+    return _ARRAY_COMPARISONS[threshold.compare](values, threshold.value) & np.isfinite(values)
+
+
+# ---------------------------------------------------------------- Cook's distance
+
+
+def _cooks(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    if not _usable(ctx):
+        return
+    fit, infl = ctx.fit, ctx.influence
+    n, k = ctx.design.n, fit.rank
+    cooks = infl.cooks
+    median_limit = settings.threshold("misleads")
+    four_limit = settings.threshold("weakens")
+    f_median = float(scipy.stats.f.ppf(median_limit.value, k, fit.df_resid))
+    four_cutoff = four_limit.value / n
+    finite = np.nan_to_num(cooks, nan=-np.inf)
+    strong = finite >= f_median
+    screened = _crossed(four_limit, finite * n)
+    expected = expected_count(infl.hat, lambda h: cooks_tail(np.full(h.shape, four_cutoff), h, k, fit.df_resid))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        residual_share = np.where(screened, finite * (1.0 - infl.hat) / infl.hat, -np.inf)
+    extreme = int(np.argmax(residual_share))
+    check = chance_check(screened, expected, cooks_tail(cooks[[extreme]], infl.hat[[extreme]], k, fit.df_resid))
+    group_rows = _group(ctx, screened, cooks)
+    group = group_deletion(fit, ctx.design.X[group_rows], ctx.row_scores.residual[group_rows]) if group_rows.size >= 2 else None
+    masked = group is not None and not strong.any() and group.cooks >= f_median
+    if not strong.any() and not masked and not beyond_chance(settings, check):
+        return
+    details = {
+        "f_median": f_median,
+        "four_over_n": four_cutoff,
+        "rows_beyond_f_median": int(strong.sum()),
+        **chance_details(check),
+    }
+    group_text = ""
+    if group is not None:
+        moved = movement(ctx, group.shift, group.se_after)
+        details["group_deletion"] = {"rows": group.rows, "cooks_distance": group.cooks, "rss_drop": group.rss_drop, **moved.as_details()}
+        group_text = f"; {group_message(ctx, group)}"
+    if strong.any():
+        rows = np.flatnonzero(strong)
+        impacts = single_row_impacts(ctx, rows, cooks[rows])
+        details["impact"] = impacts
+        labels, values, total = _listed(ctx, rows, cooks[rows])
+        message = (
+            f"{rows_text(total)} {'has' if total == 1 else 'have'} Cook's distance beyond the median of F({k}, {fit.df_resid}) = {fmt(f_median)} "
+            f"(largest D = {fmt(float(cooks[rows].max()))}): each alone moves the coefficients to the edge of their "
+            f"50% confidence region{impact_message(impacts)}{group_text}"
+        )
+        grade, limit, source = Grade.MISLEADS, f_median, median_limit.source
+    elif masked:
+        rows = group_rows
+        labels, values, total = _listed(ctx, rows, cooks[rows])
+        message = (
+            f"no row alone has Cook's distance beyond the median of F({k}, {fit.df_resid}) = {fmt(f_median)}, but "
+            f"{total:,} high-leverage or high-influence rows together decide the fit (masking: each hides the others)"
+            f"{group_text}"
+        )
+        grade, limit, source = Grade.MISLEADS, f_median, median_limit.source + "; applied to the group (sec. 3.6)"
+    else:
+        rows = np.flatnonzero(screened)
+        labels, values, total = _listed(ctx, rows, cooks[rows])
+        message = (
+            f"{rows_text(total)} {'has' if total == 1 else 'have'} Cook's distance above 4/n = {fmt(four_cutoff)} (largest D = {fmt(float(cooks[rows].max()))}; "
+            f"{check.describe()}){group_text}"
+        )
+        grade, limit, source = Grade.WEAKENS, four_cutoff, four_limit.source
+    yield settings.finding(
+        grade,
+        message,
+        rows=labels,
+        row_values=values,
+        row_count=total,
+        value=float(group.cooks) if masked and group is not None else float(np.nanmax(cooks[rows])),
+        threshold=limit,
+        source=source,
+        details=details,
+    )
+
+
+def _group(ctx: RunContext, screened: np.ndarray, cooks: np.ndarray) -> np.ndarray:
+    """Rows to delete together: high-leverage rows (beyond the leverage rule's 3p/n) first, then rows by Cook's D.
+
+    At most ``GROUP_CAP`` rows, so that only a small block of the hat matrix is formed.
+    """
+    n, k = ctx.design.n, ctx.fit.rank
+    hat = ctx.row_scores.hat
+    high = np.flatnonzero(hat > LEVERAGE_GROUP_MULTIPLE * k / n)
+    high = high[np.lexsort((high, -hat[high]))][:GROUP_CAP]
+    influential = np.setdiff1d(np.flatnonzero(screened), high)
+    influential = influential[np.lexsort((influential, -cooks[influential]))][: GROUP_CAP - high.size]
+    return np.concatenate([high, influential]).astype(np.int64)
+
+
+# ---------------------------------------------------------------- DFFITS
+
+
+def _dffits(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    if not _usable(ctx):
+        return
+    fit, infl = ctx.fit, ctx.influence
+    n, k = ctx.design.n, fit.rank
+    limit = settings.threshold("weakens")
+    cutoff = limit.value * np.sqrt(k / n)
+    size = np.abs(np.nan_to_num(infl.dffits, nan=0.0))
+    crossed = size > cutoff
+    if not crossed.any():
+        return
+    dof = fit.df_resid - 1
+    expected = expected_count(infl.hat, lambda h: t_tail(_ratio(cutoff * np.sqrt(1.0 - h), np.sqrt(h)), dof))
+    check = chance_check(crossed, expected, t_tail(np.nanmax(np.abs(infl.studentized[crossed])), dof))
+    if not beyond_chance(settings, check):
+        return
+    rows = np.flatnonzero(crossed)
+    labels, values, total = _listed(ctx, rows, infl.dffits[rows])
+    yield settings.finding(
+        Grade.WEAKENS,
+        f"{rows_text(total)} {'has' if total == 1 else 'have'} |DFFITS| above 2*sqrt(p/n) = {fmt(cutoff)} (largest {fmt(float(size[rows].max()))}; "
+        f"{check.describe()}): deleting any one of them shifts its own fitted value by more than the cutoff in standard errors",
+        rows=labels,
+        row_values=values,
+        row_count=total,
+        value=float(size[rows].max()),
+        threshold=cutoff,
+        source=limit.source,
+        details=chance_details(check),
+    )
+
+
+# ---------------------------------------------------------------- DFBETAS
+
+
+def _dfbetas(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    if not _usable(ctx):
+        return
+    fit, infl, design = ctx.fit, ctx.influence, ctx.design
+    n = design.n
+    strong_limit, weak_limit = settings.threshold("misleads"), settings.threshold("weakens")
+    weak_cutoff = weak_limit.value / np.sqrt(n)
+    absolute = np.abs(infl.dfbetas)
+    largest = np.nan_to_num(np.fmax.reduce(absolute, axis=1), nan=0.0) if design.p else np.zeros(n)
+    strong = _crossed(strong_limit, largest)
+    screened = largest > weak_cutoff
+    dof = fit.df_resid - 1
+    expected = expected_count(infl.dfbetas_reach, lambda reach: t_tail(_ratio(np.full(reach.shape, weak_cutoff), reach), dof))
+    check = chance_check(screened, expected, t_tail(np.nanmax(np.abs(infl.studentized[screened]), initial=0.0), dof))
+    if strong.any():
+        grade, cutoff, limit, selected = Grade.MISLEADS, strong_limit.value, strong_limit, strong
+    elif beyond_chance(settings, check):
+        grade, cutoff, limit, selected = Grade.WEAKENS, weak_cutoff, weak_limit, screened
+    else:
+        return
+    rows = np.flatnonzero(selected)
+    names, sources = design.column_names, design.column_sources
+    size = np.nan_to_num(absolute[rows], nan=0.0)
+    moved_columns = [j for j in range(design.p) if (size[:, j] > cutoff).any()]
+    coefficient_names = [names[j] for j in moved_columns]
+    columns = list(dict.fromkeys(sources[j] for j in moved_columns if sources[j] != INTERCEPT))
+    signed = infl.dfbetas[rows, np.argmax(size, axis=1)]
+    labels, values, total = _listed(ctx, rows, signed)
+    details = {"coefficients": coefficient_names, "cutoff": cutoff, **chance_details(check)}
+    counts = {names[j]: int((size[:, j] > cutoff).sum()) for j in moved_columns}
+    moved_text = ", ".join(f"{name} ({rows_text(count)})" for name, count in counts.items())
+    if grade is Grade.MISLEADS:
+        impacts = single_row_impacts(ctx, rows, largest[rows])
+        details["impact"] = impacts
+        message = (
+            f"{rows_text(total)} {'moves' if total == 1 else 'each move'} a coefficient by more than {fmt(cutoff)} standard error when deleted "
+            f"(largest |DFBETAS| = {fmt(float(largest[rows].max()))}); coefficients moved: {moved_text}{impact_message(impacts)}"
+        )
+    else:
+        message = (
+            f"{rows_text(total)} {'has' if total == 1 else 'have'} |DFBETAS| above 2/sqrt(n) = {fmt(cutoff)} (largest {fmt(float(largest[rows].max()))}; "
+            f"{check.describe()}); coefficients moved: {moved_text}"
+        )
+    yield settings.finding(
+        grade,
+        message,
+        columns=columns,
+        rows=labels,
+        row_values=values,
+        row_count=total,
+        value=float(largest[rows].max()),
+        threshold=cutoff,
+        source=limit.source,
+        details=details,
+    )
+
+
+RULES = [
+    Rule(
+        id="influence.leverage",
+        summary="Rows far from the others in predictor space (hat values h_ii above 2p/n or 3p/n).",
+        why="A row's leverage h_ii is the weight its own target value has on its fitted value. High-leverage rows "
+        "decide the slopes almost alone: if such a row is also off the line (a wrong reading, a different kind of "
+        "site) it drags the whole fit; if it lies on the line it only makes the slopes look more precise than the "
+        "bulk of the data can support.",
+        remedy="check the listed rows' predictor values for entry errors; if they are genuine, confirm that the model "
+        "should cover that range, or fit with and without them and compare",
+        check=_leverage,
+        thresholds=(
+            Threshold("note", 2, LEVERAGE_SOURCE + ": h_ii > 2p/n", Grade.NOTE, ">"),
+            Threshold("weakens", 3, LEVERAGE_SOURCE + ": h_ii > 3p/n", Grade.WEAKENS, ">"),
+            CHANCE,
+        ),
+        needs=frozenset({"rows", "fit"}),
+    ),
+    Rule(
+        id="influence.cooks-distance",
+        summary="Rows whose deletion moves the whole coefficient vector (Cook's distance), alone or as a group.",
+        why="Cook's distance measures how far all coefficients move, jointly, when one row is left out. A row beyond "
+        "the median of F(p, n-p) alone moves the estimates as far as the edge of their 50% confidence region: the "
+        "fit describes that row more than the table. Several such rows together can hide each other (masking): "
+        "deleting one changes little because the others hold the fit in place.",
+        remedy="inspect the listed rows for entry or unit errors and correct them; if they are genuine, report the fit "
+        "with and without them, or use a robust regression",
+        check=_cooks,
+        thresholds=(
+            Threshold("misleads", 0.5, COOK_MEDIAN_SOURCE, Grade.MISLEADS, ">="),
+            Threshold("weakens", 4, COOK_FOUR_SOURCE + " (value is the numerator of 4/n)", Grade.WEAKENS, ">"),
+            CHANCE,
+        ),
+        needs=frozenset({"rows", "fit"}),
+    ),
+    Rule(
+        id="influence.dffits",
+        summary="Rows whose deletion shifts their own fitted value by many standard errors (DFFITS).",
+        why="DFFITS is the change in a row's fitted value when the row is left out, in standard errors. Large values "
+        "mean the fit bends towards the row: predictions near it rest on that one row.",
+        remedy="inspect the listed rows; correct errors, or check the fit with and without them",
+        check=_dffits,
+        thresholds=(Threshold("weakens", 2, BKW_SOURCE + ": |DFFITS| > 2*sqrt(p/n)", Grade.WEAKENS, ">"), CHANCE),
+        needs=frozenset({"rows", "fit"}),
+    ),
+    Rule(
+        id="influence.dfbetas",
+        summary="Rows that move individual coefficients by a large share of their standard error (DFBETAS).",
+        why="DFBETAS is the change in one coefficient when a row is left out, in standard errors. A row that moves a "
+        "slope by a whole standard error changes what the model says about that predictor: its size, its "
+        "significance, sometimes its sign.",
+        remedy="inspect the listed rows and the named coefficients; correct errors, or report the fit with and "
+        "without the rows",
+        check=_dfbetas,
+        thresholds=(
+            Threshold("misleads", 1, BKW_SOURCE + ": |DFBETAS| > 1", Grade.MISLEADS, ">"),
+            Threshold("weakens", 2, BKW_SOURCE + ": |DFBETAS| > 2/sqrt(n) (value is the numerator)", Grade.WEAKENS, ">"),
+            CHANCE,
+        ),
+        needs=frozenset({"rows", "fit"}),
+    ),
+]

@@ -9,7 +9,8 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.findings import Finding, Grade
 from prefit.roles import Kind
-from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold
+from prefit.stats.mergeable import Moments
+from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
 
 
 def _missing_values(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
@@ -90,6 +91,38 @@ def _constant(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         )
 
 
+def _central_skewness(values: np.ndarray, share: float) -> float:
+    """Moment skewness of the values between the ``share`` and ``1 - share`` quantiles."""
+    finite = values[np.isfinite(values)]
+    low, high = np.quantile(finite, [share, 1.0 - share])
+    return float(Moments.of(finite[(finite >= low) & (finite <= high)]).skewness)
+
+
+def _skewed(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    target = ctx.roles.target
+    if ctx.roles.kinds[target] is not Kind.NUMERIC:
+        return
+    moments = ctx.summary(target).moments
+    if moments.count < 3 or moments.minimum <= 0:
+        return
+    skewness, spread = moments.skewness, moments.maximum / moments.minimum
+    if not (settings.threshold("skewness").crossed(skewness) and settings.threshold("max-min-ratio").crossed(spread)):
+        return
+    central = _central_skewness(ctx.values(target), settings.limit("trim-share"))
+    if not settings.threshold("central-skewness").crossed(central):
+        return
+    yield settings.finding(
+        Grade.NOTE,
+        f"{target} is strictly positive and right-skewed (skewness {fmt(skewness, 2)}, largest value {fmt(spread)} times the smallest): "
+        "on its own scale effects are likely multiplicative and the residual spread likely grows with the level",
+        columns=[target],
+        value=skewness,
+        threshold=settings.threshold("skewness"),
+        remedy=f"consider fitting log({target}): slopes then read as relative changes (100*b % per unit), and the spread is often steadier",
+        details={"skewness": skewness, "central_skewness": central, "max_min_ratio": spread, "minimum": moments.minimum, "maximum": moments.maximum},
+    )
+
+
 RULES = [
     Rule(
         id="target.missing-values",
@@ -119,5 +152,26 @@ RULES = [
         remedy="check that the target column and the row filter are the ones intended",
         check=_constant,
         thresholds=(Threshold("blocks", 0, "definition of R-squared (total sum of squares is zero)", Grade.BLOCKS, "<="),),
+    ),
+    Rule(
+        id="target.skewed",
+        summary="A strictly positive, strongly right-skewed target spanning an order of magnitude: a log scale may suit it.",
+        why="Energy, costs and counts often grow by proportions: a big site uses more per extra pallet than a small "
+        "one. Fitted on the raw scale, such a response gives one slope where the effect is a percentage, residual "
+        "spread that grows with the level, and a few large values that dominate the fit.",
+        remedy="fit the logarithm of the target and read slopes as relative changes; check the residual spread again",
+        check=_skewed,
+        thresholds=(
+            Threshold("skewness", 1.0, "common practice: skewness above 1 is strong skew (Bulmer 1979, Principles of Statistics, from memory)", compare=">"),
+            Threshold("max-min-ratio", 10, "common practice: a positive quantity spanning an order of magnitude is a candidate for a log scale", compare=">"),
+            Threshold(
+                "central-skewness",
+                0.5,
+                "common practice: the middle values must be skewed too (moderate skew from 0.5), so that a few wrong readings alone do not decide",
+                compare=">",
+            ),
+            Threshold("trim-share", 0.01, "common practice: the central 98% of values"),
+        ),
+        grades=(Grade.NOTE,),
     ),
 ]

@@ -54,7 +54,7 @@ def file_name(recipe: ModuleType) -> str:
 
 
 def write_table(recipe: ModuleType, folder: Path) -> Path:
-    """Build one table with its seed and write it to ``folder``."""
+    """Build one table with its seed and write it to ``folder``, with any companion tables (CSV) its recipe builds from it."""
     frame = recipe.build(np.random.default_rng(seed_of(recipe.NAME)))
     path = folder / file_name(recipe)
     if recipe.FORMAT == "csv":
@@ -64,6 +64,9 @@ def write_table(recipe: ModuleType, folder: Path) -> Path:
         pq.write_table(table, path, compression="zstd")
     else:
         raise ValueError(f"recipe {recipe.NAME}: unknown format {recipe.FORMAT!r}")
+    for companion, build_companion in getattr(recipe, "COMPANIONS", {}).items():
+        extra = build_companion(np.random.default_rng(seed_of(companion)), frame)
+        (folder / companion).write_text(extra.to_csv(index=False, lineterminator="\n"), encoding="utf-8")
     return path
 
 

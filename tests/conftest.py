@@ -2,9 +2,13 @@
 
 from __future__ import annotations
 
+import os
+
+# Two cores: one BLAS thread per process keeps small linear algebra from oversubscribing them.
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+
 import io
 import json
-import os
 from contextlib import redirect_stderr, redirect_stdout
 from dataclasses import dataclass
 from pathlib import Path

@@ -101,3 +101,15 @@ def test_nothing_from_config_or_data_is_evaluated(tmp_path: Path) -> None:
     assert run.code in (0, 1), run.err
     assert not canary.exists()
     assert payload in run.json()["design"]["kinds"]
+
+
+def test_the_readme_configuration_example_is_valid(tmp_path: Path) -> None:
+    from conftest import ROOT, SAMPLE_TABLES
+
+    readme = (ROOT / "README.md").read_text(encoding="utf-8")
+    example = readme.split("```toml\n", 1)[1].split("```", 1)[0]
+    (tmp_path / "prefit.toml").write_text(example)
+    run = run_cli("check", SAMPLE_TABLES / "warehouse_clean.csv", "--format", "json")
+    assert run.code in (0, 1), run.err
+    report = run.json()
+    assert report["target"] == "energy_kwh" and "design.possible-code" not in report["rules_run"]

@@ -131,7 +131,9 @@ def _pip_install_target(tmp_path: Path) -> Path:
 def test_a_third_party_plugin_is_installed_and_discovered_end_to_end(tmp_path: Path) -> None:
     site = _pip_install_target(tmp_path)
     table = tmp_path / "t.csv"
-    pd.DataFrame({"energy": np.arange(40.0) * 2 + np.sin(np.arange(40)), "outdoor_c": np.arange(40.0)}).to_csv(table, index=False)
+    rng = np.random.default_rng(12)
+    outdoor = rng.uniform(-5, 35, 400).round(1)
+    pd.DataFrame({"energy": (2 * outdoor + rng.normal(0, 15, 400)).round(1), "outdoor_c": outdoor}).to_csv(table, index=False)
     env = {**os.environ, "PYTHONPATH": str(site)}
     listing = subprocess.run([sys.executable, "-m", "prefit", "rules", "--format", "json"], capture_output=True, text=True, env=env, check=True)
     rules = {r["id"]: r for r in json.loads(listing.stdout)["rules"]}

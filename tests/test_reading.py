@@ -92,14 +92,20 @@ def test_sha256_is_of_the_file_bytes(tmp_path: Path) -> None:
 
 
 def test_stdin(monkeypatch: pytest.MonkeyPatch) -> None:
+    import numpy as np
+
+    rng = np.random.default_rng(8)
+    x = rng.uniform(0, 30, 400).round(2)
+    y = (2.5 * x + rng.normal(0, 10, 400)).round(2)
+
     class FakeStdin:
-        buffer = io.BytesIO(("y,x\n" + "".join(f"{i * 2.5 + (i % 3)},{i}\n" for i in range(30))).encode())
+        buffer = io.BytesIO(("y,x\n" + "".join(f"{a},{b}\n" for a, b in zip(y, x))).encode())
 
     monkeypatch.setattr(sys, "stdin", FakeStdin())
     run = run_cli("check", "-", "--target", "y", "--format", "json")
     assert run.code == 0, run.err
     report = run.json()
-    assert report["table"]["path"] == "-" and report["table"]["rows"] == 30
+    assert report["table"]["path"] == "-" and report["table"]["rows"] == 400
 
 
 def test_placeholders_stay_text(tmp_path: Path) -> None:

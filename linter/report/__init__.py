@@ -1,23 +1,54 @@
-"""Reporters: each turns one report (table facts and a stream of findings) into one output format."""
+"""Report writers: each turns a run (one or more table reports, each a stream of findings) into one format.
+
+Every writer follows the lifecycle of :class:`~prefit.report.base.ReportWriter`;
+``FORMATS`` maps a format name to a factory, and ``register_format`` adds one.
+Writers are imported only when their format is asked for.
+"""
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Callable
+import importlib
+from typing import TYPE_CHECKING, Callable, Sequence
+
+from ..errors import UsageProblem
+from .base import ReportWriter, RunFacts, WriterSettings, drive
 
 if TYPE_CHECKING:
     from ..api import Report
 
-Writer = Callable[["Report"], str]
+WriterFactory = Callable[[WriterSettings], ReportWriter]
+
+__all__ = ["FORMATS", "ReportWriter", "RunFacts", "WriterSettings", "register_format", "render"]
 
 
-def _terminal(report: "Report") -> str:
-    from .terminal import render_terminal
+def _lazy(module: str, name: str) -> WriterFactory:
+    def factory(settings: WriterSettings) -> ReportWriter:
+        writer_class = getattr(importlib.import_module(f"{__name__}.{module}"), name)
+        return writer_class(settings)  # type: ignore[no-any-return]
 
-    return render_terminal(report, colour=False)
-
-
-def _json(report: "Report") -> str:
-    return report.to_json()
+    return factory
 
 
-FORMATS: dict[str, Writer] = {"text": _terminal, "json": _json}
+FORMATS: dict[str, WriterFactory] = {
+    "text": _lazy("terminal", "TerminalWriter"),
+    "json": _lazy("jsonreport", "JsonWriter"),
+    "sarif": _lazy("sarif", "SarifWriter"),
+    "junit": _lazy("junit", "JunitWriter"),
+    "markdown": _lazy("markdown", "MarkdownWriter"),
+    "html": _lazy("html", "HtmlWriter"),
+}
+
+
+def register_format(name: str, factory: WriterFactory) -> None:
+    """Make ``--format NAME`` write with the writer ``factory`` builds."""
+    if name in FORMATS:
+        raise ValueError(f"report format {name!r} is already registered")
+    FORMATS[name] = factory
+
+
+def render(format: str, reports: "Sequence[Report]", settings: WriterSettings = WriterSettings()) -> str:
+    """The document of ``reports`` in ``format``."""
+    factory = FORMATS.get(format)
+    if factory is None:
+        raise UsageProblem(f"--format {format}", "is not a report format", f"use one of {', '.join(FORMATS)}")
+    return drive(factory(settings), reports)

@@ -11,6 +11,7 @@ from rich.text import Text
 from rich.theme import Theme
 
 from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade
+from .base import ReportWriter, RunFacts
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -133,6 +134,23 @@ def render_terminal(report: "Report", colour: bool, width: int | None = None, ex
     else:
         verdict = Text(f"READY at gate {report.gate.word}: ", style="verdict.pass")
     verdict.append(summary or "no findings")
+    if report.accepted:
+        verdict.append(f"; {len(report.accepted)} accepted finding(s) not shown", style="facts.label")
     console.print(verdict)
     text = buffer.getvalue()
     return text if colour else "\n".join(line.rstrip() for line in text.split("\n"))
+
+
+class TerminalWriter(ReportWriter):
+    """The terminal report of each table, one after another."""
+
+    def begin_run(self, run: RunFacts) -> None:
+        super().begin_run(run)
+        self.parts: list[str] = []
+
+    def end_table(self, report: "Report") -> None:
+        explain = {rule_id: self.run.why(rule_id) for rule_id in self.run.rules} if self.settings.explain else None
+        self.parts.append(render_terminal(report, colour=self.settings.colour, explain=explain))
+
+    def end_run(self) -> str:
+        return "\n".join(self.parts)

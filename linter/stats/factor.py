@@ -7,30 +7,61 @@ from functools import cached_property
 
 import numpy as np
 import scipy.linalg
+import scipy.linalg.lapack
 
 from .mergeable import TriangularFactor
 
 EPS = float(np.finfo(np.float64).eps)
+BATCH_ROWS = 8_192
+SAFE_SQUARES = float(np.finfo(np.float64).tiny) / EPS
 
 
-def column_scales(X: np.ndarray) -> np.ndarray:
+def _sum_of_squares(X: np.ndarray, divisor: np.ndarray | float, batch_rows: int) -> np.ndarray:
+    squares = np.zeros(X.shape[1])
+    for start in range(0, X.shape[0], batch_rows):
+        shrunk = X[start : start + batch_rows] / divisor
+        squares += np.einsum("ij,ij->j", shrunk, shrunk)
+    return squares
+
+
+def column_scales(X: np.ndarray, batch_rows: int = BATCH_ROWS) -> np.ndarray:
     """Euclidean norm of each column (1 for an all-zero column), to scale columns to unit length.
 
-    Each column is divided by its largest magnitude before squaring, so values up to the largest
-    double do not overflow.
+    Sums of squares are taken directly when that neither overflows nor underflows; otherwise each
+    column is divided by its largest magnitude before squaring, so values up to the largest double
+    do not overflow. Rows are taken ``batch_rows`` at a time, so no temporary is as large as ``X``.
     """
     if not X.size:
         return np.ones(X.shape[1])
-    largest = np.max(np.abs(X), axis=0)
-    largest = np.where(largest > 0, largest, 1.0)
-    shrunk = X / largest
-    norms = largest * np.sqrt(np.einsum("ij,ij->j", shrunk, shrunk))
+    squares = _sum_of_squares(X, 1.0, batch_rows)
+    if np.all(np.isfinite(squares) & ((squares == 0) | (squares >= SAFE_SQUARES))):
+        norms = np.sqrt(squares)
+    else:
+        largest = np.zeros(X.shape[1])
+        for start in range(0, X.shape[0], batch_rows):
+            largest = np.maximum(largest, np.max(np.abs(X[start : start + batch_rows]), axis=0))
+        largest = np.where(largest > 0, largest, 1.0)
+        norms = largest * np.sqrt(_sum_of_squares(X, largest, batch_rows))
     return np.where(norms > 0, norms, 1.0)
 
 
 def augmented_factor(X: np.ndarray, y: np.ndarray, scales: np.ndarray) -> TriangularFactor:
-    """The R factor of ``[X / scales | y]`` for one batch of rows; merge batches with ``merge``."""
-    return TriangularFactor.of(np.column_stack([X / scales, y]))
+    """The R factor of ``[X / scales | y]`` for one batch of rows; merge batches with ``merge``.
+
+    Calls LAPACK's Householder QR (``dgeqrf``) on a private Fortran-ordered copy that it may overwrite.
+    """
+    rows, k = X.shape[0], X.shape[1] + 1
+    if rows == 0:
+        return TriangularFactor(np.zeros((k, k)), 0)
+    block = np.asfortranarray(np.column_stack([X / scales, y]))
+    lwork, _ = scipy.linalg.lapack.dgeqrf_lwork(rows, k)
+    qr, _, _, info = scipy.linalg.lapack.dgeqrf(block, lwork=int(lwork), overwrite_a=1)
+    if info != 0:
+        raise np.linalg.LinAlgError(f"dgeqrf failed with info={info}")
+    r = np.zeros((k, k))
+    top = min(k, rows)
+    r[:top] = np.triu(qr[:top, :k])
+    return TriangularFactor(r, rows)
 
 
 @dataclass(frozen=True)
@@ -70,10 +101,17 @@ class DesignFactor:
         return cls(scales, r2, perm, q2.T @ z0, float(rho**2), merged.rows)
 
     @classmethod
-    def of(cls, X: np.ndarray, y: np.ndarray) -> "DesignFactor":
-        """Factor a whole design held in memory (one batch)."""
+    def of(cls, X: np.ndarray, y: np.ndarray, batch_rows: int = BATCH_ROWS) -> "DesignFactor":
+        """Factor a whole design held in memory, ``batch_rows`` rows at a time (merged tall-skinny QR).
+
+        Batches keep the scaled copy small (memory stays near the design's own
+        size) and in cache; a design of at most ``batch_rows`` rows is one batch.
+        """
         scales = column_scales(X)
-        return cls.from_triangular(augmented_factor(X, y, scales), scales)
+        merged = augmented_factor(X[:batch_rows], y[:batch_rows], scales)
+        for start in range(batch_rows, X.shape[0], batch_rows):
+            merged = merged.merge(augmented_factor(X[start : start + batch_rows], y[start : start + batch_rows], scales))
+        return cls.from_triangular(merged, scales)
 
     @property
     def p(self) -> int:

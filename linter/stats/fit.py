@@ -2,12 +2,13 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from functools import cached_property
 
 import numpy as np
 import scipy.linalg
 
+from .accuracy import Digits, Refined, perturbation_digits, refine
 from .factor import DesignFactor
 
 
@@ -26,11 +27,18 @@ class PreliminaryFit:
     Columns beyond the numerical rank are not estimable: their coefficient
     and standard error are NaN. ``tss`` is centred when the model has an
     intercept and uncentred otherwise, as statistics packages report R^2.
+
+    Given the design ``X`` and target ``y`` the fit refines its solution with
+    residuals in extended precision (see :func:`refine`) and can estimate how
+    many digits of its coefficients and standard errors the data support
+    (:attr:`digits`); without them it is the plain QR solution.
     """
 
     factor: DesignFactor
     tss: float
     has_intercept: bool
+    X: np.ndarray | None = field(default=None, repr=False, compare=False)
+    y: np.ndarray | None = field(default=None, repr=False, compare=False)
 
     @property
     def n(self) -> int:
@@ -53,19 +61,61 @@ class PreliminaryFit:
         return scipy.linalg.solve_triangular(self.factor.r[:k, :k], np.eye(k)) if k else np.zeros((0, 0))
 
     @cached_property
+    def _refined(self) -> Refined | None:
+        f, k = self.factor, self.rank
+        if self.X is None or self.y is None or k == 0:
+            return None
+        z = scipy.linalg.solve_triangular(f.r[:k, :k], f.qty[:k], check_finite=False)
+        return refine(f, self.X, self.y, z)
+
+    @cached_property
     def coef(self) -> np.ndarray:
         """Coefficients in the units of the design columns."""
         f, k = self.factor, self.rank
         out = np.full(f.p, np.nan)
         if k:
-            solution = scipy.linalg.solve_triangular(f.r[:k, :k], f.qty[:k])
+            refined = self._refined
+            solution = refined.z if refined is not None else scipy.linalg.solve_triangular(f.r[:k, :k], f.qty[:k])
             out[f.perm[:k]] = solution / f.scales[f.perm[:k]]
         return out
 
     @property
     def rss(self) -> float:
         """Residual sum of squares."""
+        refined = self._refined
+        if refined is not None:
+            return refined.rss
         return float(self.factor.rss_outside + np.sum(self.factor.qty[self.rank :] ** 2))
+
+    @cached_property
+    def digits(self) -> Digits | None:
+        """Estimated correct significant digits of each estimable coefficient and standard error.
+
+        Ordered like the pivoted estimable columns ``factor.perm[:rank]``; see
+        :attr:`coef_digits` and :attr:`se_digits` for design order. None
+        without the design rows. Computing it costs a few passes over the rows.
+        """
+        refined = self._refined
+        if refined is None or self.X is None or self.y is None:
+            return None
+        return perturbation_digits(self.factor, self.X, self.y, refined)
+
+    def _in_design_order(self, values: np.ndarray) -> np.ndarray:
+        out = np.full(self.factor.p, np.nan)
+        out[self.factor.perm[: self.rank]] = values
+        return out
+
+    @property
+    def coef_digits(self) -> np.ndarray | None:
+        """Estimated correct significant digits of each coefficient, in design order (NaN if not estimable)."""
+        digits = self.digits
+        return None if digits is None else self._in_design_order(digits.coef)
+
+    @property
+    def se_digits(self) -> np.ndarray | None:
+        """Estimated correct significant digits of each standard error, in design order (NaN if not estimable)."""
+        digits = self.digits
+        return None if digits is None else self._in_design_order(digits.se)
 
     @property
     def sigma(self) -> float:

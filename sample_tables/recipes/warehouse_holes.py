@@ -9,7 +9,10 @@ NAME = "warehouse_holes"
 FORMAT = "parquet"
 ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
+    ("missingness.column-rate", "weakens", ("door_openings",)),
     ("missingness.complete-cases", "weakens", ("door_openings", "outdoor_c")),
+    ("missingness.pattern", "weakens", ("outdoor_c", "door_openings")),
+    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles")),
 ]
 EXIT_CODE = 0
 

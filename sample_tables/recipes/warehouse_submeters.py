@@ -9,7 +9,14 @@ NAME = "warehouse_submeters"
 FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
+    ("assumptions.nonlinearity", "weakens", ("compressor_kwh", "gross_kwh")),
     ("collinearity.exact", "blocks", ("compressor_kwh", "lighting_kwh", "defrost_kwh", "gross_kwh")),
+    ("collinearity.condition", "misleads", ("floor_area_m2", "compressor_kwh")),
+    ("collinearity.vif", "misleads", ("compressor_kwh",)),
+    ("collinearity.vif", "misleads", ("defrost_cycles",)),
+    ("collinearity.vif", "misleads", ("defrost_kwh",)),
+    ("collinearity.vif", "misleads", ("floor_area_m2",)),
+    ("collinearity.vif", "misleads", ("lighting_kwh",)),
 ]
 EXIT_CODE = 1
 

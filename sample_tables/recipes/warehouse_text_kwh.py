@@ -10,6 +10,7 @@ FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
     ("target.not-numeric", "blocks", ("energy_kwh",)),
+    ("hygiene.numeric-as-text", "misleads", ("energy_kwh",)),
 ]
 EXIT_CODE = 1
 

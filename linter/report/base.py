@@ -1,0 +1,88 @@
+"""The lifecycle every report writer shares: begin the run, then per table and per finding, then end.
+
+A writer never asks which rules exist: it reads them from the run facts
+(the rule catalogue of the run) and from each report, so a new rule appears
+in every format without touching a writer.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Mapping, Sequence
+
+from ..findings import Finding
+
+if TYPE_CHECKING:
+    from ..api import Report
+    from ..rule import RuleLike
+
+
+@dataclass(frozen=True)
+class WriterSettings:
+    """Presentation choices a writer may honour: colour for terminals, the why text under each finding."""
+
+    colour: bool = False
+    explain: bool = False
+    plots: bool = True
+
+
+@dataclass(frozen=True)
+class RunFacts:
+    """What holds for a whole run: the tool's version and the rules it knows, by id."""
+
+    version: str
+    rules: Mapping[str, "RuleLike"] = field(default_factory=dict)
+
+    @classmethod
+    def of(cls, reports: Sequence["Report"]) -> "RunFacts":
+        """The facts of a run over ``reports``: every rule any of them knew, in id order."""
+        from .. import __version__
+
+        known: dict[str, "RuleLike"] = {}
+        for report in reports:
+            for rule in report.rules:
+                known.setdefault(rule.id, rule)
+        return cls(version=__version__, rules={k: known[k] for k in sorted(known)})
+
+    def why(self, rule_id: str) -> str:
+        """The rule's why text, or an empty text for a rule the run does not know."""
+        rule = self.rules.get(rule_id)
+        return rule.why if rule is not None else ""
+
+
+class ReportWriter:
+    """One output format. The driver calls, in order: ``begin_run`` once; for each table
+    ``begin_table``, ``finding`` for each of its findings in report order, ``end_table``;
+    then ``end_run``, which returns the whole document.
+    """
+
+    def __init__(self, settings: WriterSettings = WriterSettings()) -> None:
+        self.settings = settings
+
+    def begin_run(self, run: RunFacts) -> None:
+        """Start a document."""
+        self.run = run
+
+    def begin_table(self, report: "Report") -> None:
+        """Start the part of the document about one table."""
+
+    def finding(self, finding: Finding) -> None:
+        """Add one finding of the current table."""
+
+    def end_table(self, report: "Report") -> None:
+        """Finish the part about one table."""
+
+    def end_run(self) -> str:
+        """Finish the document and return it."""
+        raise NotImplementedError
+
+
+def drive(writer: ReportWriter, reports: Sequence["Report"]) -> str:
+    """Feed ``reports`` through ``writer``'s lifecycle and return the document."""
+    writer.begin_run(RunFacts.of(reports))
+    for report in reports:
+        writer.begin_table(report)
+        for finding in report.findings:
+            writer.finding(finding)
+        writer.end_table(report)
+    return writer.end_run()

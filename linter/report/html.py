@@ -1,0 +1,200 @@
+"""One self-contained HTML page: header facts, findings by grade with why and remedy, and SVG plots.
+
+The page loads nothing: no script, no external style, font or image; a
+content security policy forbids all of them. Every text that comes from the
+data or the run (paths, column names, labels, messages) goes through
+:func:`esc`. matplotlib is imported only when plots are drawn.
+"""
+
+from __future__ import annotations
+
+import html
+from typing import TYPE_CHECKING, Any
+
+from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, count_by_grade
+from ..rule import fmt
+from .base import ReportWriter, RunFacts
+
+if TYPE_CHECKING:
+    from ..api import Report
+
+CONTENT_POLICY = "default-src 'none'; style-src 'unsafe-inline'; img-src data:"
+LISTED_ROWS = 20
+
+STYLE = """
+.prefit-report{font-family:system-ui,-apple-system,"Segoe UI",sans-serif;color:#1d2a33;line-height:1.45;max-width:72rem;margin:0 auto;padding:1rem}
+.prefit-report h1{font-size:1.5rem;margin:.2rem 0}
+.prefit-report h2{font-size:1.2rem;margin:1.6rem 0 .5rem;border-bottom:1px solid #d6dee4;padding-bottom:.2rem}
+.prefit-report h3{font-size:1rem;margin:1rem 0 .3rem}
+.prefit-report .path{font-family:ui-monospace,monospace;word-break:break-all}
+.prefit-report .verdict{display:inline-block;padding:.25rem .7rem;border-radius:.3rem;font-weight:600}
+.prefit-report .verdict.ready{background:#dcefdc;color:#1e5a1e}
+.prefit-report .verdict.not-ready{background:#f6d9d6;color:#7a1a12}
+.prefit-report .verdict.incomplete{background:#fbe7c6;color:#6b4300}
+.prefit-report dl.facts{display:grid;grid-template-columns:max-content 1fr;gap:.15rem 1rem;margin:.6rem 0}
+.prefit-report dl.facts dt{color:#5b7083}
+.prefit-report dl.facts dd{margin:0;font-weight:600}
+.prefit-report table{border-collapse:collapse;margin:.4rem 0}
+.prefit-report th,.prefit-report td{border:1px solid #d6dee4;padding:.2rem .5rem;text-align:left;vertical-align:top}
+.prefit-report td.n{text-align:right;font-variant-numeric:tabular-nums}
+.prefit-report .finding{border-left:.35rem solid #5b7083;background:#f7f9fa;padding:.5rem .8rem;margin:.6rem 0}
+.prefit-report .grade-blocks{border-color:#7a1a12}
+.prefit-report .grade-misleads{border-color:#c0392b}
+.prefit-report .grade-weakens{border-color:#c77700}
+.prefit-report .grade-note{border-color:#3d6e99}
+.prefit-report .tag{display:inline-block;font-size:.75rem;font-weight:700;text-transform:uppercase;padding:0 .4rem;border-radius:.2rem;color:#fff;background:#5b7083}
+.prefit-report .tag.grade-blocks{background:#7a1a12}.prefit-report .tag.grade-misleads{background:#c0392b}
+.prefit-report .tag.grade-weakens{background:#c77700}.prefit-report .tag.grade-note{background:#3d6e99}
+.prefit-report .rule{font-family:ui-monospace,monospace;font-weight:600}
+.prefit-report .columns{font-style:italic}
+.prefit-report .label{color:#5b7083}
+.prefit-report .remedy{color:#1e5a1e}
+.prefit-report figure{margin:1rem 0}
+.prefit-report figure svg.plot{max-width:100%;height:auto}
+.prefit-report figcaption{color:#5b7083;font-size:.9rem}
+"""
+
+
+def esc(text: Any) -> str:
+    """Text as HTML character data or attribute value: ``& < > " '`` become references."""
+    return html.escape(str(text), quote=True)
+
+
+def _verdict(report: "Report") -> tuple[str, str]:
+    if report.failed_rules:
+        return "incomplete", f"incomplete: {len(report.failed_rules)} rule(s) failed ({', '.join(report.failed_rules)})"
+    if report.gated:
+        return "not-ready", f"not ready at gate {report.gate.word}: {len(report.gated)} finding(s) at or above it"
+    return "ready", f"ready at gate {report.gate.word}"
+
+
+def _facts(report: "Report") -> str:
+    pairs = [
+        ("table", report.info.path),
+        ("format", report.info.format),
+        ("rows", f"{report.info.rows:,}"),
+        ("columns", f"{report.info.columns:,}"),
+        ("target", report.target),
+        ("row labels", report.design.get("id") or "data row numbers"),
+        ("parameters", f"{report.parameters:,}"),
+        ("complete cases", f"{report.complete_cases:,}"),
+        ("gate", report.gate.word),
+        ("accepted findings", f"{len(report.accepted):,} (counted, not listed)"),
+    ]
+    if report.info.sha256:
+        pairs.append(("sha256", report.info.sha256))
+    body = "".join(f"<dt>{esc(k)}</dt><dd>{esc(v)}</dd>" for k, v in pairs)
+    return f'<dl class="facts">{body}</dl>'
+
+
+def _design(report: "Report") -> str:
+    design = report.design
+    rows = []
+    for term in design.get("terms", []):
+        extra = f"reference {term['reference']}" if "reference" in term else ""
+        rows.append(f"<tr><td>{esc(term['column'])}</td><td>{esc(term['kind'])}</td><td class=\"n\">{int(term['parameters'])}</td><td>{esc(extra)}</td></tr>")
+    left_out = "".join(f"<li><b>{esc(c)}</b>: {esc(why)}</li>" for c, why in design.get("left_out", {}).items())
+    return (
+        "<h2>Design</h2>"
+        f"<p>{'with' if design.get('intercept') else 'without'} intercept; {esc(design.get('coding', ''))}; "
+        f"{int(design.get('rows_dropped', 0)):,} row(s) dropped as incomplete.</p>"
+        "<table><thead><tr><th>term</th><th>kind</th><th>parameters</th><th>coding</th></tr></thead>"
+        f"<tbody>{''.join(rows)}</tbody></table>"
+        + (f"<p class=\"label\">Left out of the predictors:</p><ul>{left_out}</ul>" if left_out else "")
+    )
+
+
+def _counts(report: "Report", findings: list[Finding]) -> str:
+    counts = count_by_grade(findings)
+    head = "".join(f"<th>{esc(w)}</th>" for w in counts) + "<th>accepted</th>"
+    body = "".join(f'<td class="n">{n}</td>' for n in counts.values()) + f'<td class="n">{len(report.accepted)}</td>'
+    return f'<table class="counts"><thead><tr>{head}</tr></thead><tbody><tr>{body}</tr></tbody></table>'
+
+
+def _finding(finding: Finding, why: str) -> str:
+    parts = [f'<article class="finding grade-{finding.grade.word}">']
+    columns = f' <span class="columns">{esc(", ".join(finding.columns))}</span>' if finding.columns else ""
+    parts.append(f'<div><span class="tag grade-{finding.grade.word}">{esc(finding.grade.word)}</span> <span class="rule">{esc(finding.rule)}</span>{columns}</div>')
+    parts.append(f"<p>{esc(finding.message)}</p>")
+    if finding.rows:
+        shown = ", ".join(str(r) for r in finding.rows[:LISTED_ROWS])
+        more = finding.row_count - min(len(finding.rows), LISTED_ROWS)
+        parts.append(f'<p><span class="label">rows:</span> {esc(shown)}{esc(f" (+{more} more)") if more > 0 else ""}</p>')
+    if finding.value is not None or finding.threshold is not None:
+        measured = fmt(finding.value) if finding.value is not None else "-"
+        limit = fmt(finding.threshold) if finding.threshold is not None else "-"
+        parts.append(f'<p><span class="label">measured</span> {esc(measured)} <span class="label">threshold</span> {esc(limit)} <span class="label">source</span> {esc(finding.source or "-")}</p>')
+    if why:
+        parts.append(f'<p><span class="label">why it matters:</span> {esc(why)}</p>')
+    if finding.remedy:
+        parts.append(f'<p class="remedy"><span class="label">remedy:</span> {esc(finding.remedy)}</p>')
+    parts.append("</article>")
+    return "".join(parts)
+
+
+def table_section(report: "Report", findings: list[Finding], run: RunFacts, plots: bool, prefix: str = "t1-") -> str:
+    """The part of the page about one table."""
+    kind, verdict = _verdict(report)
+    out = ['<section class="table-report">']
+    out.append(f'<h1>prefit report <span class="path">{esc(report.info.path)}</span></h1>')
+    out.append(f'<p><span class="verdict {kind}">{esc(verdict)}</span></p>')
+    out.append(_facts(report))
+    out.append("<h2>Findings</h2>")
+    out.append(_counts(report, findings))
+    if not findings:
+        out.append("<p>No findings.</p>")
+    for grade in GRADES_STRONGEST_FIRST:
+        group = [f for f in findings if f.grade is grade]
+        if group:
+            out.append(f'<h3><span class="tag grade-{grade.word}">{esc(grade.word)}</span> {len(group)}: {esc(GRADE_MEANINGS[grade])}</h3>')
+            out.extend(_finding(f, run.why(f.rule)) for f in group)
+    out.append(_design(report))
+    if plots:
+        from .plots import draw_all
+
+        drawn = draw_all(report, prefix)
+        if drawn:
+            out.append("<h2>Plots</h2>")
+        for plot in drawn:
+            title_id = f"{plot.key}-title"
+            svg = plot.svg.replace(">", f'><title id="{title_id}">{esc(plot.title)}</title>', 1)
+            out.append(f'<figure class="plot" id="{plot.key}"><h3>{esc(plot.title)}</h3>{svg}<figcaption>{esc(plot.caption)}</figcaption></figure>')
+    out.append(f'<p class="label">{len(report.outcomes)} rule(s) ran; prefit {esc(run.version)}.</p>')
+    out.append("</section>")
+    return "".join(out)
+
+
+class HtmlWriter(ReportWriter):
+    """A complete HTML document, one section per table."""
+
+    def begin_run(self, run: RunFacts) -> None:
+        super().begin_run(run)
+        self.sections: list[str] = []
+        self.paths: list[str] = []
+
+    def begin_table(self, report: "Report") -> None:
+        self.findings: list[Finding] = []
+
+    def finding(self, finding: Finding) -> None:
+        self.findings.append(finding)
+
+    def end_table(self, report: "Report") -> None:
+        self.paths.append(report.info.path)
+        self.sections.append(table_section(report, self.findings, self.run, self.settings.plots, f"t{len(self.paths)}-"))
+
+    def end_run(self) -> str:
+        title = "prefit report: " + ", ".join(self.paths)
+        return (
+            "<!DOCTYPE html>\n"
+            '<html lang="en"><head><meta charset="utf-8">'
+            f'<meta http-equiv="Content-Security-Policy" content="{CONTENT_POLICY}">'
+            '<meta name="viewport" content="width=device-width, initial-scale=1">'
+            f"<title>{esc(title)}</title><style>{STYLE}</style></head>\n"
+            f'<body><main class="prefit-report">{"".join(self.sections)}</main></body></html>\n'
+        )
+
+
+def html_fragment(report: "Report") -> str:
+    """The report as an HTML fragment for a notebook cell (styles scoped to the report)."""
+    section = table_section(report, list(report.findings), RunFacts.of([report]), plots=True)
+    return f'<div class="prefit-report"><style>{STYLE}</style>{section}</div>'

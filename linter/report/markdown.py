@@ -1,0 +1,96 @@
+"""A compact Markdown summary for a pull-request comment: verdict, counts per grade, findings, remedies.
+
+Text from the data (column names, row labels, messages quoting values) is
+escaped so that it renders as written: the characters that start emphasis,
+code, links, strike-through or a table cell get a backslash, ``<`` and ``&``
+become entities, and line breaks become spaces. Other punctuation is only
+special at the start of a line, where data text never stands.
+"""
+
+from __future__ import annotations
+
+import re
+from typing import TYPE_CHECKING
+
+from ..findings import GRADES_STRONGEST_FIRST, Finding, count_by_grade
+from .base import ReportWriter, RunFacts
+
+if TYPE_CHECKING:
+    from ..api import Report
+
+_PUNCTUATION = re.compile(r"([\\`*_\[\]|~])")
+LISTED_ROWS = 5
+
+
+def md_text(text: str) -> str:
+    """``text`` as literal Markdown inline text, safe in a table cell."""
+    flat = " ".join(str(text).split())
+    flat = flat.replace("&", "&amp;").replace("<", "&lt;")
+    return _PUNCTUATION.sub(r"\\\1", flat)
+
+
+def _verdict(report: "Report") -> str:
+    if report.failed_rules:
+        return f"incomplete: {len(report.failed_rules)} rule(s) failed"
+    if report.gated:
+        return f"not ready at gate *{report.gate.word}*"
+    return f"ready at gate *{report.gate.word}*"
+
+
+def _rows(finding: Finding) -> str:
+    if not finding.rows:
+        return ""
+    shown = ", ".join(md_text(str(r)) for r in finding.rows[:LISTED_ROWS])
+    more = finding.row_count - min(len(finding.rows), LISTED_ROWS)
+    return f" Rows: {shown}" + (f" (+{more} more)" if more > 0 else "") + "."
+
+
+class MarkdownWriter(ReportWriter):
+    """One section per table: heading with the verdict, a count table, a findings table, the remedies."""
+
+    def begin_run(self, run: RunFacts) -> None:
+        super().begin_run(run)
+        self.parts: list[str] = []
+
+    def begin_table(self, report: "Report") -> None:
+        self.findings: list[Finding] = []
+
+    def finding(self, finding: Finding) -> None:
+        self.findings.append(finding)
+
+    def end_table(self, report: "Report") -> None:
+        lines = [f"### prefit: {md_text(report.info.path)}: {_verdict(report)}", ""]
+        lines.append(
+            f"{report.info.rows:,} rows, {report.info.columns:,} columns; target {md_text(report.target)}; "
+            f"{report.parameters:,} parameters; {report.complete_cases:,} complete cases."
+        )
+        lines.append("")
+        counts = count_by_grade(self.findings)
+        words = [g.word for g in GRADES_STRONGEST_FIRST]
+        lines.append("| " + " | ".join(words + ["accepted"]) + " |")
+        lines.append("|" + "---:|" * (len(words) + 1))
+        lines.append("| " + " | ".join(str(counts[w]) for w in words) + f" | {len(report.accepted)} |")
+        lines.append("")
+        if self.findings:
+            lines.append("| grade | rule | columns | finding |")
+            lines.append("|---|---|---|---|")
+            for f in self.findings:
+                columns = ", ".join(md_text(c) for c in f.columns) or "-"
+                lines.append(f"| {f.grade.word} | `{f.rule}` | {columns} | {md_text(f.message)}{_rows(f)} |")
+            lines.append("")
+            remedies: list[str] = []
+            seen: set[tuple[str, str]] = set()
+            for f in self.findings:
+                if f.remedy and (f.rule, f.remedy) not in seen:
+                    seen.add((f.rule, f.remedy))
+                    remedies.append(f"- **{f.rule}**: {md_text(f.remedy)}")
+            if remedies:
+                lines += ["**Remedies**", "", *remedies, ""]
+        else:
+            lines += ["No findings.", ""]
+        if report.accepted:
+            lines += [f"{len(report.accepted)} accepted finding(s) are counted, not listed.", ""]
+        self.parts.append("\n".join(lines))
+
+    def end_run(self) -> str:
+        return "\n".join(self.parts).rstrip("\n") + "\n"

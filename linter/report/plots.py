@@ -1,0 +1,344 @@
+"""Plots for the HTML report, drawn with matplotlib (imported only here) and returned as inline SVG.
+
+Each function reads the run context and returns an SVG fragment, or None
+when the plot has nothing to show (no fit, fewer than two numeric
+predictors). Large tables are sampled deterministically and the caption
+says so. Text is written as SVG text elements, which matplotlib's XML
+writer escapes, so no data text becomes markup; the page names no font file.
+"""
+
+from __future__ import annotations
+
+import io
+import re
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Mapping
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from ..accepted import RowDigester
+from ..design import INTERCEPT
+from ..findings import RowLabel
+from ..rule import fmt
+
+if TYPE_CHECKING:
+    from matplotlib.figure import Figure
+
+    from ..api import Report
+
+COOK_CONTOURS = (0.5, 1.0)
+"""Cook's distance contours drawn on the influence plot (common practice; from memory: the levels R's ``plot.lm`` draws)."""
+VIF_LINES = ((5.0, "common practice"), (10.0, "common practice"))
+"""VIF reference lines used when no installed rule declares VIF thresholds."""
+MAX_POINTS = 4000
+MAX_MAP_ROWS = 300
+MAX_MAP_COLUMNS = 60
+MAX_MATRIX_COLUMNS = 25
+MAX_LABELS = 12
+RASTER_POINTS = 500
+"""Above this many points the point cloud is embedded as an image inside the SVG, to keep the page small."""
+ROW_FAMILIES = frozenset({"influence", "outliers"})
+"""Rule families whose named rows are marked on the influence plot."""
+COLOURS = {"point": "#5b7083", "flagged": "#b3261e", "contour": "#c77700", "present": "#e8eef3", "missing": "#1f3a5f", "intended": "#cfe3cf", "observed": "#1f3a5f"}
+
+
+@dataclass(frozen=True)
+class Plot:
+    """One drawn plot: a title, the inline SVG and a caption of plain text (escaped by the page)."""
+
+    key: str
+    title: str
+    svg: str
+    caption: str
+
+
+def _plain(text: object) -> str:
+    """Text drawn literally by matplotlib: dollar signs would otherwise start mathematics."""
+    return str(text).replace("\\", "\\\\").replace("$", r"\$")
+
+
+def _svg(figure: "Figure", key: str) -> str:
+    import matplotlib
+
+    buffer = io.StringIO()
+    with matplotlib.rc_context({"svg.hashsalt": "prefit", "svg.fonttype": "none", "svg.image_inline": True}):
+        figure.savefig(buffer, format="svg", metadata={"Date": None}, dpi=150)
+    text = buffer.getvalue()
+    text = text[text.index("<svg") :]
+    text = re.sub(r"<!--.*?-->\n?", "", text, flags=re.S)
+    text = re.sub(r'\bid="([^"]+)"', lambda m: f'id="{key}-{m.group(1)}"', text)
+    text = re.sub(r"url\(#([^)]+)\)", lambda m: f"url(#{key}-{m.group(1)})", text)
+    text = re.sub(r'href="#([^"]+)"', lambda m: f'href="#{key}-{m.group(1)}"', text)
+    text = text.replace("<svg ", f'<svg role="img" aria-labelledby="{key}-title" class="plot" ', 1)
+    return text
+
+
+def _figure(width: float, height: float) -> "Figure":
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    figure = Figure(figsize=(width, height), dpi=100, layout="constrained")
+    FigureCanvasAgg(figure)
+    return figure
+
+
+def _flagged_positions(report: "Report") -> list[int]:
+    """Table rows (0-based) named by findings of the row-diagnostic families."""
+    if report.context is None:
+        return []
+    digester = RowDigester(report.context)
+    labels: list[RowLabel] = [label for f in report.findings if f.rule.split(".", 1)[0] in ROW_FAMILIES for label in f.rows]
+    return digester.positions(labels)
+
+
+def _evenly(indices: np.ndarray, limit: int) -> np.ndarray:
+    if indices.size <= limit:
+        return indices
+    return indices[np.linspace(0, indices.size - 1, limit).round().astype(np.int64)]
+
+
+def cook_contour(hat: np.ndarray, level: float, parameters: int, df_resid: int) -> np.ndarray:
+    """The |externally studentized residual| at which a row of leverage ``hat`` has Cook's distance ``level``.
+
+    Cook's distance fixes the internally studentized residual,
+    ``r^2 = D k (1 - h) / h``, and ``t = r sqrt((n - k - 1) / (n - k - r^2))``
+    turns it into the externally studentized one; NaN where no residual reaches ``level``.
+
+    References
+    ----------
+    Cook, R. D. (1977). Detection of influential observation in linear
+    regression. Technometrics 19(1), 15-18. Belsley, Kuh & Welsch (1980), Regression Diagnostics, eq. 2.26.
+    """
+    hat = np.asarray(hat, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        internal = level * parameters * (1.0 - hat) / hat
+        external = np.sqrt(internal * (df_resid - 1) / (df_resid - internal))
+    return np.where((internal < df_resid) & (hat > 0) & (hat < 1), external, np.nan)
+
+
+def influence(report: "Report", key: str = "influence") -> Plot | None:
+    """Leverage against externally studentized residual, with Cook's distance contours and flagged rows labelled.
+
+    The measures are the run's shared influence statistics; the contours are exact in these coordinates.
+    """
+    ctx = report.context
+    if ctx is None or not ctx.target_is_numeric:
+        return None
+    fit = ctx.fit
+    rank, df_resid = fit.rank, fit.df_resid
+    if rank == 0 or df_resid <= 1:
+        return None
+    shared = ctx.influence
+    hat, studentized, cook = np.clip(shared.hat, 0.0, 1.0), shared.studentized, shared.cooks
+    n = hat.size
+    finite = np.flatnonzero(np.isfinite(studentized) & np.isfinite(cook))
+    if finite.size == 0:
+        return None
+    named = np.asarray(_flagged_positions(report), dtype=np.int64)
+    in_design = np.minimum(np.searchsorted(ctx.design.positions, named), n - 1)
+    flagged = np.intersect1d(in_design[ctx.design.positions[in_design] == named], finite)
+    beyond = finite[cook[finite] >= COOK_CONTOURS[0]]
+    if flagged.size == 0:
+        flagged = beyond
+    by_cook = finite[np.argsort(-cook[finite], kind="stable")]
+    shown = np.union1d(np.union1d(beyond, flagged), np.union1d(by_cook[: MAX_POINTS // 10], _evenly(finite, MAX_POINTS)))
+    figure = _figure(7.0, 4.6)
+    axes = figure.add_subplot(1, 1, 1)
+    axes.scatter(hat[shown], studentized[shown], s=12, color=COLOURS["point"], alpha=0.7, linewidths=0, label="complete cases", rasterized=shown.size > RASTER_POINTS)
+    if flagged.size:
+        axes.scatter(hat[flagged], studentized[flagged], s=22, color=COLOURS["flagged"], linewidths=0, label="rows named by influence or outlier findings")
+    h_max = float(np.max(hat[finite]))
+    grid = np.linspace(max(1e-4, float(np.min(hat[finite])) * 0.9), min(0.999, max(h_max * 1.05, 0.05)), 200)
+    r_lim = max(3.0, float(np.nanmax(np.abs(studentized[finite]))) * 1.1)
+    contours_drawn = 0
+    for level, style in zip(COOK_CONTOURS, ("--", ":")):
+        bound = cook_contour(grid, level, rank, df_resid)
+        keep = np.isfinite(bound) & (bound <= r_lim * 1.05)
+        contours_drawn += int(keep.any())
+        axes.plot(grid[keep], bound[keep], style, color=COLOURS["contour"], linewidth=1, label=f"Cook's distance {level:g}")
+        axes.plot(grid[keep], -bound[keep], style, color=COLOURS["contour"], linewidth=1)
+    axes.axhline(0.0, color="#999999", linewidth=0.6)
+    labelled: dict[str, int] = {}
+    for i in flagged[np.argsort(-cook[flagged], kind="stable")]:
+        label = str(ctx.row_label(int(ctx.design.positions[i])))
+        if label not in labelled and len(labelled) < MAX_LABELS:
+            labelled[label] = int(i)
+    for label, i in labelled.items():
+        axes.annotate(_plain(label), (hat[i], studentized[i]), xytext=(4, 4), textcoords="offset points", fontsize=7, color=COLOURS["flagged"])
+    axes.set_ylim(-r_lim, r_lim)
+    axes.set_xlabel("leverage (hat value)")
+    axes.set_ylabel("studentized residual (external)")
+    axes.legend(loc="best", fontsize=7, frameon=False)
+    axes.grid(alpha=0.25)
+    sampled = "" if shown.size == finite.size else f" Showing {shown.size:,} of {finite.size:,} rows (every row beyond the first contour and every named row included)."
+    caption = (
+        f"Each point is a complete case ({n:,}); dashed and dotted curves are Cook's distance "
+        f"{COOK_CONTOURS[0]:g} and {COOK_CONTOURS[1]:g} for {rank} parameters. Labelled: rows named by influence or outlier findings "
+        f"(or, when none are, rows beyond the first contour); {len(labelled)} labels, each at the row of that label with the largest Cook's distance."
+        + ("" if contours_drawn else " Both contours lie beyond the plotted range: no row comes near them.")
+        + sampled
+    )
+    return Plot(key, "Leverage and residuals", _svg(figure, key), caption)
+
+
+def _missing_mask(column: pa.ChunkedArray) -> np.ndarray:
+    mask = np.asarray(column.is_null().to_numpy(zero_copy_only=False), dtype=bool)
+    if pa.types.is_floating(column.type):
+        mask |= np.asarray(pc.fill_null(pc.is_nan(column), False).to_numpy(zero_copy_only=False), dtype=bool)
+    return mask
+
+
+def missingness(report: "Report", key: str = "missingness") -> Plot | None:
+    """A rows x columns map of missing values (null or NaN), sampled when large, with the complete-case count."""
+    ctx = report.context
+    if ctx is None:
+        return None
+    model = list(ctx.model_columns)
+    others = [c for c in ctx.table.column_names if c not in model]
+    columns = (model + others)[:MAX_MAP_COLUMNS]
+    rows = ctx.table.num_rows
+    picked = _evenly(np.arange(rows), MAX_MAP_ROWS)
+    masks = [_missing_mask(ctx.table.column(c)) for c in columns]
+    mask = np.column_stack([m[picked] for m in masks])
+    counts = [int(m.sum()) for m in masks]
+    figure = _figure(min(1.2 + 0.28 * len(columns), 12.0), 4.6)
+    axes = figure.add_subplot(1, 1, 1)
+    from matplotlib.colors import ListedColormap
+
+    axes.imshow(mask.astype(np.int8), aspect="auto", interpolation="nearest", cmap=ListedColormap([COLOURS["present"], COLOURS["missing"]]), vmin=0, vmax=1)
+    axes.set_xticks(range(len(columns)), [_plain(f"{c} ({k:,})") for c, k in zip(columns, counts)], rotation=90, fontsize=7)
+    axes.set_ylabel("row" + (" (sampled)" if picked.size < rows else ""))
+    ticks = np.linspace(0, picked.size - 1, min(6, picked.size)).round().astype(int)
+    axes.set_yticks(ticks, [f"{int(picked[t]) + 1:,}" for t in ticks], fontsize=7)
+    axes.set_title(f"complete cases: {ctx.design.n:,} of {rows:,} rows", fontsize=9)
+    sampled = f" Showing {picked.size:,} evenly spaced rows of {rows:,}." if picked.size < rows else ""
+    shown_columns = "" if len(columns) == ctx.table.num_columns else f" First {len(columns)} of {ctx.table.num_columns} columns (target and predictors first)."
+    caption = (
+        f"Dark cells are missing values (null or NaN); each column label gives its count of missing values. "
+        f"{ctx.design.n:,} rows have the target and every predictor present.{sampled}{shown_columns}"
+    )
+    return Plot(key, "Missing values", _svg(figure, key), caption)
+
+
+def _vif_lines(report: "Report") -> list[tuple[float, str]]:
+    for rule in report.rules:
+        if rule.id.split(".", 1)[-1] == "vif":
+            graded = [(t.value, f"{t.grade.word} ({t.source})") for t in rule.thresholds if t.grade is not None]
+            if graded:
+                return sorted(graded)
+    return [(value, source) for value, source in VIF_LINES]
+
+
+def collinearity(report: "Report", key: str = "collinearity") -> Plot | None:
+    """The predictor correlation heatmap (complete cases) beside a bar chart of VIFs with the threshold lines.
+
+    Correlations and VIFs come from the run's shared collinearity statistics;
+    a column in an exact dependency has no VIF of its own and is drawn as infinite.
+    """
+    ctx = report.context
+    if ctx is None or ctx.design.n < 3:
+        return None
+    shared = ctx.collinearity
+    kept = list(shared.predictor_names())
+    exact = [shared.design_names[j] for j in shared.left_out if shared.design_names[j] != INTERCEPT]
+    shown = min(len(kept), MAX_MATRIX_COLUMNS)
+    names = kept[:shown] + exact[: MAX_MATRIX_COLUMNS - shown]
+    if len(names) < 2:
+        return None
+    correlation = shared.correlation[:shown, :shown]
+    vif = np.concatenate([np.asarray(shared.vif[:shown], dtype=float), np.full(len(names) - shown, np.inf)])
+    lines = _vif_lines(report)
+    figure = _figure(min(8.0 + 0.45 * len(names), 14.0), min(3.2 + 0.3 * len(names), 9.5))
+    left, right = figure.subplots(1, 2, gridspec_kw={"width_ratios": [1.2, 1.0]})
+    image = left.imshow(correlation, cmap="RdBu_r", vmin=-1, vmax=1)
+    labels = [_plain(c) for c in names]
+    left.set_xticks(range(shown), labels[:shown], rotation=90, fontsize=7)
+    left.set_yticks(range(shown), labels[:shown], fontsize=7)
+    if shown <= 12:
+        for i in range(shown):
+            for j in range(shown):
+                left.text(j, i, f"{correlation[i, j]:.2f}", ha="center", va="center", fontsize=6, color="white" if abs(correlation[i, j]) > 0.6 else "black")
+    figure.colorbar(image, ax=left, fraction=0.046, pad=0.04)
+    left.set_title("correlation (complete cases)", fontsize=9)
+    top = max(float(np.max(vif[np.isfinite(vif)], initial=1.0)), max(v for v, _ in lines)) * 1.25
+    heights = np.where(np.isfinite(vif), vif, top)
+    positions = np.arange(len(names))
+    bars = right.barh(positions, heights, color=[COLOURS["flagged"] if not np.isfinite(v) or v >= lines[0][0] else COLOURS["point"] for v in vif])
+    for bar, value in zip(bars, vif):
+        right.text(bar.get_width(), bar.get_y() + bar.get_height() / 2, " inf" if not np.isfinite(value) else f" {value:.1f}", va="center", fontsize=7)
+    for (value, _), style in zip(lines, ("--", ":", "-.")):
+        right.axvline(value, linestyle=style, color=COLOURS["contour"], linewidth=1)
+    right.set_yticks(positions, labels, fontsize=7)
+    right.invert_yaxis()
+    right.set_xlim(0, top * 1.1)
+    right.set_title("variance inflation factor", fontsize=9)
+    caption = (
+        "Pearson correlations among the design's predictor columns over the complete cases, and each one's VIF "
+        "(the diagonal of the inverse correlation matrix). Lines at "
+        + ", ".join(f"{value:g} ({source})" for value, source in lines)
+        + "."
+        + (f" {len(exact)} column(s) in an exact dependency, left out of the correlations (infinite VIF)." if exact else "")
+        + ("" if len(names) == len(kept) + len(exact) else f" First {len(names)} of {len(kept) + len(exact)} columns.")
+    )
+    return Plot(key, "Correlation and variance inflation", _svg(figure, key), caption)
+
+
+def ranges(report: "Report", key: str = "ranges") -> Plot | None:
+    """Per numeric predictor: the observed range (min to max, 5th to 95th percentile) against the declared intended range."""
+    ctx = report.context
+    if ctx is None:
+        return None
+    names = list(ctx.numeric_predictors)[:MAX_MATRIX_COLUMNS]
+    if not names:
+        return None
+    intended: Mapping[str, tuple[float, float]] = ctx.options.ranges
+    figure = _figure(7.5, 0.9 + 0.42 * len(names))
+    axes = figure.add_subplot(1, 1, 1)
+    declared = 0
+    for row, name in enumerate(names):
+        values = ctx.values(name)
+        values = values[np.isfinite(values)]
+        if values.size == 0:
+            continue
+        low, high = float(values.min()), float(values.max())
+        inner = np.percentile(values, [5, 95])
+        window = intended.get(name)
+        ends = [low, high, *(window or ())]
+        span_low, span_high = min(ends), max(ends)
+        width = span_high - span_low or 1.0
+
+        def scaled(x: float) -> float:
+            return (x - span_low) / width
+
+        if window is not None:
+            declared += 1
+            axes.barh(row, scaled(window[1]) - scaled(window[0]), left=scaled(window[0]), height=0.7, color=COLOURS["intended"], edgecolor="#5f8f5f")
+        axes.plot([scaled(low), scaled(high)], [row, row], color=COLOURS["observed"], linewidth=1.2)
+        axes.plot([scaled(inner[0]), scaled(inner[1])], [row, row], color=COLOURS["observed"], linewidth=4.5, solid_capstyle="butt")
+        axes.text(-0.03, row, fmt(low, 4), ha="right", va="center", fontsize=7)
+        axes.text(1.03, row, fmt(high, 4), ha="left", va="center", fontsize=7)
+    tick_labels = [_plain(n if n not in intended else f"{n} (intended {fmt(intended[n][0], 4)} to {fmt(intended[n][1], 4)})") for n in names]
+    axes.set_yticks(range(len(names)), tick_labels, fontsize=7)
+    axes.invert_yaxis()
+    axes.set_xlim(-0.25, 1.25)
+    axes.set_xticks([])
+    for side in ("top", "right", "bottom"):
+        axes.spines[side].set_visible(False)
+    axes.set_title("observed range (thin: min to max, thick: 5th to 95th percentile) and intended range (green)", fontsize=8)
+    caption = (
+        "Each predictor on its own scale, from the smaller to the larger of its observed and intended ends; the numbers are "
+        "the observed minimum and maximum. "
+        + (f"{declared} predictor(s) have a declared intended range." if declared else "No intended ranges were declared, so only observed ranges are shown.")
+    )
+    return Plot(key, "Observed and intended ranges", _svg(figure, key), caption)
+
+
+PLOTS = (influence, missingness, collinearity, ranges)
+
+
+def draw_all(report: "Report", prefix: str = "") -> list[Plot]:
+    """Every plot that applies to the report, in page order; ``prefix`` keeps SVG ids unique on a page."""
+    drawn = (plot(report, f"{prefix}{plot.__name__}") for plot in PLOTS)
+    return [p for p in drawn if p is not None]

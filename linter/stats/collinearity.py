@@ -1,0 +1,319 @@
+"""Collinearity diagnostics from the design's R factor: (generalised) VIFs, correlations, condition indices.
+
+Everything here is computed from the p x p R factor that :class:`DesignFactor`
+already holds, with no further pass over the rows: re-triangularising ``R``
+with the intercept first gives, in its trailing block, the Cholesky factor of
+the centred cross-products (the Frisch-Waugh-Lovell theorem: projecting out
+the intercept is centring), so the predictor correlation matrix and its
+inverse come from orthogonal transformations, never from ``X'X``.
+
+Columns in an exact linear dependency are left out first (the
+``collinearity.exact`` rule reports those), so every statistic here describes
+the estimable design and stays finite.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+
+import numpy as np
+import scipy.linalg
+
+from ..design import INTERCEPT, Design
+from .factor import DesignFactor
+
+DOMINANT_PROPORTION = 0.5
+
+
+def dependent_columns(factor: DesignFactor, names: tuple[str, ...]) -> tuple[int, ...]:
+    """Design columns to leave out so that the rest has full rank, one per exact dependency.
+
+    In each dependency the column carrying the most weight (``|coefficient| *
+    column norm``, so a total rather than one of its parts) is left out, never
+    the intercept; when those choices do not restore full rank, the columns
+    the pivoted QR placed beyond the rank are used instead.
+    """
+    relations = factor.relations()
+    if not relations:
+        return ()
+    p = factor.p
+    vectors = np.zeros((len(relations), p))
+    for row, relation in enumerate(relations):
+        vectors[row, relation.left] = 1.0
+        vectors[row, list(relation.right)] = -np.asarray(relation.coefficients)
+    weights = np.abs(vectors) * factor.scales[None, :]
+    chosen: list[int] = []
+    for row in range(len(relations)):
+        order = sorted(range(p), key=lambda j: (-weights[row, j], j))
+        candidates = [j for j in order if weights[row, j] > 0 and j not in chosen and names[j] != INTERCEPT]
+        if not candidates:
+            break
+        chosen.append(candidates[0])
+    if len(chosen) == len(relations) and np.linalg.matrix_rank(vectors[:, chosen]) == len(relations):
+        return tuple(sorted(chosen))
+    return tuple(sorted(int(j) for j in factor.perm[factor.rank :]))
+
+
+def _unpivoted(factor: DesignFactor, columns: list[int]) -> np.ndarray:
+    """The R factor of the unit-length-scaled design restricted to ``columns``, in that order."""
+    position = np.empty(factor.p, dtype=int)
+    position[factor.perm] = np.arange(factor.p)
+    block = factor.r[:, position[columns]]
+    return scipy.linalg.qr(block, mode="r", check_finite=False)[0][: len(columns)]
+
+
+@dataclass(frozen=True)
+class TermInflation:
+    """How much collinearity inflates the variance of one term's coefficients.
+
+    For a term of one column, ``gvif`` is the ordinary VIF, ``1 / (1 - R^2)``
+    of the auxiliary regression of that column on the other predictors. For a
+    term of ``df`` dummy columns it is the generalised VIF of Fox & Monette
+    (1992), ``det(C_JJ) det(C^-1_JJ)`` on the predictor correlation matrix C;
+    its ``auxiliary_r_squared`` is the R^2 equivalent ``1 - GVIF^(-1/df)``.
+    ``indices`` locate the term's columns among the kept predictors.
+
+    References
+    ----------
+    Fox, J., Monette, G. (1992). Generalized collinearity diagnostics. JASA 87(417), 178-183.
+    """
+
+    term: str
+    columns: tuple[str, ...]
+    indices: tuple[int, ...]
+    gvif: float
+
+    @property
+    def df(self) -> int:
+        """Design columns of the term."""
+        return len(self.columns)
+
+    @property
+    def vif_scale(self) -> float:
+        """GVIF^(1/df): comparable with the VIF thresholds whatever the df."""
+        return float(self.gvif ** (1.0 / self.df))
+
+    @property
+    def se_inflation(self) -> float:
+        """GVIF^(1/(2 df)): the factor by which collinearity widens confidence intervals (sqrt(VIF) for one column)."""
+        return float(self.gvif ** (0.5 / self.df))
+
+    @property
+    def auxiliary_r_squared(self) -> float:
+        """R^2 of the term's columns regressed on the other predictors (its equivalent for several columns)."""
+        return 1.0 - 1.0 / self.vif_scale
+
+
+@dataclass(frozen=True)
+class NearDependency:
+    """A near linear dependency: a large condition index and the columns whose variance it dominates."""
+
+    index: float
+    proportions: tuple[tuple[str, float], ...]
+
+
+@dataclass(frozen=True)
+class Collinearity:
+    """Collinearity diagnostics of the estimable design.
+
+    ``columns`` are the design columns kept (intercept first when there is
+    one), ``r_scaled`` their R factor with unit-length columns, ``scales``
+    their Euclidean norms, ``predictors`` the kept non-intercept columns and
+    ``correlation_factor`` the upper-triangular ``R_c`` with ``R_c' R_c`` the
+    predictor correlation matrix (uncentred without an intercept).
+    """
+
+    design_names: tuple[str, ...]
+    sources: tuple[str, ...]
+    columns: tuple[int, ...]
+    left_out: tuple[int, ...]
+    r_scaled: np.ndarray
+    scales: np.ndarray
+    predictors: tuple[int, ...]
+    correlation_factor: np.ndarray
+    centred: bool
+
+    @classmethod
+    def of(cls, design: Design, factor: DesignFactor) -> "Collinearity":
+        """Diagnostics from the design's pivoted R factor (O(p^3), no pass over the rows)."""
+        names = design.column_names
+        left_out = dependent_columns(factor, names) if factor.n else tuple(range(factor.p))
+        kept = [j for j in range(factor.p) if j not in left_out]
+        intercept = [j for j in kept if names[j] == INTERCEPT]
+        ordered = intercept + [j for j in kept if names[j] != INTERCEPT]
+        r = _unpivoted(factor, ordered) if ordered else np.zeros((0, 0))
+        skip = len(intercept)
+        block = r[skip:, skip:]
+        norms = np.sqrt(np.einsum("ij,ij->j", block, block)) if block.size else np.zeros(0)
+        varying = norms > 0
+        predictors = tuple(j for j, keep in zip(ordered[skip:], varying) if keep)
+        inner = block[:, varying]
+        corr_factor = scipy.linalg.qr(inner / norms[varying], mode="r", check_finite=False)[0][: inner.shape[1]] if inner.size else np.zeros((0, 0))
+        return cls(
+            design_names=names,
+            sources=design.column_sources,
+            columns=tuple(ordered),
+            left_out=tuple(left_out),
+            r_scaled=r,
+            scales=factor.scales[ordered],
+            predictors=predictors,
+            correlation_factor=corr_factor,
+            centred=bool(skip),
+        )
+
+    @cached_property
+    def correlation(self) -> np.ndarray:
+        """Correlation matrix of the kept predictors (cosines of the raw columns without an intercept)."""
+        c = self.correlation_factor.T @ self.correlation_factor
+        d = np.sqrt(np.diag(c))
+        return np.clip(c / np.outer(d, d), -1.0, 1.0) if c.size else c
+
+    @cached_property
+    def precision(self) -> np.ndarray:
+        """Inverse of the correlation matrix, ``R_c^-1 R_c^-T``."""
+        k = self.correlation_factor.shape[0]
+        if k == 0:
+            return np.zeros((0, 0))
+        inverse = scipy.linalg.solve_triangular(self.correlation_factor, np.eye(k), check_finite=False)
+        return inverse @ inverse.T
+
+    @cached_property
+    def vif(self) -> np.ndarray:
+        """Variance inflation factor of each kept predictor column (diagonal of the inverse correlation matrix)."""
+        return np.diag(self.precision).copy()
+
+    def predictor_names(self) -> tuple[str, ...]:
+        """Design-column names of the kept predictors, in the order of :attr:`vif`."""
+        return tuple(self.design_names[j] for j in self.predictors)
+
+    @cached_property
+    def terms(self) -> tuple[TermInflation, ...]:
+        """Inflation of every term with at least one kept predictor column, in design order."""
+        sources = [self.sources[j] for j in self.predictors]
+        names = self.predictor_names()
+        out: list[TermInflation] = []
+        for term in dict.fromkeys(sources):
+            inside = [i for i, s in enumerate(sources) if s == term]
+            block = np.ix_(inside, inside)
+            if len(inside) == 1:
+                gvif = float(self.precision[inside[0], inside[0]])
+            else:
+                gvif = float(np.linalg.det(self.correlation[block]) * np.linalg.det(self.precision[block]))
+            out.append(TermInflation(term, tuple(names[i] for i in inside), tuple(inside), gvif))
+        return tuple(out)
+
+    @cached_property
+    def _reliefs(self) -> dict[str, tuple[tuple[str, float], ...]]:
+        return {}
+
+    def relief(self, inflation: TermInflation) -> tuple[tuple[str, float], ...]:
+        """For every other term, the term's GVIF^(1/df) if that other term were dropped; most relief first.
+
+        Dropping term T leaves the inverse correlation matrix of the rest as
+        the Schur complement ``P_JJ - P_JT P_TT^-1 P_TJ`` of the full one, so
+        each answer costs O(df^2 |T| + |T|^3) and no new factorisation.
+        Computed once per term and kept.
+        """
+        if inflation.term not in self._reliefs:
+            self._reliefs[inflation.term] = self._relief(inflation)
+        return self._reliefs[inflation.term]
+
+    def _relief(self, inflation: TermInflation) -> tuple[tuple[str, float], ...]:
+        P, J = self.precision, list(inflation.indices)
+        kept_j = float(np.linalg.det(self.correlation[np.ix_(J, J)])) if len(J) > 1 else 1.0
+        others = [term for term in self.terms if term.term != inflation.term]
+        singles = [term for term in others if term.df == 1]
+        out: list[tuple[str, float]] = []
+        if singles and len(J) == 1:
+            t = np.array([term.indices[0] for term in singles])
+            j = J[0]
+            without = np.maximum(P[j, j] - P[j, t] ** 2 / P[t, t], 1.0)
+            out += [(term.term, float(v)) for term, v in zip(singles, without)]
+            others = [term for term in others if term.df > 1]
+        for other in others:
+            T = list(other.indices)
+            schur = P[np.ix_(J, J)] - P[np.ix_(J, T)] @ np.linalg.solve(P[np.ix_(T, T)], P[np.ix_(T, J)])
+            gvif = max(kept_j * float(np.linalg.det(schur)), 1.0)
+            out.append((other.term, gvif ** (1.0 / len(J))))
+        return tuple(sorted(out, key=lambda item: (item[1], item[0])))
+
+    @cached_property
+    def _svd(self) -> tuple[np.ndarray, np.ndarray]:
+        if self.r_scaled.size == 0:
+            return np.zeros(0), np.zeros((0, 0))
+        _, s, vt = scipy.linalg.svd(self.r_scaled, check_finite=False)
+        return s, vt.T
+
+    @property
+    def singular_values(self) -> np.ndarray:
+        """Singular values of the kept, unit-length-scaled design (intercept kept, not centred), largest first."""
+        return self._svd[0]
+
+    @cached_property
+    def condition_indices(self) -> np.ndarray:
+        """Condition indices ``s_max / s_k`` (Belsley, Kuh & Welsch 1980), in the order of :attr:`singular_values`."""
+        s = self.singular_values
+        if s.size == 0:
+            return s
+        with np.errstate(divide="ignore"):
+            return np.where(s > 0, s[0] / s, np.inf)
+
+    @property
+    def condition_number(self) -> float:
+        """The largest condition index: the 2-norm condition number of the kept, unit-length-scaled design."""
+        return float(self.condition_indices.max()) if self.condition_indices.size else 1.0
+
+    @cached_property
+    def variance_proportions(self) -> np.ndarray:
+        """Variance-decomposition proportions ``pi[k, j]``: the share of var(b_j) tied to singular value k.
+
+        References
+        ----------
+        Belsley, D. A., Kuh, E., Welsch, R. E. (1980). Regression Diagnostics, ch. 3. Wiley.
+        """
+        s, v = self._svd
+        if s.size == 0 or s[-1] <= 0:
+            return np.full((s.size, s.size), np.nan)
+        phi = (v / s[None, :]) ** 2
+        return (phi / phi.sum(axis=1, keepdims=True)).T
+
+    def column_names(self) -> tuple[str, ...]:
+        """Names of the kept design columns, in the order of the proportions' columns."""
+        return tuple(self.design_names[j] for j in self.columns)
+
+    def near_dependencies(self, index_limit: float, proportion_limit: float = DOMINANT_PROPORTION) -> tuple[NearDependency, ...]:
+        """Condition indices at or above ``index_limit`` with two or more proportions above ``proportion_limit``, largest first."""
+        names = self.column_names()
+        out: list[NearDependency] = []
+        for index, row in zip(self.condition_indices, self.variance_proportions):
+            involved = [(names[j], float(row[j])) for j in range(len(names)) if row[j] > proportion_limit]
+            if index >= index_limit and len(involved) >= 2:
+                out.append(NearDependency(float(index), tuple(involved)))
+        return tuple(sorted(out, key=lambda d: -d.index))
+
+    @cached_property
+    def condition_raw(self) -> float:
+        """2-norm condition number of the kept design in its own units (not scaled)."""
+        if self.r_scaled.size == 0:
+            return 1.0
+        s = scipy.linalg.svdvals(self.r_scaled * self.scales[None, :], check_finite=False)
+        return float(s[0] / s[-1]) if s[-1] > 0 else float("inf")
+
+    def raw_dependency(self) -> NearDependency:
+        """The raw (unscaled) design's worst direction: its condition number and every column's variance proportion.
+
+        The proportions are those of Belsley, Kuh & Welsch computed on the
+        columns in their own units, at the smallest singular value: the
+        columns with large proportions are the ones the lost digits belong to.
+        """
+        names = self.column_names()
+        if self.r_scaled.size == 0:
+            return NearDependency(1.0, ())
+        _, s, vt = scipy.linalg.svd(self.r_scaled * self.scales[None, :], check_finite=False)
+        if s[-1] <= 0:
+            return NearDependency(float("inf"), tuple((name, float("nan")) for name in names))
+        phi = (vt.T / s[None, :]) ** 2
+        share = phi[:, -1] / phi.sum(axis=1)
+        index = float(s[0] / s[-1])
+        return NearDependency(index, tuple((names[j], float(share[j])) for j in range(len(names))))

@@ -1,0 +1,349 @@
+"""Missingness statistics: row patterns of holes and Little's test of missing completely at random.
+
+Both are built from statistics that merge across row batches: the count of
+each distinct row pattern (:class:`MissingPatterns`) and, per pattern, the
+count, mean and co-moment of the observed values (:class:`PatternMoments`).
+The EM estimate of the normal mean and covariance, and Little's statistic,
+need nothing else.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Mapping
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.compute as pc
+import scipy.stats
+
+from ..roles import Kind, numeric_values
+
+Pattern = tuple[bool, ...]
+
+
+def _patterns_of(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Distinct rows of a boolean matrix, the index of each row's pattern, and the pattern counts."""
+    mask = np.asarray(mask, dtype=bool)
+    if mask.shape[0] == 0:
+        return np.zeros((0, mask.shape[1]), dtype=bool), np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    width = mask.shape[1]
+    if width > 62:
+        distinct, inverse, counts = np.unique(mask, axis=0, return_inverse=True, return_counts=True)
+        return distinct, inverse.reshape(-1), counts
+    weights = np.left_shift(np.int64(1), np.arange(width - 1, -1, -1, dtype=np.int64))
+    keys, inverse, counts = np.unique(mask.astype(np.int64) @ weights, return_inverse=True, return_counts=True)
+    distinct = (keys[:, None] & weights[None, :]) != 0
+    return distinct, inverse.reshape(-1), counts
+
+
+@dataclass(frozen=True)
+class MissingPatterns:
+    """How many rows show each pattern of missing values over ``columns``.
+
+    A pattern is a tuple of booleans, True where the column is missing.
+    Merging adds the counts, so the patterns of a table are the merged
+    patterns of its row batches.
+    """
+
+    columns: tuple[str, ...]
+    counts: Mapping[Pattern, int] = field(default_factory=dict)
+
+    @classmethod
+    def of(cls, columns: tuple[str, ...], mask: np.ndarray) -> "MissingPatterns":
+        """Patterns of one batch; ``mask`` is rows x columns, True where missing."""
+        distinct, _, counts = _patterns_of(mask)
+        return cls(columns, {tuple(bool(v) for v in row): int(c) for row, c in zip(distinct, counts)})
+
+    def merge(self, other: "MissingPatterns") -> "MissingPatterns":
+        """The patterns of both batches together."""
+        if other.columns != self.columns:
+            raise ValueError("patterns over different columns cannot be merged")
+        merged = dict(self.counts)
+        for pattern, count in other.counts.items():
+            merged[pattern] = merged.get(pattern, 0) + count
+        return MissingPatterns(self.columns, merged)
+
+    @property
+    def rows(self) -> int:
+        """Rows counted."""
+        return int(sum(self.counts.values()))
+
+    def missing_columns(self, pattern: Pattern) -> tuple[str, ...]:
+        """The columns a pattern lacks."""
+        return tuple(c for c, missing in zip(self.columns, pattern) if missing)
+
+    def incomplete(self) -> list[tuple[Pattern, int]]:
+        """Patterns with at least one hole, most frequent first (ties by the columns they lack)."""
+        found = [(p, c) for p, c in self.counts.items() if any(p)]
+        return sorted(found, key=lambda item: (-item[1], self.missing_columns(item[0])))
+
+    def is_monotone(self) -> bool:
+        """Whether the sets of missing columns are nested (each contained in the next larger one).
+
+        Nested patterns are what drop-out produces: once a column is
+        missing, every later one is too, so the columns can be ordered so
+        that a row missing one is missing all that follow (Little & Rubin
+        2019, section 1.3).
+
+        References
+        ----------
+        Little, R. J. A., Rubin, D. B. (2019). Statistical Analysis with
+        Missing Data, 3rd ed. Wiley.
+        """
+        sets = sorted({frozenset(np.flatnonzero(p).tolist()) for p in self.counts if any(p)}, key=len)
+        return all(small <= large for small, large in zip(sets, sets[1:]))
+
+
+@dataclass(frozen=True)
+class Holes:
+    """Where the model columns (target first, then predictors) are missing, row by row.
+
+    A value is missing when it is null, or NaN in a numeric column.
+    """
+
+    columns: tuple[str, ...]
+    mask: np.ndarray
+    patterns: MissingPatterns
+
+    @classmethod
+    def of(cls, table: pa.Table, columns: tuple[str, ...], kinds: Mapping[str, Kind]) -> "Holes":
+        """The holes of ``columns`` of ``table``; O(rows x columns) booleans."""
+        mask = np.zeros((table.num_rows, len(columns)), dtype=bool)
+        for j, name in enumerate(columns):
+            column = table.column(name)
+            if kinds[name] in (Kind.NUMERIC, Kind.BOOLEAN, Kind.DATETIME):
+                mask[:, j] = np.isnan(numeric_values(column))
+            else:
+                mask[:, j] = pc.is_null(column).to_numpy(zero_copy_only=False)
+        return cls(columns, mask, MissingPatterns.of(columns, mask))
+
+    def missing(self, column: str) -> np.ndarray:
+        """The missing mask of one column over all rows."""
+        return self.mask[:, self.columns.index(column)]
+
+    def counts(self) -> dict[str, int]:
+        """Missing values per column."""
+        totals = self.mask.sum(axis=0)
+        return {c: int(totals[j]) for j, c in enumerate(self.columns)}
+
+
+@dataclass(frozen=True)
+class PatternGroup:
+    """Count, mean and co-moment of the observed columns of the rows sharing one pattern."""
+
+    count: int
+    mean: np.ndarray
+    comoment: np.ndarray
+
+    def merge(self, other: "PatternGroup") -> "PatternGroup":
+        """Chan-Golub-LeVeque pairwise update of mean and co-moment."""
+        n = self.count + other.count
+        delta = other.mean - self.mean
+        mean = self.mean + delta * other.count / n
+        comoment = self.comoment + other.comoment + np.outer(delta, delta) * self.count * other.count / n
+        return PatternGroup(n, mean, comoment)
+
+
+@dataclass(frozen=True)
+class PatternMoments:
+    """Per missingness pattern, the moments of the observed values of ``columns``.
+
+    Sufficient for the EM estimate of a multivariate normal mean and
+    covariance and for Little's test. Merged pattern by pattern.
+
+    References
+    ----------
+    Chan, T. F., Golub, G. H., LeVeque, R. J. (1979). Updating formulae and a
+    pairwise algorithm for computing sample variances.
+    """
+
+    columns: tuple[str, ...]
+    groups: Mapping[Pattern, PatternGroup] = field(default_factory=dict)
+
+    @classmethod
+    def of(cls, columns: tuple[str, ...], values: np.ndarray) -> "PatternMoments":
+        """Moments of one batch; ``values`` is rows x columns with NaN where missing."""
+        values = np.asarray(values, dtype=np.float64)
+        mask = ~np.isfinite(values)
+        distinct, inverse, counts = _patterns_of(mask)
+        order = np.argsort(inverse, kind="stable")
+        batches = np.split(order, np.cumsum(counts)[:-1]) if counts.size else []
+        groups: dict[Pattern, PatternGroup] = {}
+        for pattern, count, rows in zip(distinct, counts, batches):
+            observed = values[rows][:, ~pattern]
+            mean = observed.mean(axis=0)
+            centred = observed - mean
+            groups[tuple(bool(v) for v in pattern)] = PatternGroup(int(count), mean, centred.T @ centred)
+        return cls(columns, groups)
+
+    def merge(self, other: "PatternMoments") -> "PatternMoments":
+        """The moments of both batches together."""
+        if other.columns != self.columns:
+            raise ValueError("pattern moments over different columns cannot be merged")
+        merged = dict(self.groups)
+        for pattern, group in other.groups.items():
+            merged[pattern] = merged[pattern].merge(group) if pattern in merged else group
+        return PatternMoments(self.columns, merged)
+
+    def usable(self) -> list[tuple[np.ndarray, PatternGroup]]:
+        """Patterns with at least one observed column, as observed-column masks, in a fixed order."""
+        return [(np.array([not m for m in p]), g) for p, g in sorted(self.groups.items()) if not all(p)]
+
+
+@dataclass(frozen=True)
+class NormalEstimate:
+    """Maximum-likelihood mean and covariance of a multivariate normal from incomplete data."""
+
+    mean: np.ndarray
+    covariance: np.ndarray
+    iterations: int
+    converged: bool
+
+
+def normal_em(moments: PatternMoments, tolerance: float = 1e-10, max_iterations: int = 10_000) -> NormalEstimate:
+    """EM estimate of the mean and covariance from per-pattern moments (Dempster, Laird & Rubin 1977).
+
+    The E-step of every row of a pattern depends on the rows only through the
+    pattern's count, mean and co-moment, so each iteration costs
+    O(patterns x p^3), independent of the number of rows. Iteration stops when
+    no parameter moves by more than ``tolerance`` (relative to its size).
+
+    References
+    ----------
+    Dempster, A. P., Laird, N. M., Rubin, D. B. (1977). Maximum likelihood from
+    incomplete data via the EM algorithm. JRSS B 39(1).
+    Little, R. J. A., Rubin, D. B. (2019). Statistical Analysis with Missing
+    Data, 3rd ed., section 11.2.
+    """
+    groups = moments.usable()
+    p = len(moments.columns)
+    n = sum(g.count for _, g in groups)
+    mean, covariance = _start(groups, p)
+    fixed_total = np.zeros(p)
+    fixed_cross = np.zeros((p, p))
+    partial: list[_PartialPattern] = []
+    for observed, group in groups:
+        o = np.flatnonzero(observed)
+        outer = group.comoment + group.count * np.outer(group.mean, group.mean)
+        fixed_total[o] += group.count * group.mean
+        fixed_cross[np.ix_(o, o)] += outer
+        if o.size < p:
+            partial.append(_PartialPattern(o, np.flatnonzero(~observed), group, outer))
+    for iteration in range(1, max_iterations + 1):
+        total = fixed_total.copy()
+        cross = fixed_cross.copy()
+        for pattern in partial:
+            pattern.add_expected(mean, covariance, total, cross)
+        new_mean = total / n
+        new_covariance = cross / n - np.outer(new_mean, new_mean)
+        change = max(
+            float(np.max(np.abs(new_mean - mean) / (np.abs(mean) + 1.0))),
+            float(np.max(np.abs(new_covariance - covariance) / (np.abs(covariance) + 1.0))),
+        )
+        mean, covariance = new_mean, (new_covariance + new_covariance.T) / 2
+        if change < tolerance:
+            return NormalEstimate(mean, covariance, iteration, True)
+    return NormalEstimate(mean, covariance, max_iterations, False)
+
+
+def _start(groups: list[tuple[np.ndarray, PatternGroup]], p: int) -> tuple[np.ndarray, np.ndarray]:
+    """Available-case means and variances (merged over patterns) as the starting point."""
+    count = np.zeros(p)
+    mean = np.zeros(p)
+    m2 = np.zeros(p)
+    for observed, group in groups:
+        index = np.flatnonzero(observed)
+        for k, j in enumerate(index):
+            n_a, n_b = count[j], group.count
+            delta = group.mean[k] - mean[j]
+            total = n_a + n_b
+            mean[j] += delta * n_b / total
+            m2[j] += group.comoment[k, k] + delta * delta * n_a * n_b / total
+            count[j] = total
+    variance = np.where(count > 0, m2 / np.maximum(count, 1), 1.0)
+    return mean, np.diag(np.where(variance > 0, variance, 1.0))
+
+
+class _PartialPattern:
+    """A pattern with missing columns: its observed (``o``) and missing (``m``) column indices and moments."""
+
+    __slots__ = ("o", "m", "group", "outer", "oo", "mo", "om", "mm")
+
+    def __init__(self, o: np.ndarray, m: np.ndarray, group: PatternGroup, outer: np.ndarray) -> None:
+        self.o, self.m, self.group, self.outer = o, m, group, outer
+        self.oo, self.mo, self.om, self.mm = np.ix_(o, o), np.ix_(m, o), np.ix_(o, m), np.ix_(m, m)
+
+    def add_expected(self, mean: np.ndarray, covariance: np.ndarray, total: np.ndarray, cross: np.ndarray) -> None:
+        """E-step: add the expected sums of the missing values and of their products to ``total`` and ``cross``.
+
+        Given the observed values, the missing ones are normal with mean
+        ``mu_m + B (y_o - mu_o)``, ``B = Sigma_mo Sigma_oo^-1``, and covariance
+        ``Sigma_mm - B Sigma_om`` (Little & Rubin 2019, section 11.2.1).
+        """
+        o, m, group = self.o, self.m, self.group
+        n = group.count
+        sigma_mo = covariance[self.mo]
+        slope = _solve_symmetric(covariance[self.oo], sigma_mo.T).T
+        residual_covariance = covariance[self.mm] - slope @ sigma_mo.T
+        missing_mean = mean[m] + slope @ (group.mean - mean[o])
+        cross_om = np.outer(n * group.mean, mean[m] - slope @ mean[o]) + self.outer @ slope.T
+        total[m] += n * missing_mean
+        cross[self.om] += cross_om
+        cross[self.mo] += cross_om.T
+        cross[self.mm] += n * residual_covariance + slope @ group.comoment @ slope.T + n * np.outer(missing_mean, missing_mean)
+
+
+def _solve_symmetric(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Solve ``a x = b`` for a symmetric positive semi-definite ``a`` (least squares when singular)."""
+    try:
+        return np.linalg.solve(a, b)
+    except np.linalg.LinAlgError:
+        return np.linalg.lstsq(a, b, rcond=None)[0]
+
+
+@dataclass(frozen=True)
+class LittleTest:
+    """Little's chi-square test of missing completely at random."""
+
+    statistic: float
+    df: int
+    p_value: float
+    patterns: int
+    rows: int
+    converged: bool
+
+
+def little_mcar(moments: PatternMoments) -> LittleTest | None:
+    """Little's (1988) test: sum over patterns of n_j (ybar_j - mu_j)' Sigma_j^-1 (ybar_j - mu_j).
+
+    ``mu`` and ``Sigma`` are the maximum-likelihood (EM) estimates under a
+    multivariate normal model; ``mu_j``, ``Sigma_j`` their parts for the
+    columns pattern ``j`` observes. Under MCAR the statistic is
+    asymptotically chi-square with ``sum_j p_j - p`` degrees of freedom.
+    Returns None when there are fewer than two patterns (nothing to compare).
+
+    References
+    ----------
+    Little, R. J. A. (1988). A test of missing completely at random for
+    multivariate data with missing values. JASA 83(404), 1198-1202, eq. (5).
+    """
+    groups = moments.usable()
+    p = len(moments.columns)
+    if len(groups) < 2 or p == 0:
+        return None
+    estimate = normal_em(moments)
+    statistic = 0.0
+    observed_total = 0
+    for observed, group in groups:
+        o = np.flatnonzero(observed)
+        difference = group.mean - estimate.mean[o]
+        sigma = estimate.covariance[np.ix_(o, o)]
+        statistic += group.count * float(difference @ _solve_symmetric(sigma, difference))
+        observed_total += o.size
+    df = observed_total - p
+    if df <= 0:
+        return None
+    p_value = float(scipy.stats.chi2.sf(statistic, df))
+    rows = sum(g.count for _, g in groups)
+    return LittleTest(float(statistic), int(df), p_value, len(groups), int(rows), estimate.converged)

@@ -1,0 +1,184 @@
+"""Classical tests on the residuals of the preliminary fit, each an auxiliary regression on its QR factor.
+
+Each function returns a :class:`ResidualTest` whose numbers equal those of the
+usual statistics packages for a full-rank design with an intercept.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import stats
+
+from .auxiliary import AddedColumns, AddedFit, lagged, regress_added
+from .factor import DesignFactor
+from .mergeable import Moments
+
+RESET_POWERS = (2, 3)
+
+
+@dataclass(frozen=True)
+class ResidualTest:
+    """A test statistic with its chi-squared reference (``df``) and the F form where there is one."""
+
+    statistic: float
+    df: int
+    p_value: float
+    f_statistic: float = float("nan")
+    f_p_value: float = float("nan")
+    effect: float = float("nan")
+
+
+def _centred_total(values: np.ndarray) -> float:
+    deviations = values - values.mean()
+    return float(deviations @ deviations)
+
+
+def _lagrange_multiplier(fit: AddedFit, total: float, df: int) -> ResidualTest:
+    """``n R^2`` of an auxiliary regression with an intercept, with its F form."""
+    r_squared = 1.0 - fit.rss / total if total > 0 else float("nan")
+    statistic = fit.n * r_squared
+    df_resid = fit.n - fit.rank
+    if df <= 0 or df_resid <= 0 or not np.isfinite(r_squared) or r_squared >= 1.0:
+        return ResidualTest(statistic, df, float("nan"), effect=r_squared)
+    f_value = (r_squared / df) / ((1.0 - r_squared) / df_resid)
+    return ResidualTest(
+        float(statistic),
+        df,
+        float(stats.chi2.sf(statistic, df)),
+        float(f_value),
+        float(stats.f.sf(f_value, df, df_resid)),
+        effect=float(r_squared),
+    )
+
+
+def _constant_unless(intercept: bool, n: int) -> np.ndarray:
+    return np.zeros((n, 0)) if intercept else np.ones((n, 1))
+
+
+def breusch_pagan(factor: DesignFactor, X: np.ndarray, residual: np.ndarray, intercept: bool) -> ResidualTest:
+    """Koenker's studentized Breusch-Pagan test: ``n R^2`` of ``e^2`` on the design (and a constant).
+
+    ``effect`` is the auxiliary R^2.
+
+    References
+    ----------
+    Breusch, T. S., Pagan, A. R. (1979). A simple test for heteroscedasticity
+    and random coefficient variation. Econometrica 47(5).
+    Koenker, R. (1981). A note on studentizing a test for heteroscedasticity.
+    J. Econometrics 17(1).
+    """
+    squared = residual**2
+    fit = regress_added(factor, X, squared, _constant_unless(intercept, X.shape[0]))
+    return _lagrange_multiplier(fit, _centred_total(squared), fit.rank - 1)
+
+
+def white_products(X: np.ndarray, intercept_column: int) -> AddedColumns:
+    """Squares and cross products of the design columns other than the intercept (i <= j), built batch by batch."""
+    others = np.asarray([j for j in range(X.shape[1]) if j != intercept_column], dtype=int)
+    first, second = np.triu_indices(others.size)
+    left, right = others[first], others[second]
+    return AddedColumns(int(first.size), lambda start, stop: X[start:stop, left] * X[start:stop, right])
+
+
+def white(factor: DesignFactor, X: np.ndarray, residual: np.ndarray, intercept_column: int) -> ResidualTest:
+    """White's test: ``n R^2`` of ``e^2`` on the design, its squares and cross products (needs an intercept).
+
+    Products that repeat a column (the square of a 0/1 dummy) are counted
+    once, so ``df`` is the rank of the auxiliary design minus one.
+
+    References
+    ----------
+    White, H. (1980). A heteroskedasticity-consistent covariance matrix
+    estimator and a direct test for heteroskedasticity. Econometrica 48(4).
+    """
+    squared = residual**2
+    fit = regress_added(factor, X, squared, white_products(X, intercept_column))
+    return _lagrange_multiplier(fit, _centred_total(squared), fit.rank - 1)
+
+
+def reset(factor: DesignFactor, X: np.ndarray, residual: np.ndarray, fitted: np.ndarray, intercept: bool) -> ResidualTest:
+    """Ramsey's RESET: Wald test that powers 2 and 3 of the fitted values add nothing.
+
+    The fitted values are standardised first (centred only with an
+    intercept), which leaves the augmented column space unchanged and keeps
+    the powers well conditioned. ``effect`` is Cohen's f^2 of the added powers.
+
+    References
+    ----------
+    Ramsey, J. B. (1969). Tests for specification errors in classical linear
+    least-squares regression analysis. J. R. Stat. Soc. B 31(2).
+    """
+    spread = float(np.std(fitted)) or 1.0
+    base = (fitted - fitted.mean()) / spread if intercept else fitted / spread
+    powers = np.column_stack([base**p for p in RESET_POWERS])
+    fit = regress_added(factor, X, residual, powers)
+    wald = fit.f_statistic * fit.added_rank
+    if not np.isfinite(wald):
+        return ResidualTest(float("nan"), fit.added_rank, float("nan"))
+    return ResidualTest(
+        float(wald),
+        fit.added_rank,
+        float(stats.chi2.sf(wald, fit.added_rank)),
+        float(fit.f_statistic),
+        float(stats.f.sf(fit.f_statistic, fit.added_rank, fit.df_resid)),
+        effect=fit.cohen_f_squared,
+    )
+
+
+def jarque_bera(residual: np.ndarray) -> tuple[ResidualTest, float, float]:
+    """Jarque-Bera test from the residuals' moment skewness and kurtosis; returns (test, skewness, kurtosis).
+
+    References
+    ----------
+    Jarque, C. M., Bera, A. K. (1980). Efficient tests for normality,
+    homoscedasticity and serial independence of regression residuals.
+    Economics Letters 6(3).
+    """
+    moments = Moments.of(residual)
+    skewness, kurtosis = moments.skewness, moments.kurtosis
+    statistic = moments.count / 6.0 * (skewness**2 + (kurtosis - 3.0) ** 2 / 4.0)
+    return ResidualTest(float(statistic), 2, float(stats.chi2.sf(statistic, 2))), skewness, kurtosis
+
+
+def default_lags(n: int, most: int = 10) -> int:
+    """Lags for the Breusch-Godfrey test: ``min(most, n // 5)``."""
+    return max(1, min(most, n // 5))
+
+
+def breusch_godfrey(
+    factor: DesignFactor, X: np.ndarray, residual: np.ndarray, lags: int, intercept: bool, groups: np.ndarray | None = None
+) -> ResidualTest:
+    """Breusch-Godfrey test for serial correlation up to ``lags``; rows of ``X`` and ``residual`` in time order.
+
+    Lagged residuals before the first row are taken as zero; with ``groups``
+    (rows of a group contiguous) each group's series starts afresh.
+
+    References
+    ----------
+    Breusch, T. S. (1978). Testing for autocorrelation in dynamic linear
+    models. Australian Economic Papers 17.
+    Godfrey, L. G. (1978). Testing against general autoregressive and moving
+    average error models when the regressors include lagged dependent
+    variables. Econometrica 46(6).
+    """
+    n = X.shape[0]
+    constant = _constant_unless(intercept, n)
+    base = regress_added(factor, X, residual, constant)
+    full = regress_added(factor, X, residual, np.column_stack([constant, lagged(residual, lags, groups)]))
+    added = full.added_rank - base.added_rank
+    total = _centred_total(residual)
+    r_squared = 1.0 - full.rss / total if total > 0 else float("nan")
+    statistic = n * r_squared
+    if added <= 0 or full.df_resid <= 0 or full.rss <= 0:
+        return ResidualTest(float(statistic), added, float("nan"))
+    f_value = (base.rss - full.rss) / added / (full.rss / full.df_resid)
+    return ResidualTest(
+        float(statistic),
+        lags,
+        float(stats.chi2.sf(statistic, lags)),
+        float(f_value),
+        float(stats.f.sf(f_value, added, full.df_resid)),
+        effect=float(r_squared),
+    )

@@ -1,0 +1,156 @@
+"""Numeric stand-ins for "missing": repeated, round values far outside the bulk of a column.
+
+A value is judged from the data, by three signs together: it repeats, it sits
+outside the range of the other values with a gap that dwarfs the spacing of
+the values at that edge, and its digits look chosen rather than measured
+(all nines, one repeated digit, a power of ten, zero, minus one).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+MIN_VALUES = 10
+EDGE_VALUES = 10
+MAX_PER_SIDE = 3
+MAX_CODE_SHARE = 0.5
+GAP_TO_SPACING = 10.0
+GAP_TO_SCALE_CODE = 1.0
+DISTANCE_TO_SCALE_CODE = 3.0
+GAP_TO_SCALE_ZERO = 0.5
+MAX_SHARE_ZERO = 0.05
+GAP_TO_SCALE_PLAIN = 3.0
+DISTANCE_TO_SCALE_PLAIN = 5.0
+MIN_REPEATS_PLAIN = 3
+MAX_SHARE_PLAIN = 0.2
+
+
+@dataclass(frozen=True)
+class Sentinel:
+    """A value that stands in for "missing", how often it occurs and why it was judged a code."""
+
+    value: float
+    count: int
+    gap: float
+    gap_in_spacings: float
+    gap_in_scales: float
+    reason: str
+
+
+def code_shaped(value: float) -> bool:
+    """Whether a number's digits look chosen: all nines, one repeated digit (two or more), -1, or a power of ten."""
+    if not np.isfinite(value) or not float(value).is_integer():
+        return False
+    digits = str(abs(int(value)))
+    if value == -1:
+        return True
+    if len(digits) >= 2 and len(set(digits)) == 1:
+        return True
+    return len(digits) >= 3 and digits[0] == "1" and set(digits[1:]) == {"0"}
+
+
+def _robust_scale(values: np.ndarray) -> float:
+    """Interquartile range / 1.349 (the normal-consistent IQR), or MAD * 1.4826 when the IQR is zero."""
+    q1, q3 = np.percentile(values, [25, 75])
+    scale = (q3 - q1) / 1.349
+    if scale > 0:
+        return float(scale)
+    return float(1.4826 * np.median(np.abs(values - np.median(values))))
+
+
+def _edge_spacing(distinct: np.ndarray, low: bool) -> float:
+    """The median gap between consecutive distinct values at one edge of the rest of the column."""
+    edge = distinct[:EDGE_VALUES] if low else distinct[-EDGE_VALUES:]
+    return float(np.median(np.diff(edge)))
+
+
+def find_sentinels(values: np.ndarray) -> list[Sentinel]:
+    """Values of a numeric column that act as missing-value codes, lowest first.
+
+    Each edge of the column is examined from the outside in: the most
+    extreme distinct value is a code when it is separated from the remaining
+    values by a gap of at least ten times the spacing of the remaining
+    values at that edge (common practice) and
+
+    * it is code-shaped (:func:`code_shaped`) and lies at least three robust
+      standard deviations from the median of the rest, with a gap of at least
+      one; or
+    * it is zero, repeats in at most 5% of the rows (a zero that is common is
+      a genuine level, such as a day without defrosts), and every other value
+      is strictly positive, with a gap of at least half a robust standard
+      deviation; or
+    * it is a negative code-shaped value repeating in a column of
+      non-negative integers (a count cannot be negative); or
+    * it repeats at least three times (in at most a fifth of the rows) and
+      lies at least five robust standard deviations from the median with a
+      gap of at least three (no measured value repeats exactly that far from
+      the rest).
+
+    Robust standard deviation: interquartile range / 1.349 (Rousseeuw &
+    Croux 1993). A code may cover at most half the values.
+
+    References
+    ----------
+    Rousseeuw, P. J., Croux, C. (1993). Alternatives to the median absolute
+    deviation. JASA 88(424).
+    Pearson, R. K. (2006). The problem of disguised missing data. SIGKDD
+    Explorations 8(1), 83-92.
+    """
+    x = np.asarray(values, dtype=np.float64)
+    x = x[np.isfinite(x)]
+    if x.size < MIN_VALUES:
+        return []
+    distinct, counts = np.unique(x, return_counts=True)
+    found: list[Sentinel] = []
+    low, high = 0, distinct.size
+    for side_low in (True, False):
+        for _ in range(MAX_PER_SIDE):
+            if high - low < 4:
+                break
+            index = low if side_low else high - 1
+            rest_distinct = distinct[low + 1 : high] if side_low else distinct[low : high - 1]
+            rest_counts = counts[low + 1 : high] if side_low else counts[low : high - 1]
+            sentinel = _judge(distinct[index], int(counts[index]), rest_distinct, rest_counts, side_low, x.size)
+            if sentinel is None:
+                break
+            found.append(sentinel)
+            if side_low:
+                low += 1
+            else:
+                high -= 1
+    return sorted(found, key=lambda s: s.value)
+
+
+def _judge(value: float, count: int, rest: np.ndarray, rest_counts: np.ndarray, low: bool, total: int) -> Sentinel | None:
+    if count > MAX_CODE_SHARE * total:
+        return None
+    nearest = rest[0] if low else rest[-1]
+    gap = abs(float(nearest) - float(value))
+    spacing = _edge_spacing(rest, low)
+    if spacing <= 0 or gap < GAP_TO_SPACING * spacing:
+        return None
+    expanded = np.repeat(rest, rest_counts)
+    scale = _robust_scale(expanded)
+    if scale <= 0:
+        return None
+    distance = abs(float(value) - float(np.median(expanded))) / scale
+    in_scales = gap / scale
+    in_spacings = gap / spacing
+    reason = None
+    if code_shaped(value) and distance >= DISTANCE_TO_SCALE_CODE and in_scales >= GAP_TO_SCALE_CODE:
+        reason = "a code-shaped value far outside the rest of the column"
+    elif value == 0 and 2 <= count <= MAX_SHARE_ZERO * total and rest[0] > 0 and in_scales >= GAP_TO_SCALE_ZERO:
+        reason = "zeros in a column that is otherwise strictly positive, far below its smallest other value"
+    elif value < 0 and code_shaped(value) and count >= 2 and rest[0] >= 0 and np.all(np.mod(rest, 1) == 0):
+        reason = "a negative code in a column of non-negative counts"
+    elif (
+        MIN_REPEATS_PLAIN <= count <= MAX_SHARE_PLAIN * total
+        and distance >= DISTANCE_TO_SCALE_PLAIN
+        and in_scales >= GAP_TO_SCALE_PLAIN
+    ):
+        reason = "a value repeated far outside the rest of the column"
+    if reason is None:
+        return None
+    return Sentinel(float(value), count, gap, in_spacings, in_scales, reason)

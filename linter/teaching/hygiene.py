@@ -1,0 +1,34 @@
+"""Hygiene: the same site-days exported several times look like more evidence than there is."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..rule import fmt
+from .base import Demonstration, Line, fit_line, generator
+
+
+def _width(line: Line) -> float:
+    """Width of the normal-theory 95% interval of the slope."""
+    return float(2 * 1.96 * line.se[1])
+
+
+def duplicated_days() -> Demonstration:
+    """Standard error of the outdoor-temperature slope from 40 site-days, and from the same rows exported four times."""
+    rng = generator(5)
+    outdoor = rng.uniform(-5, 35, 40).round(1)
+    energy = 8_000 + 55 * outdoor + rng.normal(0, 600, outdoor.size)
+    once, repeated = fit_line(energy, outdoor), fit_line(np.tile(energy, 4), np.tile(outdoor, 4))
+    return Demonstration(
+        (
+            "40 invented site-days; an export glitch repeats every row four times (160 rows, no new information).",
+            "",
+            "                      outdoor_c slope   std. error   95% interval width   rows",
+            f"  each day once      {fmt(once.coef[1]):>15}   {fmt(once.se[1]):>10}   {fmt(_width(once)):>18}   {40:>4}",
+            f"  each day 4 times   {fmt(repeated.coef[1]):>15}   {fmt(repeated.se[1]):>10}   {fmt(_width(repeated)):>18}   {160:>4}",
+            "",
+            f"The slope is identical, but the repeated rows shrink its standard error to {repeated.se[1] / once.se[1]:.0%}:",
+            "the fit claims twice the precision the 40 real days support, and p-values follow.",
+        ),
+        {"se_ratio": float(repeated.se[1] / once.se[1]), "slope_difference": float(repeated.coef[1] - once.coef[1])},
+    )

@@ -1,0 +1,28 @@
+"""An energy response that bends on hot days: above 24 C each further degree costs far more refrigeration energy."""
+
+import numpy as np
+import pandas as pd
+
+from ._warehouse import site_days
+
+NAME = "warehouse_heat_bend"
+FORMAT = "csv"
+ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
+EXPECTED = [
+    ("assumptions.nonlinearity", "weakens", ("outdoor_c",)),
+    ("influence.cooks-distance", "misleads", ()),
+    ("influence.dfbetas", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "compressor_type")),
+    ("influence.dffits", "weakens", ()),
+    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles")),
+    ("outliers.studentized-residual", "misleads", ("energy_kwh",)),
+]
+EXIT_CODE = 1
+BEND_AT_C = 24.0
+EXTRA_KWH_PER_C = 260.0
+
+
+def build(rng: np.random.Generator) -> pd.DataFrame:
+    frame = site_days(rng)
+    heat = np.clip(frame["outdoor_c"] - BEND_AT_C, 0.0, None)
+    frame["energy_kwh"] = (frame["energy_kwh"] + EXTRA_KWH_PER_C * heat).round(1)
+    return frame

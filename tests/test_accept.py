@@ -1,0 +1,217 @@
+"""Accepted findings: fingerprints survive reordering, change with a flagged row's values; the gate sees only new findings."""
+
+from __future__ import annotations
+
+import json
+import shutil
+from pathlib import Path
+from typing import Iterator
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pytest
+from conftest import SAMPLE_TABLES, run_cli
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+import prefit
+from prefit.accepted import DEFAULT_REASON, AcceptedSet, load_accepted
+from prefit.api import run_check
+from prefit.context import RunContext
+from prefit.findings import Finding, Grade
+from prefit.options import CheckOptions
+from prefit.reading import TableInfo
+from prefit.registry import Registry, discover
+from prefit.rule import Rule, RuleSettings
+
+ROWS = 40
+
+
+def _hottest_rows(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    outdoor = ctx.values("outdoor_c")
+    positions = np.flatnonzero(outdoor >= np.sort(outdoor)[-3])
+    rows, values, total = ctx.listed_rows(positions, outdoor[positions])
+    yield settings.finding(Grade.MISLEADS, "the three hottest days", columns=("outdoor_c", "energy_kwh"), rows=rows, row_values=values, row_count=total)
+
+
+def _whole_table(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    yield settings.finding(Grade.WEAKENS, "a finding about the whole table", columns=("door_openings",))
+
+
+def demo_registry() -> Registry:
+    registry = Registry()
+    registry.add(Rule(id="demo.hottest", summary="Flags the hottest rows.", why="demo", remedy="none", check=_hottest_rows, grades=(Grade.MISLEADS,)), "tests")
+    registry.add(Rule(id="demo.whole", summary="Flags the table.", why="demo", remedy="none", check=_whole_table, grades=(Grade.WEAKENS,)), "tests")
+    return registry
+
+
+def invented(with_id: bool) -> pd.DataFrame:
+    """Invented site-days with distinct temperatures (demo data)."""
+    rng = np.random.default_rng(11)
+    frame = pd.DataFrame(
+        {
+            "outdoor_c": rng.permutation(np.linspace(-5.0, 33.0, ROWS)).round(2),
+            "door_openings": rng.integers(50, 800, ROWS),
+            "compressor_type": rng.choice(["screw", "scroll", "CO2 transcritical"], ROWS),
+        }
+    )
+    frame["energy_kwh"] = (5000 + 90 * frame["outdoor_c"] + 2 * frame["door_openings"] + rng.normal(0, 200, ROWS)).round(1)
+    if with_id:
+        frame.insert(0, "site_day", [f"CS-{i % 8:03d}/{i // 8}" for i in range(ROWS)])
+    return frame
+
+
+def demo_report(frame: pd.DataFrame) -> prefit.Report:
+    table = pa.Table.from_pandas(frame, preserve_index=False)
+    info = TableInfo(path="invented.csv", format="csv", rows=table.num_rows, columns=table.num_columns, sha256=None)
+    options = CheckOptions(target="energy_kwh", id="site_day" if "site_day" in frame else None)
+    return run_check(table, info, options, registry=demo_registry())
+
+
+def keys(frame: pd.DataFrame) -> dict[str, object]:
+    report = demo_report(frame)
+    return {f.rule: k for f, k in zip(report.findings, report.fingerprints)}
+
+
+@pytest.mark.parametrize("with_id", [False, True])
+@settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(order=st.permutations(range(ROWS)), columns=st.permutations(range(4)))
+def test_fingerprints_survive_reordering_of_rows_and_columns(with_id: bool, order: list[int], columns: list[int]) -> None:
+    frame = invented(with_id)
+    names = list(frame.columns)
+    moved = names[:1] + [names[1:][i] for i in columns] if with_id else [names[i] for i in columns]
+    shuffled = frame.iloc[order][moved].reset_index(drop=True)
+    assert keys(shuffled) == keys(frame)
+
+
+@pytest.mark.parametrize("with_id", [False, True])
+def test_a_changed_value_in_a_flagged_row_makes_the_fingerprint_new(with_id: bool) -> None:
+    frame = invented(with_id)
+    before = keys(frame)
+    flagged = int(frame["outdoor_c"].idxmax())
+    quiet = int(frame["outdoor_c"].idxmin())
+    changed = frame.copy()
+    changed.loc[flagged, "door_openings"] += 1
+    after = keys(changed)
+    assert after["demo.hottest"] != before["demo.hottest"]
+    assert after["demo.whole"] == before["demo.whole"]
+    elsewhere = frame.copy()
+    elsewhere.loc[quiet, "door_openings"] += 1
+    assert keys(elsewhere) == before
+
+
+def test_a_stronger_grade_makes_the_fingerprint_new() -> None:
+    report = demo_report(invented(False))
+    finding = report.findings[0]
+    stronger = demo_report(invented(False))
+    from dataclasses import replace
+
+    from prefit.accepted import fingerprints
+
+    raised = replace(finding, grade=Grade.BLOCKS)
+    assert fingerprints([raised], stronger.context)[0] != fingerprints([finding], stronger.context)[0]
+
+
+def test_accepting_moves_matches_out_of_the_gate() -> None:
+    report = demo_report(invented(True))
+    assert report.exit_code == 1
+    accepted = AcceptedSet.from_findings(report.findings, report.fingerprints)
+    after = report.accepting(accepted)
+    assert after.findings == () and len(after.accepted) == 2 and after.exit_code == 0
+    assert after.to_dict()["accepted"] == 2
+
+
+def _rows_from(report_json: dict[str, object]) -> dict[str, int]:
+    return {f["rule"]: f["row_count"] for f in report_json["findings"]}  # type: ignore[index]
+
+
+@pytest.mark.parametrize("with_id", [False, True])
+def test_accepted_findings_workflow_end_to_end(tmp_path: Path, with_id: bool) -> None:
+    source = SAMPLE_TABLES / "warehouse_humidity_codes.csv"
+    table = tmp_path / "march.csv"
+    shutil.copy(source, table)
+    args = ["--target", "energy_kwh", "--exclude", "day"] + (["--id", "site_id"] if with_id else ["--exclude", "site_id"])
+    accept = tmp_path / "accepted.json"
+
+    first = run_cli("check", table, *args, "--format", "json")
+    assert first.code == 1
+    today = first.json()
+    assert any(f["rows"] for f in today["findings"])
+
+    adopt = run_cli("check", table, *args, "--accept-file", accept, "--accept-current", "--format", "json")
+    assert adopt.code == 0 and adopt.json()["findings"] == [] and adopt.json()["accepted"] == len(today["findings"])
+    written = json.loads(accept.read_text(encoding="utf-8"))
+    assert len(written["findings"]) == len(today["findings"])
+    assert all(e["reason"] == DEFAULT_REASON for e in written["findings"])
+
+    written["findings"][0]["reason"] = "dropouts are known; the sensor is being replaced"
+    accept.write_text(json.dumps(written, indent=2), encoding="utf-8")
+    again = run_cli("check", table, *args, "--accept-file", accept, "--accept-current", "--format", "json")
+    assert again.code == 0
+    assert json.loads(accept.read_text(encoding="utf-8"))["findings"][0]["reason"] == "dropouts are known; the sensor is being replaced"
+
+    later = run_cli("check", table, *args, "--accept-file", accept)
+    assert later.code == 0
+    assert "accepted finding(s) not shown" in later.out
+
+    frame = pd.read_csv(table)
+    reordered = tmp_path / "march_reordered.csv"
+    shuffled = frame.sample(frac=1.0, random_state=3).reset_index(drop=True)
+    shuffled[list(reversed(frame.columns))].to_csv(reordered, index=False)
+    moved = run_cli("check", reordered, *args, "--accept-file", accept, "--format", "json")
+    assert moved.code == 0, moved.out
+    assert moved.json()["findings"] == [] and moved.json()["accepted"] == len(today["findings"])
+
+    coded = next(f for f in today["findings"] if f["rows"] and f["grade"] in ("blocks", "misleads"))
+    label = coded["rows"][0]
+    changed = frame.copy()
+    column = coded["columns"][0]
+    code_rows = changed[column] == changed[column].min()
+    position = changed.index[(changed["site_id"] == label) & code_rows][0] if with_id else int(label) - 1
+    assert code_rows[position]
+    changed.loc[position, column] = float(changed[column].median())
+    edited = tmp_path / "march_edited.csv"
+    changed.to_csv(edited, index=False)
+    fresh = run_cli("check", edited, *args, "--accept-file", accept, "--format", "json")
+    assert fresh.code == 1
+    assert coded["rule"] in {f["rule"] for f in fresh.json()["findings"]}
+
+
+def test_api_reads_an_accepted_findings_file(tmp_path: Path) -> None:
+    frame = invented(True)
+    accept = tmp_path / "accepted.json"
+    report = demo_report(frame)
+    from prefit.accepted import save_accepted
+
+    save_accepted(AcceptedSet.from_findings(report.findings, report.fingerprints), accept)
+    assert len(load_accepted(accept)) == 2
+    checked = prefit.check(frame, target="energy_kwh", id="site_day", accept_file=accept)
+    assert all(f.rule not in ("demo.hottest", "demo.whole") for f in checked.findings)
+
+
+@pytest.mark.parametrize(
+    "content, problem",
+    [
+        ("{not json", "is not valid JSON"),
+        ('{"prefit_accepted": 99, "findings": []}', "is not a prefit accepted-findings file"),
+        ('{"prefit_accepted": 1, "findings": [{"rule": "x.y", "grade": "worse", "columns": [], "rows": null, "reason": "r"}]}', "is not a grade"),
+        ('{"prefit_accepted": 1, "findings": [{"rule": "x.y", "grade": "note", "columns": [], "rows": null}]}', "needs a non-empty text 'reason'"),
+    ],
+)
+def test_a_bad_accepted_findings_file_is_one_line_usage_error(tmp_path: Path, content: str, problem: str) -> None:
+    accept = tmp_path / "accepted.json"
+    accept.write_text(content, encoding="utf-8")
+    table = tmp_path / "t.csv"
+    invented(False).to_csv(table, index=False)
+    run = run_cli("check", table, "--target", "energy_kwh", "--accept-file", accept)
+    assert run.code == 2 and problem in run.err and run.err.count("\n") == 1
+
+
+def test_accept_flags_need_each_other_or_an_existing_file(tmp_path: Path) -> None:
+    table = tmp_path / "t.csv"
+    invented(False).to_csv(table, index=False)
+    alone = run_cli("check", table, "--target", "energy_kwh", "--accept-current")
+    assert alone.code == 2 and "--accept-file" in alone.err
+    missing = run_cli("check", table, "--target", "energy_kwh", "--accept-file", tmp_path / "none.json")
+    assert missing.code == 2 and "--accept-current" in missing.err

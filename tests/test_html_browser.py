@@ -1,0 +1,190 @@
+"""The HTML report in a real headless browser: no script errors, no network, plots drawn, data text shown as text.
+
+Drives Debian's chromium through the DevTools protocol (a websocket on the
+loopback address) and saves a screenshot and the page of every sample table
+under ``artifacts/html/``.
+"""
+
+from __future__ import annotations
+
+import base64
+import json
+import shutil
+import subprocess
+import tempfile
+import time
+import urllib.request
+from pathlib import Path
+from typing import Any, Iterator
+
+import pytest
+from conftest import ROOT
+from sample_reports import NAMES, sample_html, sample_report
+from test_reports import HOSTILE, plugin_report
+
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+pytestmark = pytest.mark.skipif(
+    CHROMIUM is None, reason="Debian's chromium is not installed here (.ci/run installs it); the headless browser check needs it"
+)
+ARTIFACTS = ROOT / "artifacts" / "html"
+START_SECONDS = 60.0
+PAGE_SECONDS = 60.0
+WIDTH = 1200
+MAX_HEIGHT = 12000
+
+PAGE_FACTS = """JSON.stringify({
+  figures: Array.from(document.querySelectorAll('figure.plot')).map(function (f) {
+    var svg = f.querySelector('svg');
+    var box = svg ? svg.getBoundingClientRect() : {width: 0, height: 0};
+    return {id: f.id, width: box.width, height: box.height,
+            marks: svg ? svg.querySelectorAll('path, use, image, rect').length : 0};
+  }),
+  scripts: document.scripts.length,
+  text: document.body.innerText,
+  height: document.documentElement.scrollHeight
+})"""
+
+
+class DevTools:
+    """A minimal DevTools-protocol client over one page's websocket."""
+
+    def __init__(self, url: str) -> None:
+        import websocket
+
+        self.socket = websocket.create_connection(url, timeout=PAGE_SECONDS, suppress_origin=True)
+        self.next_id = 0
+        self.events: list[dict[str, Any]] = []
+
+    def call(self, method: str, **params: Any) -> dict[str, Any]:
+        self.next_id += 1
+        wanted = self.next_id
+        self.socket.send(json.dumps({"id": wanted, "method": method, "params": params}))
+        while True:
+            message = json.loads(self.socket.recv())
+            if message.get("id") == wanted:
+                if "error" in message:
+                    raise RuntimeError(f"{method}: {message['error']}")
+                return message.get("result", {})
+            self.events.append(message)
+
+    def wait_for(self, method: str) -> dict[str, Any]:
+        deadline = time.monotonic() + PAGE_SECONDS
+        while time.monotonic() < deadline:
+            for i, event in enumerate(self.events):
+                if event.get("method") == method:
+                    return self.events.pop(i)
+            self.events.append(json.loads(self.socket.recv()))
+        raise TimeoutError(f"no {method} within {PAGE_SECONDS:.0f} s")
+
+    def close(self) -> None:
+        self.socket.close()
+
+
+def _no_proxy_get(url: str) -> Any:
+    opener = urllib.request.build_opener(urllib.request.ProxyHandler({}))
+    with opener.open(url, timeout=10) as response:
+        return json.loads(response.read().decode("utf-8"))
+
+
+@pytest.fixture(scope="module")
+def browser() -> Iterator[DevTools]:
+    """One headless chromium for the module, with a fresh profile, reached on the loopback address."""
+    profile = Path(tempfile.mkdtemp(prefix="prefit-chromium-"))
+    assert CHROMIUM is not None
+    process = subprocess.Popen(
+        [
+            CHROMIUM,
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--disable-background-networking",
+            "--disable-component-update",
+            "--disable-sync",
+            "--no-first-run",
+            "--disable-dev-shm-usage",
+            f"--user-data-dir={profile}",
+            "--remote-debugging-address=127.0.0.1",
+            "--remote-debugging-port=0",
+            "about:blank",
+        ],
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+    )
+    try:
+        port_file = profile / "DevToolsActivePort"
+        deadline = time.monotonic() + START_SECONDS
+        while not (port_file.exists() and port_file.read_text().strip()):
+            if process.poll() is not None or time.monotonic() > deadline:
+                pytest.fail(f"chromium did not start (exit code {process.poll()})")
+            time.sleep(0.1)
+        port = int(port_file.read_text().split()[0])
+        pages = [t for t in _no_proxy_get(f"http://127.0.0.1:{port}/json/list") if t.get("type") == "page"]
+        client = DevTools(pages[0]["webSocketDebuggerUrl"])
+        for domain in ("Page", "Runtime", "Log", "Network"):
+            client.call(f"{domain}.enable")
+        yield client
+        client.close()
+    finally:
+        process.terminate()
+        try:
+            process.wait(timeout=10)
+        except subprocess.TimeoutExpired:
+            process.kill()
+            process.wait(timeout=10)
+        shutil.rmtree(profile, ignore_errors=True)
+
+
+def load(browser: DevTools, html: str, name: str) -> dict[str, Any]:
+    """Open ``html`` from a file, collect errors and requests, save the page and a full-page screenshot."""
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    page = ARTIFACTS / f"{name}.html"
+    page.write_text(html, encoding="utf-8")
+    browser.events.clear()
+    browser.call("Emulation.setDeviceMetricsOverride", width=WIDTH, height=900, deviceScaleFactor=1, mobile=False)
+    browser.call("Page.navigate", url=page.resolve().as_uri())
+    browser.wait_for("Page.loadEventFired")
+    facts = json.loads(browser.call("Runtime.evaluate", expression=PAGE_FACTS, returnByValue=True)["result"]["value"])
+    height = int(min(max(facts["height"], 900), MAX_HEIGHT))
+    browser.call("Emulation.setDeviceMetricsOverride", width=WIDTH, height=height, deviceScaleFactor=1, mobile=False)
+    shot = browser.call("Page.captureScreenshot", format="png", captureBeyondViewport=True)
+    (ARTIFACTS / f"{name}.png").write_bytes(base64.b64decode(shot["data"]))
+    events = list(browser.events)
+    facts["errors"] = [
+        e["params"]
+        for e in events
+        if e.get("method") == "Runtime.exceptionThrown"
+        or (e.get("method") == "Log.entryAdded" and e["params"]["entry"].get("level") == "error")
+        or (e.get("method") == "Runtime.consoleAPICalled" and e["params"].get("type") in ("error", "assert"))
+        or e.get("method") == "Page.javascriptDialogOpening"
+    ]
+    facts["requests"] = [
+        e["params"]["request"]["url"]
+        for e in events
+        if e.get("method") == "Network.requestWillBeSent" and not e["params"]["request"]["url"].startswith(("file:", "data:"))
+    ]
+    return facts
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_sample_table_page_loads_cleanly_with_its_plots(browser: DevTools, name: str) -> None:
+    report = sample_report(name)
+    facts = load(browser, sample_html(name), name)
+    assert facts["errors"] == []
+    assert facts["requests"] == []
+    assert facts["scripts"] == 0
+    assert (ARTIFACTS / f"{name}.png").stat().st_size > 10_000
+    drawn = {f["id"]: f for f in facts["figures"]}
+    expected = {"t1-missingness", "t1-ranges"} if report.context is not None and report.context.numeric_predictors else {"t1-missingness"}
+    assert expected <= set(drawn)
+    for figure in drawn.values():
+        assert figure["width"] > 200 and figure["height"] > 100 and figure["marks"] > 5, figure
+    for finding in report.findings:
+        assert " ".join(finding.message.split()) in " ".join(facts["text"].split())
+
+
+def test_hostile_names_render_as_text_in_the_browser(browser: DevTools) -> None:
+    facts = load(browser, plugin_report().to_html(), "hostile-names")
+    assert facts["errors"] == [] and facts["requests"] == [] and facts["scripts"] == 0
+    assert HOSTILE in facts["text"]
+    assert "invented <warehouse>.csv" in facts["text"]
+    assert {"t1-influence", "t1-missingness", "t1-collinearity", "t1-ranges"} <= {f["id"] for f in facts["figures"]}

