@@ -14,7 +14,12 @@ from typing import Callable
 
 import numpy as np
 import statsmodels.api as sm
-from statsmodels.stats.diagnostic import acorr_breusch_godfrey, het_breuschpagan, het_white, linear_reset
+from statsmodels.stats.diagnostic import (
+    acorr_breusch_godfrey,
+    het_breuschpagan,
+    het_white,
+    linear_reset,
+)
 from statsmodels.stats.stattools import jarque_bera
 
 from prefit.stats import residual_tests as tests

@@ -11,7 +11,13 @@ from typing import TYPE_CHECKING, Any, Mapping, Sequence
 import pyarrow as pa
 
 from . import __version__
-from .accepted import AcceptedSet, Fingerprint, fingerprints, load_accepted, save_accepted
+from .accepted import (
+    AcceptedSet,
+    Fingerprint,
+    fingerprints,
+    load_accepted,
+    save_accepted,
+)
 from .context import RunContext
 from .engine import RuleOutcome, error_finding, run_rule, select_rules
 from .errors import UsageProblem
@@ -21,8 +27,8 @@ from .progress import RunProgress
 from .reading import ReadOptions, TableInfo, read_table
 from .registry import Registry, discover
 from .roles import apply_missing_codes, resolve_roles
-from .scoring import check_declared_ranges, read_score_table
 from .rule import RuleLike
+from .scoring import check_declared_ranges, read_score_table
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -137,6 +143,21 @@ class Report:
         return html_fragment(self)
 
 
+def build_context(table: pa.Table, info: TableInfo, options: CheckOptions) -> RunContext:
+    """Apply declared missing codes, resolve roles and ranges, read any scoring table: the context rules read."""
+    table, replaced = apply_missing_codes(table, options.missing_codes)
+    roles = resolve_roles(table, options)
+    check_declared_ranges(roles, options.ranges)
+    score = read_score_table(options, roles)
+    return RunContext(table=table, info=info, roles=roles, options=options, replaced_codes=replaced, score=score)
+
+
+def context_for(table: "pa.Table | pd.DataFrame", target: str, **options: Any) -> RunContext:
+    """The run context of an in-memory table, for notebooks and tests that read the shared statistics directly."""
+    data, info = _as_table(table, ReadOptions())
+    return build_context(data, info, options_from(target=target, **options))
+
+
 def run_check(
     table: pa.Table,
     info: TableInfo,
@@ -151,11 +172,8 @@ def run_check(
     """
     registry = registry if registry is not None else discover()
     selected = select_rules(registry, options)
-    table, replaced = apply_missing_codes(table, options.missing_codes)
-    roles = resolve_roles(table, options)
-    check_declared_ranges(roles, options.ranges)
-    score = read_score_table(options, roles)
-    context = RunContext(table=table, info=info, roles=roles, options=options, replaced_codes=replaced, score=score)
+    context = build_context(table, info, options)
+    roles, replaced = context.roles, context.replaced_codes
     outcomes = []
     if progress is not None:
         progress.start(info.path, len(selected))

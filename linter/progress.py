@@ -26,7 +26,13 @@ class TerminalProgress:
     def start(self, label: str, total: int) -> None:
         """Show the bar for one table."""
         from rich.console import Console
-        from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+        from rich.progress import (
+            BarColumn,
+            MofNCompleteColumn,
+            Progress,
+            TextColumn,
+            TimeElapsedColumn,
+        )
 
         bar = Progress(
             TextColumn("{task.description}"),

@@ -156,7 +156,7 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
         _require_columns(names, options.predictors, "--predictors")
         for special, flag in ((options.target, "--target"), (options.id, "--id")):
             if special in options.predictors:
-                raise UsageProblem("--predictors", f"lists {special!r}, which is the {flag} column", f"remove it from --predictors")
+                raise UsageProblem("--predictors", f"lists {special!r}, which is the {flag} column", "remove it from --predictors")
     declared = set(options.categorical)
     kinds = {name: infer_kind(table.column(name), name in declared) for name in names}
     left_out: dict[str, str] = {}

@@ -19,7 +19,12 @@ from prefit.design import INTERCEPT
 from prefit.findings import Finding, Grade
 from prefit.roles import Kind
 from prefit.rule import Rule, RuleSettings, Threshold, fmt
-from prefit.stats.auxiliary import autocorrelations, durbin_watson, hc3_standard_errors, regress_added
+from prefit.stats.auxiliary import (
+    autocorrelations,
+    durbin_watson,
+    hc3_standard_errors,
+    regress_added,
+)
 from prefit.stats.curvature import CurvatureCheck, square_columns
 from prefit.stats.factor import DesignFactor
 from prefit.stats.residual_tests import (

@@ -15,7 +15,13 @@ from prefit.context import RunContext
 from prefit.design import INTERCEPT
 from prefit.findings import Finding, Grade
 from prefit.rule import Rule, RuleSettings, Threshold, fmt
-from prefit.stats.chance import chance_check, cooks_tail, expected_count, hat_tail, t_tail
+from prefit.stats.chance import (
+    chance_check,
+    cooks_tail,
+    expected_count,
+    hat_tail,
+    t_tail,
+)
 from prefit.stats.influence import group_deletion
 
 from ._rowfindings import (

@@ -12,9 +12,22 @@ from prefit.findings import MAX_LISTED_ROWS, Finding, Grade
 from prefit.roles import Kind
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.chance import chance_check, probability_text, t_tail
-from prefit.stats.robust import MODIFIED_Z_FACTOR, RobustDistances, median_and_mad, modified_z, robust_distances
+from prefit.stats.robust import (
+    MODIFIED_Z_FACTOR,
+    RobustDistances,
+    median_and_mad,
+    modified_z,
+    robust_distances,
+)
 
-from ._rowfindings import CHANCE, beyond_chance, chance_details, impact_message, rows_text, single_row_impacts
+from ._rowfindings import (
+    CHANCE,
+    beyond_chance,
+    chance_details,
+    impact_message,
+    rows_text,
+    single_row_impacts,
+)
 
 BONFERRONI_SOURCE = (
     "Bonferroni-adjusted outlier test: n times the two-sided t(n-p-1) p-value of the externally studentized "

@@ -9,8 +9,8 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.findings import Finding, Grade
 from prefit.roles import Kind
-from prefit.stats.mergeable import Moments
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.stats.mergeable import Moments
 
 
 def _missing_values(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:

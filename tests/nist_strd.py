@@ -13,7 +13,6 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
-
 from conftest import REFERENCE
 
 NIST = REFERENCE / "nist-strd"

@@ -22,7 +22,7 @@ from prefit.context import RunContext
 from prefit.findings import Finding, Grade
 from prefit.options import CheckOptions
 from prefit.reading import TableInfo
-from prefit.registry import Registry, discover
+from prefit.registry import Registry
 from prefit.rule import Rule, RuleSettings
 
 ROWS = 40

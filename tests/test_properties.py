@@ -11,9 +11,8 @@ import hypothesis.strategies as st
 import jsonschema
 import numpy as np
 import pandas as pd
-from hypothesis import HealthCheck, given, settings
-
 from conftest import run_cli
+from hypothesis import HealthCheck, given, settings
 
 SCHEMA = json.loads(resources.files("prefit").joinpath("report/report.schema.json").read_text())
 FLOATS = st.one_of(st.floats(allow_nan=True, allow_infinity=True, width=64), st.floats(-1e6, 1e6), st.none())

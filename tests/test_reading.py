@@ -13,9 +13,9 @@ import pyarrow as pa
 import pyarrow.feather as feather
 import pyarrow.parquet as pq
 import pytest
+from conftest import run_cli
 
 from prefit.reading import ReadOptions, read_table
-from conftest import run_cli
 
 ROWS = "site,energy_kwh,doors,frozen,kind\nA,10.5,3,true,screw\nB,12.0,4,false,scroll\nC,,5,true,screw\n"
 

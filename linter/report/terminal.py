@@ -10,7 +10,13 @@ from rich.padding import Padding
 from rich.text import Text
 from rich.theme import Theme
 
-from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade
+from ..findings import (
+    GRADE_MEANINGS,
+    GRADES_STRONGEST_FIRST,
+    Finding,
+    Grade,
+    count_by_grade,
+)
 from .base import ReportWriter, RunFacts
 
 if TYPE_CHECKING:

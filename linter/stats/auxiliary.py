@@ -17,8 +17,8 @@ import numpy as np
 import scipy.linalg
 
 from .factor import EPS, DesignFactor
-from .mergeable import TriangularFactor
 from .fit import PreliminaryFit
+from .mergeable import TriangularFactor
 
 DEPENDENT_SHARE = float(np.sqrt(EPS))
 BATCH_CELLS = 1 << 21
