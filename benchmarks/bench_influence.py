@@ -1,14 +1,18 @@
 """Influence and outlier measures: closed forms against one thin QR, and against statsmodels' leave-one-out route.
 
-Run ``python benchmarks/bench_influence.py`` (``--rows`` to change the large size). Invented Gaussian data;
-every ratio is against a baseline timed in the same process.
+Run ``python benchmarks/bench_influence.py`` (``--rows`` to change the large size, ``--large-only`` to skip the
+statsmodels comparison). Invented Gaussian data; every ratio is against a baseline timed in the same process. The
+large table's design and fit are built before the clock starts (every family shares them); the QR baseline and
+the families are each the best of two runs, the families on a fresh context each time.
 """
 
 from __future__ import annotations
 
 import argparse
+import gc
 import time
-from typing import Callable
+import tracemalloc
+from collections.abc import Callable
 
 import numpy as np
 import pyarrow as pa
@@ -19,6 +23,9 @@ from prefit.reading import TableInfo
 from prefit.registry import discover
 from prefit.roles import resolve_roles
 from prefit.rule import RuleSettings
+
+FAMILIES = ("influence", "outliers")
+REPEATS = 2
 
 
 def timed(action: Callable[[], object], repeat: int = 1) -> float:
@@ -51,23 +58,62 @@ def run_family(ctx: RunContext, families: tuple[str, ...]) -> None:
             list(rule.check(ctx, RuleSettings.defaults(rule)))
 
 
-def large(rows: int, predictors: int) -> None:
-    X, y = invented(rows, predictors)
-    qr = timed(lambda: np.linalg.qr(X, mode="r"), repeat=2)
-    print(f"{rows:,} x {predictors} predictors: one thin QR of the design {qr:.2f} s (baseline)")
+def prepared(X: np.ndarray, y: np.ndarray) -> RunContext:
+    """A fresh context whose design and fit (shared with every other family, not timed) are built."""
     ctx = context(X, y)
     _ = ctx.design.X
     _ = ctx.fit.coef
-    scores = timed(lambda: ctx.row_scores)
-    measures = timed(lambda: ctx.influence)
-    print(f"  shared hat values and residuals (RunContext.row_scores)  {scores:.2f} s = {scores / qr:.2f} x the QR")
-    print(f"  shared influence measures (RunContext.influence)          {measures:.2f} s = {measures / qr:.2f} x the QR")
-    total = scores + measures
-    for families in (("influence",), ("outliers",)):
-        spent = timed(lambda: run_family(ctx, families))
-        total += spent
-        print(f"  {' + '.join(families) + ' rules':<56} {spent:.2f} s = {spent / qr:.2f} x the QR")
-    print(f"  both families with their shared statistics               {total:.2f} s = {total / qr:.2f} x the QR")
+    return ctx
+
+
+def family_parts(ctx: RunContext) -> dict[str, float]:
+    """Seconds spent on the shared row statistics and on each family's rules, in the order a run needs them."""
+    parts = {
+        "shared hat values and residuals (RunContext.row_scores)": timed(lambda: ctx.row_scores),
+        "shared influence measures (RunContext.influence)": timed(lambda: ctx.influence),
+    }
+    for family in FAMILIES:
+        parts[f"{family} rules"] = timed(lambda chosen=family: run_family(ctx, (chosen,)))
+    return parts
+
+
+def family_peak(X: np.ndarray, y: np.ndarray) -> tuple[int, int]:
+    """Bytes numpy holds once the design and fit are built, and its peak while both families run (tracemalloc)."""
+    ctx = context(X, y)
+    tracemalloc.start()
+    _ = ctx.design.X
+    _ = ctx.fit.coef
+    held, _ = tracemalloc.get_traced_memory()
+    tracemalloc.reset_peak()
+    _ = ctx.row_scores, ctx.influence
+    run_family(ctx, FAMILIES)
+    _, peak = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    return held, peak
+
+
+def large(rows: int, predictors: int) -> None:
+    X, y = invented(rows, predictors)
+    qr = timed(lambda: np.linalg.qr(X, mode="r"), repeat=REPEATS)
+    print(f"{rows:,} x {predictors} predictors: one thin QR of the design {qr:.2f} s (baseline, best of {REPEATS})")
+    best: dict[str, float] | None = None
+    for _ in range(REPEATS):
+        gc.collect()
+        parts = family_parts(prepared(X, y))
+        if best is None or sum(parts.values()) < sum(best.values()):
+            best = parts
+    assert best is not None
+    for label, spent in best.items():
+        print(f"  {label:<56} {spent:.2f} s = {spent / qr:.2f} x the QR")
+    total = sum(best.values())
+    print(f"  {'both families with their shared statistics (best of ' + str(REPEATS) + ')':<56} {total:.2f} s = {total / qr:.2f} x the QR (target <= 3)")
+    gc.collect()
+    held, peak = family_peak(X, y)
+    design_bytes = X.nbytes + y.nbytes
+    print(
+        f"  memory: the design holds {held / design_bytes:.2f}x its own size; both families peak at {peak / design_bytes:.2f}x "
+        f"({peak / 2**20:,.0f} MiB; an n x n matrix would take {rows**2 * 8 / 2**40:,.1f} TiB)"
+    )
 
 
 def small(rows: int, predictors: int) -> None:
@@ -95,10 +141,12 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__)
     parser.add_argument("--rows", type=int, default=1_000_000)
     parser.add_argument("--predictors", type=int, default=20)
+    parser.add_argument("--large-only", action="store_true", help="skip the statsmodels OLSInfluence comparison")
     args = parser.parse_args()
     large(args.rows, args.predictors)
-    for rows in (2_000, 10_000):
-        small(rows, 10)
+    if not args.large_only:
+        for rows in (2_000, 10_000):
+            small(rows, 10)
 
 
 if __name__ == "__main__":

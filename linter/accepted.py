@@ -230,8 +230,8 @@ def _entry(raw: Any, where: str) -> AcceptedEntry:
     rows = raw.get("rows")
     if rows is not None and not isinstance(rows, str):
         raise UsageProblem(f"{where}.rows", "must be a digest text or null", "copy it from a file written by --accept-current")
-    key = Fingerprint(raw["rule"], raw["grade"].strip().lower(), tuple(sorted(columns)), rows)
-    return AcceptedEntry(key, raw["reason"], str(raw.get("example", "")))
+    fingerprint = Fingerprint(raw["rule"], raw["grade"].strip().lower(), tuple(sorted(columns)), rows)
+    return AcceptedEntry(fingerprint, raw["reason"], str(raw.get("example", "")))
 
 
 def load_accepted(path: str | Path) -> AcceptedSet:

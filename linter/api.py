@@ -26,7 +26,7 @@ from .options import SETTINGS_BY_KEY, CheckOptions, parse_settings
 from .progress import RunProgress
 from .reading import ReadOptions, TableInfo, read_table
 from .registry import Registry, discover
-from .roles import apply_missing_codes, resolve_roles
+from .roles import apply_missing_codes, distinct_labels, resolve_roles
 from .rule import RuleLike
 from .scoring import check_declared_ranges, read_score_table
 
@@ -106,6 +106,7 @@ class Report:
             "gate": self.gate.word,
             "complete": not self.failed_rules,
             "rules_run": [o.rule for o in self.outcomes],
+            "rules_not_applicable": {o.rule: o.not_applicable for o in self.outcomes if o.not_applicable is not None},
             "findings": [f.to_dict() for f in self.findings],
             "summary": count_by_grade(self.findings),
             "accepted": len(self.accepted),
@@ -191,6 +192,8 @@ def run_check(
     description["kinds"] = {name: str(kind) for name, kind in roles.kinds.items()}
     description["left_out"] = dict(roles.left_out)
     description["id"] = roles.id
+    if roles.id is not None:
+        description["id_values"] = distinct_labels(context.table.column(roles.id))
     if replaced:
         description["missing_codes_applied"] = dict(replaced)
     return Report(

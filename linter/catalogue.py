@@ -8,7 +8,7 @@ import textwrap
 from .errors import UsageProblem, closest_names
 from .registry import Registry, discover
 from .rule import RuleLike, default_grades, rule_family
-from .teaching import demonstration_for
+from .teaching import DEMONSTRATIONS, demonstration_for
 
 WRAP = 96
 
@@ -47,9 +47,12 @@ def catalogue_text(registry: Registry | None = None) -> str:
             grades = "/".join(_grades(rule)) or "-"
             out.append(f"  {rule.id}  ({grades})")
             out.extend(textwrap.wrap(rule.summary, WRAP, initial_indent="      ", subsequent_indent="      "))
+            previous_source = None
             for t in rule.thresholds:
                 rule_text = f"{t.compare} {t.value:g}" if t.grade is not None else f"= {t.value:g}"
-                out.append(f"      {t.name}: {rule_text}  [{t.source}]")
+                source = "as above" if t.source == previous_source and len(t.source) > WRAP // 2 else t.source
+                out.extend(textwrap.wrap(f"{t.name}: {rule_text}  [{source}]", WRAP, initial_indent="      ", subsequent_indent="          "))
+                previous_source = t.source
         out.append("")
     return "\n".join(out)
 
@@ -58,21 +61,43 @@ def explain_rule(rule_id: str, registry: Registry | None = None) -> str:
     """The why, thresholds with sources, and remedy of one rule, for teaching."""
     registry = registry or discover()
     rule = registry.get(rule_id)
+    if rule is None and rule_id in registry.families():
+        return _explain_family(rule_id, registry)
     if rule is None:
         raise UsageProblem(f"rule {rule_id!r}", "is not a known rule", closest_names(rule_id, sorted(registry.rules)) + "; `prefit why` lists them")
-    out = [f"{rule.id}: {rule.summary}", ""]
+    out = [*textwrap.wrap(f"{rule.id}: {rule.summary}", WRAP, subsequent_indent="  "), ""]
     out += ["What it does to a fit:"] + textwrap.wrap(rule.why, WRAP, initial_indent="  ", subsequent_indent="  ") + [""]
     if rule.thresholds:
         out.append("Thresholds:")
+        previous_source = None
         for t in rule.thresholds:
-            out.append(f"  {t.describe()}  ({t.name}; source: {t.source})")
+            out.append(f"  {t.describe()}")
+            source = "as above" if t.source == previous_source and len(t.source) > WRAP // 2 else t.source
+            out.extend(textwrap.wrap(f"source: {source}", WRAP, initial_indent="    ", subsequent_indent="      "))
+            previous_source = t.source
         out.append("")
     out += ["Remedy:"] + textwrap.wrap(rule.remedy, WRAP, initial_indent="  ", subsequent_indent="  ")
     demo = getattr(rule, "demonstration", None)
+    heading = "Demonstration on invented warehouse data:"
     if not callable(demo):
         demo = demonstration_for(rule.id)
+        if rule.id not in DEMONSTRATIONS:
+            family = rule_family(rule.id)
+            heading = f"Demonstration for the {family} family (this rule has none of its own), on invented warehouse data:"
     if callable(demo):
+        out += ["", heading, str(demo())]
+    return "\n".join(out) + "\n"
+
+
+def _explain_family(family: str, registry: Registry) -> str:
+    """A family's rules, one line each, and the family's demonstration when it has one."""
+    out = [f"{family}: {sum(1 for r in registry if rule_family(r.id) == family)} rules", ""]
+    for rule in (r for r in registry if rule_family(r.id) == family):
+        out.extend(textwrap.wrap(f"{rule.id:34s} {rule.summary}", WRAP + 24, initial_indent="  ", subsequent_indent=" " * 37))
+    demo = demonstration_for(family)
+    if demo is not None:
         out += ["", "Demonstration on invented warehouse data:", str(demo())]
+    out += ["", "`prefit why RULE` explains one rule."]
     return "\n".join(out) + "\n"
 
 
@@ -83,7 +108,7 @@ def list_by_family(registry: Registry | None = None) -> str:
     for family in registry.families():
         out.append(f"{family}:")
         for rule in (r for r in registry if rule_family(r.id) == family):
-            out.append(f"  {rule.id:34s} {rule.summary}")
+            out.extend(textwrap.wrap(f"{rule.id:34s} {rule.summary}", WRAP + 24, initial_indent="  ", subsequent_indent=" " * 37))
     out.append("")
-    out.append("`prefit why RULE` explains one rule.")
+    out.append("`prefit why RULE` explains one rule; `prefit why FAMILY` lists a family's rules with its demonstration.")
     return "\n".join(out) + "\n"

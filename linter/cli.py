@@ -62,7 +62,7 @@ def _build_parser() -> argparse.ArgumentParser:
     rules.add_argument("--format", default="text", choices=("text", "json"))
 
     why = commands.add_parser("why", help="explain a rule: what it does to a fit, thresholds, sources, remedy")
-    why.add_argument("rule", nargs="?", metavar="RULE")
+    why.add_argument("rule", nargs="?", metavar="RULE", help="a rule id, or a family to list its rules; without it, every rule by family")
     return parser
 
 

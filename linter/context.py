@@ -16,6 +16,7 @@ from .reading import TableInfo
 from .roles import Kind, Roles, label_values, numeric_values
 from .rule import top_rows
 from .scoring import ScoredRows, ScoreTable, score_rows
+from .stats.blas import one_blas_thread
 from .stats.collinearity import Collinearity
 from .stats.curvature import CurvatureCheck, curvature_checks
 from .stats.factor import DesignFactor
@@ -23,6 +24,7 @@ from .stats.fit import PreliminaryFit, RowScores
 from .stats.influence import RowInfluence, row_influence
 from .stats.mergeable import Moments
 from .stats.missingness import Holes
+from .stats.robust import median_and_mad
 from .stats.summaries import ColumnSummary, summarise
 from .stats.textnumbers import TextNumbers
 
@@ -43,6 +45,7 @@ class RunContext:
     score: ScoreTable | None = None
     _summaries: dict[str, ColumnSummary] = field(default_factory=dict, init=False, repr=False)
     _text_numbers: dict[str, TextNumbers] = field(default_factory=dict, init=False, repr=False)
+    _spreads: dict[str, tuple[float, float]] = field(default_factory=dict, init=False, repr=False)
 
     @cached_property
     def design(self) -> Design:
@@ -51,8 +54,9 @@ class RunContext:
 
     @cached_property
     def factor(self) -> DesignFactor:
-        """Pivoted QR of the unit-length-scaled design; O(n p^2)."""
-        return DesignFactor.of(self.design.X, self.design.y)
+        """Pivoted QR of the unit-length-scaled design; O(n p^2), in row batches each too small to share across BLAS threads."""
+        with one_blas_thread():
+            return DesignFactor.of(self.design.X, self.design.y)
 
     @cached_property
     def fit(self) -> PreliminaryFit:
@@ -110,6 +114,12 @@ class RunContext:
     def values(self, column: str) -> np.ndarray:
         """A numeric column over all table rows as float64 (NaN for missing)."""
         return numeric_values(self.table.column(column))
+
+    def median_and_mad(self, column: str) -> tuple[float, float]:
+        """Median and median absolute deviation of a numeric column's finite values over all table rows (computed once)."""
+        if column not in self._spreads:
+            self._spreads[column] = median_and_mad(self.values(column))
+        return self._spreads[column]
 
     @property
     def target_is_numeric(self) -> bool:

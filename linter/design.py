@@ -116,12 +116,53 @@ def _reference_and_levels(codes: np.ndarray, levels: list[str]) -> tuple[int, li
     return reference, sorted((i for i in present if i != reference), key=lambda i: levels[i])
 
 
+FILL_ROWS = 8_192
+
+
+def _fill_design(
+    X: np.ndarray,
+    positions: np.ndarray | None,
+    intercept: bool,
+    sources: list[tuple[np.ndarray, tuple[int, ...]]],
+) -> None:
+    """Write every design column into the preallocated ``X`` (rows x p, C order), ``FILL_ROWS`` rows at a time.
+
+    ``sources`` holds, per predictor in design order, its values over all table
+    rows (floats, or integer level codes) and the codes of its dummy columns
+    (empty for a numeric column, which fills one column). ``positions`` picks
+    the complete rows (None: every row). Each block of rows stays in cache while
+    its columns are written, and no temporary is larger than one block.
+    """
+    first = 1 if intercept else 0
+    if intercept:
+        X[:, 0] = 1.0
+    for start in range(0, X.shape[0], FILL_ROWS):
+        stop = min(start + FILL_ROWS, X.shape[0])
+        rows = slice(start, stop) if positions is None else positions[start:stop]
+        block = X[start:stop]
+        column = first
+        for values, dummies in sources:
+            picked = values[rows]
+            if not dummies:
+                block[:, column] = picked
+                column += 1
+                continue
+            for code in dummies:
+                np.equal(picked, code, out=block[:, column], casting="unsafe")
+                column += 1
+
+
 def build_design(table: pa.Table, roles: Roles, intercept: bool = True) -> Design:
-    """Build the complete-case design: rows with the target and every predictor present and finite."""
+    """Build the complete-case design: rows with the target and every predictor present and finite.
+
+    The design is written straight into one preallocated C-ordered float64
+    array (row batches of it are contiguous for the batched QR and row
+    scoring); numeric columns are read without copies where Arrow allows.
+    """
     n_rows = table.num_rows
     y_all = numeric_values(table.column(roles.target)) if roles.kinds[roles.target] in (Kind.NUMERIC, Kind.BOOLEAN) else np.full(n_rows, np.nan)
     complete = np.isfinite(y_all)
-    missing_by_column: dict[str, int] = {roles.target: int((~np.isfinite(y_all)).sum())}
+    missing_by_column: dict[str, int] = {roles.target: int(n_rows - np.count_nonzero(complete))}
     numeric: dict[str, np.ndarray] = {}
     categories: dict[str, tuple[np.ndarray, list[str]]] = {}
     for name in roles.predictors:
@@ -134,19 +175,21 @@ def build_design(table: pa.Table, roles: Roles, intercept: bool = True) -> Desig
         else:
             categories[name] = category_codes(column, kind)
             present = categories[name][0] >= 0
-        missing_by_column[name] = int((~present).sum())
+        missing_by_column[name] = int(n_rows - np.count_nonzero(present))
         complete &= present
-    positions = np.flatnonzero(complete)
+    every_row = bool(complete.all())
+    positions = np.arange(n_rows) if every_row else np.flatnonzero(complete)
+    del complete
     terms: list[Term] = [Term(INTERCEPT, None, (INTERCEPT,))] if intercept else []
-    blocks: list[np.ndarray] = [np.ones((positions.size, 1))] if intercept else []
+    sources: list[tuple[np.ndarray, tuple[int, ...]]] = []
     for name in roles.predictors:
         kind = roles.kinds[name]
         if name in numeric:
             terms.append(Term(name, kind, (name,)))
-            blocks.append(numeric[name][positions, None])
+            sources.append((numeric[name], ()))
             continue
         all_codes, all_levels = categories[name]
-        kept = all_codes[positions]
+        kept = all_codes if every_row else all_codes[positions]
         if kept.size == 0:
             terms.append(Term(name, kind, ()))
             continue
@@ -154,13 +197,16 @@ def build_design(table: pa.Table, roles: Roles, intercept: bool = True) -> Desig
         names = tuple(all_levels[i] for i in others)
         terms.append(Term(name, kind, tuple(f"{name}={level}" for level in names), names, all_levels[reference]))
         if others:
-            blocks.append(np.column_stack([(kept == i).astype(np.float64) for i in others]))
-    X = np.hstack(blocks) if blocks else np.empty((positions.size, 0))
+            sources.append((all_codes, tuple(others)))
+    p = sum(t.df for t in terms)
+    X = np.empty((positions.size, p), dtype=np.float64)
+    _fill_design(X, None if every_row else positions, intercept, sources)
+    y = np.ascontiguousarray(y_all, dtype=np.float64) if every_row else y_all[positions]
     return Design(
         terms=tuple(terms),
         intercept=intercept,
-        X=np.ascontiguousarray(X, dtype=np.float64),
-        y=y_all[positions].astype(np.float64),
+        X=X,
+        y=y,
         positions=positions,
         table_rows=n_rows,
         missing_by_column=missing_by_column,

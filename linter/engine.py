@@ -3,26 +3,30 @@
 from __future__ import annotations
 
 import traceback
+from contextlib import nullcontext
 from dataclasses import dataclass
 from typing import Iterable
+
+import numpy as np
 
 from .context import RunContext
 from .errors import UsageProblem, closest_names
 from .findings import Finding, Grade
 from .options import CheckOptions
 from .registry import Registry
-from .rule import RuleLike, RuleSettings, rule_family
+from .rule import NotApplicable, RuleLike, RuleSettings, rule_family
 
 RULE_ERROR = "engine.rule-error"
 
 
 @dataclass(frozen=True)
 class RuleOutcome:
-    """What one rule did: its findings, or the error that stopped it."""
+    """What one rule did: its findings, the error that stopped it, or why it did not apply."""
 
     rule: str
     findings: tuple[Finding, ...]
     error: str | None = None
+    not_applicable: str | None = None
 
 
 def select_rules(registry: Registry, options: CheckOptions) -> list[tuple[RuleLike, RuleSettings]]:
@@ -51,18 +55,39 @@ def select_rules(registry: Registry, options: CheckOptions) -> list[tuple[RuleLi
 
 
 def run_rule(rule: RuleLike, settings: RuleSettings, context: RunContext, debug: bool = False) -> RuleOutcome:
-    """Run one rule; an exception becomes an outcome with an error instead of stopping the run."""
+    """Run one rule; an exception becomes an outcome with an error instead of stopping the run.
+
+    Floating-point overflow on extreme tables is silenced here (``hygiene.non-finite``
+    reports such values); ``debug`` shows the warnings.
+    """
+    quiet = nullcontext() if debug else np.errstate(all="ignore")
     try:
-        produced = list(rule.check(context, settings))
+        with quiet:
+            _require(rule, context)
+            produced = list(rule.check(context, settings))
         for item in produced:
             if not isinstance(item, Finding):
                 raise TypeError(f"check() yielded {type(item).__name__}, not a Finding")
+    except NotApplicable as reason:
+        return RuleOutcome(rule.id, (), not_applicable=str(reason))
     except Exception as exc:  # a rule never crashes the run
         if debug:
             traceback.print_exc()
         return RuleOutcome(rule.id, (), f"{type(exc).__name__}: {exc}")
     kept = tuple(f for f in produced if not (settings.exempt and settings.exempt.intersection(f.columns)))
     return RuleOutcome(rule.id, kept)
+
+
+def _require(rule: RuleLike, context: RunContext) -> None:
+    """Raise NotApplicable when a per-row diagnostic of the fit has no fit to diagnose."""
+    needs: frozenset[str] = getattr(rule, "needs", frozenset())
+    if not {"rows", "fit"} <= needs:
+        return
+    if not context.target_is_numeric:
+        raise NotApplicable(f"no least-squares fit: the target {context.roles.target} is not numeric")
+    design = context.design
+    if design.n <= context.fit.rank:
+        raise NotApplicable(f"no residual degrees of freedom: {design.n} complete cases for a design of rank {context.fit.rank}")
 
 
 def error_finding(outcome: RuleOutcome) -> Finding:

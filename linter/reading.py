@@ -236,7 +236,7 @@ def read_table(path: str, options: ReadOptions = ReadOptions()) -> tuple[pa.Tabl
         fmt = sniffed_fmt
     fmt = fmt or "csv"
     if fmt == "parquet":
-        table = _read_parquet(pa.BufferReader(data), path)  # type: ignore[arg-type]
+        table = _read_parquet(pa.BufferReader(data), path)
     elif fmt == "arrow":
         table = _read_arrow(data, path)
     else:

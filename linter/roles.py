@@ -86,7 +86,7 @@ def _code_matches(column: pa.ChunkedArray, codes: tuple[str, ...]) -> pa.Chunked
         numbers = [float(c) for c in codes if _is_number(c)]
         if not numbers:
             return pc.is_in(column, value_set=pa.array([], column.type))
-        return pc.is_in(pc.cast(column, pa.float64()), value_set=pa.array(numbers, pa.float64()))
+        return pc.is_in(pc.cast(column, pa.float64(), safe=False), value_set=pa.array(numbers, pa.float64()))
     return pc.is_in(pc.cast(column, pa.string()), value_set=pa.array(list(codes), pa.string()))
 
 
@@ -212,8 +212,22 @@ def numeric_values(column: pa.ChunkedArray) -> np.ndarray:
         return np.asarray(seconds.to_numpy(zero_copy_only=False), dtype=np.float64) / 86400.0
     if pa.types.is_boolean(t):
         column = pc.cast(column, pa.int8())
-    values = pc.cast(column, pa.float64()).to_numpy(zero_copy_only=False)
+    # Integers beyond 2**53 round to the nearest double, as every statistics package does.
+    values = pc.cast(column, pa.float64(), safe=False).to_numpy(zero_copy_only=False)
     return np.asarray(values, dtype=np.float64)
+
+
+def distinct_labels(column: pa.ChunkedArray) -> int:
+    """How many distinct values the row-label column holds (missing counts as one value).
+
+    Fewer than the rows means a label names a group of rows (every site-day of
+    a site), not one row.
+    """
+    if pa.types.is_null(column.type):
+        return min(len(column), 1)
+    if pa.types.is_dictionary(column.type):
+        column = column.cast(column.type.value_type)
+    return int(pc.count_distinct(column, mode="all").as_py())
 
 
 def label_values(column: pa.ChunkedArray) -> list[str | None]:

@@ -24,6 +24,14 @@ if TYPE_CHECKING:
 
 COMMON_PRACTICE = "common practice"
 
+
+class NotApplicable(Exception):
+    """Raised by a rule's check when the table gives it nothing to check; the message says why.
+
+    The engine records the rule as not applicable (a skipped test case in JUnit), which
+    is neither a finding nor a failure.
+    """
+
 _COMPARISONS: Mapping[str, Callable[[float, float], bool]] = {
     ">=": operator.ge,
     ">": operator.gt,

@@ -18,7 +18,7 @@ from prefit.context import RunContext
 from prefit.design import INTERCEPT
 from prefit.findings import Finding, Grade
 from prefit.roles import Kind
-from prefit.rule import Rule, RuleSettings, Threshold, fmt
+from prefit.rule import NotApplicable, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.auxiliary import (
     autocorrelations,
     durbin_watson,
@@ -233,8 +233,9 @@ def _residual_normality(ctx: RunContext, settings: RuleSettings) -> Iterator[Fin
         columns=[ctx.roles.target],
         value=float(n),
         threshold=small,
-        remedy=f"look at the largest residuals first (a few bad rows often cause this); for a right-skewed {ctx.roles.target} "
-        "try its logarithm; otherwise use bootstrap intervals",
+        remedy="look at the largest residuals first (a few bad rows often cause this); "
+        + (f"for a right-skewed {ctx.roles.target} try its logarithm; " if skewed and skewness > 0 else "")
+        + "otherwise use bootstrap intervals",
         details={
             "jarque_bera": test.statistic,
             "p_value": test.p_value,
@@ -275,7 +276,9 @@ def _series_order(ctx: RunContext, when: np.ndarray) -> tuple[np.ndarray, np.nda
 
 def _autocorrelation(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     column = order_column(ctx)
-    if column is None or not _fit_ready(ctx):
+    if column is None:
+        raise NotApplicable("no time order: name the order column with --order (or include a date column)")
+    if not _fit_ready(ctx):
         return
     design = ctx.design
     residual, bent, _ = _residual_after_bends(ctx)
@@ -396,7 +399,13 @@ RULES = [
         thresholds=(
             ALPHA,
             Threshold("lags", 10, "common practice: min(10, n / 5) lags for Breusch-Godfrey (the statsmodels default)"),
-            Threshold("weakens", 0.1, AUTOCORRELATION_SOURCE, Grade.WEAKENS),
+            Threshold(
+                "weakens",
+                0.1,
+                "common practice: a residual autocorrelation of 0.1 already inflates the variance of a slowly changing "
+                "predictor's slope by (1 + rho) / (1 - rho) = 1.22 (AR(1) error formula at rho = 0.1)",
+                Grade.WEAKENS,
+            ),
             Threshold("misleads", 0.3, AUTOCORRELATION_SOURCE, Grade.MISLEADS),
         ),
         needs=frozenset({"fit", "rows"}),

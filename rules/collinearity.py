@@ -46,12 +46,20 @@ def _coefficient(c: float) -> str:
     return f"{magnitude:.2f}" if 0.01 <= magnitude < 1000 else f"{magnitude:.3g}"
 
 
-def _balanced(relation: Relation, factor: DesignFactor) -> tuple[int, list[tuple[int, float]]]:
-    """Put on the left the column carrying the most weight (a total, not one of its parts); drop negligible terms."""
+def _balanced(relation: Relation, factor: DesignFactor) -> tuple[int, list[tuple[int, float]]] | None:
+    """Put on the left the column carrying the most weight (a total, not one of its parts); drop negligible terms.
+
+    None when a weight overflowed or fewer than two terms carry weight: the relation
+    cannot be written (values beyond double precision, which ``hygiene.non-finite`` reports).
+    """
     vector = {relation.left: 1.0, **{j: -c for j, c in zip(relation.right, relation.coefficients)}}
     weight = {j: abs(v) * factor.scales[j] for j, v in vector.items()}
+    if not all(np.isfinite(w) for w in weight.values()):
+        return None
     top = max(weight.values())
     kept = {j: v for j, v in vector.items() if weight[j] > NEGLIGIBLE * top}
+    if len(kept) < 2:
+        return None
     left = max(kept, key=lambda j: (weight[j], -j))
     right = [(j, -v / kept[left]) for j, v in sorted(kept.items()) if j != left]
     return left, right
@@ -85,7 +93,10 @@ def _exact(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     top = abs(factor.r[0, 0]) or 1.0
     sources = design.column_sources
     for relation in factor.relations():
-        left, right = _balanced(relation, factor)
+        balanced = _balanced(relation, factor)
+        if balanced is None:
+            continue
+        left, right = balanced
         if _only_constant(design, left, right):
             continue
         involved = [left] + [j for j, _ in right]

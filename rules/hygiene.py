@@ -386,7 +386,7 @@ def _scale_disparity(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
         values = design.X[:, design.column_names.index(column)]
         nonzero = np.abs(values[values != 0])
         if nonzero.size:
-            magnitudes[column] = float(np.median(nonzero))
+            magnitudes[column] = float(np.median(nonzero * 0.5) * 2.0)  # halved: the middle pair's mean cannot overflow
     if len(magnitudes) < 2:
         return
     largest = max(magnitudes, key=lambda c: (magnitudes[c], c))

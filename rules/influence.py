@@ -13,7 +13,7 @@ import scipy.stats
 
 from prefit.context import RunContext
 from prefit.design import INTERCEPT
-from prefit.findings import Finding, Grade
+from prefit.findings import Finding, Grade, RowLabel
 from prefit.rule import Rule, RuleSettings, Threshold, fmt
 from prefit.stats.chance import (
     chance_check,
@@ -54,7 +54,7 @@ def _usable(ctx: RunContext) -> bool:
     return ctx.target_is_numeric and fit.rank > 0 and fit.df_resid > 1 and np.isfinite(fit.sigma) and fit.sigma > 0
 
 
-def _listed(ctx: RunContext, rows: np.ndarray, measures: np.ndarray) -> tuple[list, list, int]:
+def _listed(ctx: RunContext, rows: np.ndarray, measures: np.ndarray) -> tuple[list[RowLabel], list[float | None], int]:
     return ctx.listed_rows(ctx.design.positions[rows], measures)
 
 
@@ -241,8 +241,7 @@ def _dfbetas(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     n = design.n
     strong_limit, weak_limit = settings.threshold("misleads"), settings.threshold("weakens")
     weak_cutoff = weak_limit.value / np.sqrt(n)
-    absolute = np.abs(infl.dfbetas)
-    largest = np.nan_to_num(np.fmax.reduce(absolute, axis=1), nan=0.0) if design.p else np.zeros(n)
+    largest = np.nan_to_num(infl.dfbetas_largest, nan=0.0) if design.p else np.zeros(n)
     strong = _crossed(strong_limit, largest)
     screened = largest > weak_cutoff
     dof = fit.df_resid - 1
@@ -256,11 +255,12 @@ def _dfbetas(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         return
     rows = np.flatnonzero(selected)
     names, sources = design.column_names, design.column_sources
-    size = np.nan_to_num(absolute[rows], nan=0.0)
+    chosen = infl.dfbetas_of(rows)
+    size = np.nan_to_num(np.abs(chosen), nan=0.0)
     moved_columns = [j for j in range(design.p) if (size[:, j] > cutoff).any()]
     coefficient_names = [names[j] for j in moved_columns]
     columns = list(dict.fromkeys(sources[j] for j in moved_columns if sources[j] != INTERCEPT))
-    signed = infl.dfbetas[rows, np.argmax(size, axis=1)]
+    signed = chosen[np.arange(rows.size), np.argmax(size, axis=1)]
     labels, values, total = _listed(ctx, rows, signed)
     details = {"coefficients": coefficient_names, "cutoff": cutoff, **chance_details(check)}
     counts = {names[j]: int((size[:, j] > cutoff).sum()) for j in moved_columns}

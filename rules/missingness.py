@@ -17,7 +17,7 @@ from prefit.findings import Finding, Grade
 from prefit.roles import Kind
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.missingness import PatternMoments, little_mcar
-from prefit.stats.sentinels import Sentinel, find_sentinels
+from prefit.stats.sentinels import Sentinel, SentinelLimits, find_sentinels
 from prefit.stats.textnumbers import is_text_type, mostly_number_like, parsed_values
 
 PER_PARAMETER_SOURCE = (
@@ -206,6 +206,13 @@ def _disguised_codes(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
     roles = ctx.roles
     in_design = set(ctx.model_columns)
     candidates = [*ctx.model_columns, *(c for c in roles.left_out if c not in in_design)]
+    limits = SentinelLimits(
+        gap_to_spacing=settings.limit("gap-to-spacing"),
+        code_distance=settings.limit("code-distance"),
+        plain_distance=settings.limit("plain-distance"),
+        repeat_contrast=settings.limit("repeat-contrast"),
+        zero_share=settings.limit("zero-share"),
+    )
     for column in candidates:
         kind = roles.kinds[column]
         table_column = ctx.table.column(column)
@@ -217,7 +224,7 @@ def _disguised_codes(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
             values = parsed_values(table_column)
         else:
             continue
-        sentinels = find_sentinels(values)
+        sentinels = find_sentinels(values, limits)
         if not sentinels and not tokens:
             continue
         yield _codes_finding(ctx, settings, column, kind, values, sentinels, tokens)
@@ -478,6 +485,13 @@ RULES = [
         remedy="declare the codes as missing with missing-codes (config) or --missing-codes (command line)",
         check=_disguised_codes,
         grades=(Grade.MISLEADS, Grade.WEAKENS),
+        thresholds=(
+            Threshold("gap-to-spacing", 10.0, f"{COMMON_PRACTICE}: gap to the rest, in spacings of the rest's edge values"),
+            Threshold("code-distance", 3.0, f"{COMMON_PRACTICE}: robust SDs (Rousseeuw & Croux 1993) from the median for a code-shaped value"),
+            Threshold("plain-distance", 5.0, f"{COMMON_PRACTICE}: robust SDs from the median for a repeated value of any shape"),
+            Threshold("repeat-contrast", 3.0, f"{COMMON_PRACTICE}: times as often as a typical value repeats (a site attribute repeated per day is no code)"),
+            Threshold("zero-share", 0.05, f"{COMMON_PRACTICE}: largest share of rows at zero for zero to count as a code"),
+        ),
     ),
     Rule(
         id="missingness.mcar",

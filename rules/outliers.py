@@ -154,21 +154,23 @@ def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         finite = np.isfinite(values)
         if int(finite.sum()) < MIN_SPREAD_VALUES:
             continue
-        scores, median, mad = modified_z(values)
+        scores, median, mad = modified_z(values, ctx.median_and_mad(column))
         if not np.isfinite(mad) or mad == 0:
             continue
-        size = np.abs(np.nan_to_num(scores, nan=0.0))
+        size = np.abs(scores)
         crossed = size > limit.value
         if not crossed.any():
             continue
-        check = chance_check(crossed[finite], int(finite.sum()) * normal_cross, 2.0 * scipy.stats.norm.sf(np.array([size.max()])))
+        largest = np.nan_to_num(np.fmax.reduce(size))
+        check = chance_check(crossed[finite], int(finite.sum()) * normal_cross, 2.0 * scipy.stats.norm.sf(np.array([largest])))
         if not beyond_chance(settings, check):
             continue
         rows = np.flatnonzero(crossed)
+        size = np.nan_to_num(size[rows])
         ordered = np.sort(values[finite])
         slips = {int(r): s for r in rows if (s := _slip(float(values[r]), median, mad, limit.value, ordered)) is not None}
         labels, row_values, total = ctx.listed_rows(rows, scores[rows])
-        extreme = rows[np.argmax(size[rows])]
+        extreme = rows[np.argmax(size)]
         text = (
             f"{column}: {total:,} value{'' if total == 1 else 's'}{_label_groups(ctx, rows)} with |modified z| above {limit.value:g} (median {fmt(median)}, MAD {fmt(mad)}; "
             f"most extreme {fmt(float(values[extreme]))}, {fmt(float(values[extreme] / median)) if median else 'n/a'}x the median, "
@@ -191,7 +193,7 @@ def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
             rows=labels,
             row_values=row_values,
             row_count=total,
-            value=float(size[rows].max()),
+            value=float(size.max()),
             threshold=limit,
             details={
                 "median": median,
@@ -212,17 +214,27 @@ def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
 
 
 def _robust_columns(ctx: RunContext) -> tuple[tuple[str, ...], np.ndarray, np.ndarray, np.ndarray]:
-    """Numeric predictors over the complete cases without those whose MAD is zero, with each column's median and MAD."""
+    """Numeric predictors over the complete cases without those whose MAD is zero, with each column's median and MAD.
+
+    When every table row is complete the medians and MADs are the shared
+    whole-column ones (:meth:`RunContext.median_and_mad`).
+    """
     design = ctx.design
     names = design.column_names
     chosen = [c for c in ctx.numeric_predictors if c in names]
     if not chosen:
         return (), np.empty((design.n, 0)), np.empty(0), np.empty(0)
-    data = np.asfortranarray(design.X[:, [names.index(c) for c in chosen]])
-    spread = np.array([median_and_mad(data[:, j]) for j in range(data.shape[1])]).reshape(-1, 2)
+    indices = [names.index(c) for c in chosen]
+    consecutive = indices == list(range(indices[0], indices[0] + len(indices)))
+    data = design.X[:, indices[0] : indices[0] + len(indices)] if consecutive else design.X[:, indices]
+    every_row = design.n == design.table_rows
+    spread = np.array(
+        [ctx.median_and_mad(c) if every_row else median_and_mad(data[:, j]) for j, c in enumerate(chosen)]
+    ).reshape(-1, 2)
     median, mad = spread[:, 0], spread[:, 1]
     keep = np.flatnonzero(np.isfinite(mad) & (mad > 0))
-    return tuple(chosen[j] for j in keep), data[:, keep], median[keep], mad[keep]
+    kept = data if keep.size == len(chosen) else data[:, keep]
+    return tuple(chosen[j] for j in keep), kept, median[keep], mad[keep]
 
 
 def _label_groups(ctx: RunContext, positions: np.ndarray) -> str:

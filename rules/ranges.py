@@ -12,7 +12,7 @@ from prefit.context import RunContext
 from prefit.design import Term
 from prefit.findings import Finding, Grade
 from prefit.roles import Kind
-from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt, top_rows
+from prefit.rule import COMMON_PRACTICE, NotApplicable, Rule, RuleSettings, Threshold, fmt, top_rows
 from prefit.scoring import ScoredRows
 
 SE_SOURCE = "Var(b) = sigma^2 / (s_x^2 (n - 1)) for a slope (Montgomery, Peck & Vining 2012, Introduction to Linear Regression Analysis, 5th ed., sec. 2.3)"
@@ -238,7 +238,9 @@ def _looks_like_years(column: np.ndarray) -> bool:
 
 
 def _extrapolation(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
-    if ctx.options.score is None or ctx.design.n == 0:
+    if ctx.options.score is None:
+        raise NotApplicable("no scoring table: give the rows to be predicted with --score")
+    if ctx.design.n == 0:
         return
     scored = ctx.scoring
     if scored is None:

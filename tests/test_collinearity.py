@@ -239,3 +239,18 @@ def test_relief_of_a_categorical_term_matches_its_gvif_without_the_other_term() 
         # reference: Fox & Monette (1992) GVIF on the predictors without the dropped one (numpy.corrcoef, determinants)
         expected = _fox_monette_gvif(frame, rest, "cyl") ** (1 / cyl.df)
         assert_allclose(relief[dropped], expected, rtol=1e-8)
+
+
+def test_a_relation_whose_weights_overflowed_is_left_unwritten() -> None:
+    from prefit.rules.collinearity import _balanced
+    from prefit.stats.factor import Relation
+
+    class Scales:
+        scales = np.array([1.0, 2.0, np.inf])
+
+    # An overflowed column scale (values near the double range) gives no finite weight to balance on:
+    # the relation is not written (hygiene.non-finite reports those values) instead of the rule failing.
+    assert _balanced(Relation(0, (1, 2), (np.nan, np.inf), 0.0), Scales()) is None  # type: ignore[arg-type]
+    assert _balanced(Relation(0, (1,), (0.0,), 0.0), type("Zero", (), {"scales": np.array([0.0, 1.0])})()) is None  # type: ignore[arg-type]
+    # hand arithmetic: a = 2 b, so a's column norm is twice b's; equal weights, the first column goes left
+    assert _balanced(Relation(0, (1,), (2.0,), 0.0), type("Norms", (), {"scales": np.array([2.0, 1.0])})()) == (0, [(1, 2.0)])  # type: ignore[arg-type]

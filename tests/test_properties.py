@@ -11,11 +11,13 @@ import hypothesis.strategies as st
 import jsonschema
 import numpy as np
 import pandas as pd
+import pytest
 from conftest import run_cli
 from hypothesis import HealthCheck, given, settings
 
 SCHEMA = json.loads(resources.files("prefit").joinpath("report/report.schema.json").read_text())
-FLOATS = st.one_of(st.floats(allow_nan=True, allow_infinity=True, width=64), st.floats(-1e6, 1e6), st.none())
+EXTREME = st.sampled_from([1e200, -1e200, 1.7e308, 1e154, 1e-300, 5e-324, -1e-200])
+FLOATS = st.one_of(st.floats(allow_nan=True, allow_infinity=True, width=64), st.floats(-1e6, 1e6), st.none(), EXTREME)
 NAMES = st.text(alphabet=st.characters(blacklist_categories=("Cs", "Cc")), min_size=0, max_size=6)
 
 
@@ -30,7 +32,7 @@ def tables(draw: st.DrawFn) -> pd.DataFrame:
         if kind == "float":
             values: list[object] = draw(st.lists(FLOATS, min_size=rows, max_size=rows))
         elif kind == "int":
-            values = draw(st.lists(st.integers(-1000, 1000), min_size=rows, max_size=rows))
+            values = draw(st.lists(st.one_of(st.integers(-1000, 1000), st.integers(-(2**62), 2**62)), min_size=rows, max_size=rows))
         elif kind == "bool":
             values = draw(st.lists(st.booleans(), min_size=rows, max_size=rows))
         elif kind == "category":
@@ -61,15 +63,17 @@ def _check_twice(path: Path, target: str, *extra: str) -> None:
 
 
 @settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
-@given(frame=tables(), parquet=st.booleans(), target_index=st.integers(0, 7))
-def test_any_small_table(tmp_path: Path, frame: pd.DataFrame, parquet: bool, target_index: int) -> None:
+@given(frame=tables(), parquet=st.booleans(), target_index=st.integers(0, 7), id_index=st.one_of(st.none(), st.integers(0, 7)))
+def test_any_small_table(tmp_path: Path, frame: pd.DataFrame, parquet: bool, target_index: int, id_index: int | None) -> None:
     path = tmp_path / ("t.parquet" if parquet else "t.csv")
     if parquet:
         frame.to_parquet(path, index=False)
     else:
         frame.to_csv(path, index=False)
-    target = list(frame.columns)[target_index % frame.shape[1]]
-    _check_twice(path, target)
+    names = list(frame.columns)
+    target = names[target_index % len(names)]
+    labels = () if id_index is None or names[id_index % len(names)] == target else ("--id", names[id_index % len(names)])
+    _check_twice(path, target, *labels)
 
 
 @settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
@@ -80,3 +84,33 @@ def test_more_columns_than_rows(tmp_path: Path, rows: int, width: int, seed: int
     path = tmp_path / "wide.csv"
     frame.to_csv(path, index=False)
     _check_twice(path, "x0")
+
+
+@pytest.mark.parametrize("scale", [1e150, 1e200, 1e300, 1e-160, 1e-300])
+@pytest.mark.parametrize("rows", [4, 5, 30])
+def test_extreme_magnitudes_never_break_a_rule(tmp_path: Path, scale: float, rows: int) -> None:
+    rng = np.random.default_rng(rows)
+    x = rng.normal(size=rows) * scale
+    frame = pd.DataFrame({"y": 3 * x + rng.standard_t(2, size=rows) * scale, "x": x, "z": rng.normal(size=rows), "w": [1e200] * rows})
+    path = tmp_path / "extreme.csv"
+    frame.to_csv(path, index=False)
+    _check_twice(path, "y")
+    assert "engine.rule-error" not in run_cli("check", path, "--target", "y", "--format", "json").rules()
+
+
+def test_integers_beyond_double_precision_are_read_as_numbers(tmp_path: Path) -> None:
+    path = tmp_path / "big.csv"
+    pd.DataFrame({"y": [1.0, 2.5, 2.0, 4.5, 5.0, 6.5], "n": [1, 2**62, 3, -(2**61), 5, 2**53 + 1]}).to_csv(path, index=False)
+    _check_twice(path, "y")
+
+
+def test_a_column_whose_norm_exceeds_the_double_range_breaks_no_rule(tmp_path: Path) -> None:
+    rng = np.random.default_rng(7)
+    rows = 120
+    frame = pd.DataFrame({"y": rng.normal(size=rows), "x": rng.normal(size=rows), "huge": rng.uniform(0.5, 1.0, rows) * 1.7e308})
+    frame["twin"] = frame["huge"]
+    path = tmp_path / "huge.csv"
+    frame.to_csv(path, index=False)
+    _check_twice(path, "y")
+    rules = run_cli("check", path, "--target", "y", "--format", "json").rules()
+    assert "engine.rule-error" not in rules and "hygiene.non-finite" in rules

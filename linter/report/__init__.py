@@ -24,7 +24,7 @@ __all__ = ["FORMATS", "ReportWriter", "RunFacts", "WriterSettings", "register_fo
 def _lazy(module: str, name: str) -> WriterFactory:
     def factory(settings: WriterSettings) -> ReportWriter:
         writer_class = getattr(importlib.import_module(f"{__name__}.{module}"), name)
-        return writer_class(settings)  # type: ignore[no-any-return]
+        return writer_class(settings)
 
     return factory
 

@@ -86,3 +86,17 @@ def drive(writer: ReportWriter, reports: Sequence["Report"]) -> str:
             writer.finding(finding)
         writer.end_table(report)
     return writer.end_run()
+
+
+def row_groups(finding: Finding, limit: int) -> tuple[list[str], int]:
+    """The first ``limit`` distinct labels of the rows a finding lists, and how many named rows are not shown.
+
+    A label repeated on several rows (an id shared by several rows) is shown
+    once with its count, as ``CS-002 (12 rows)``.
+    """
+    counts: dict[str, int] = {}
+    for label in finding.rows:
+        counts[str(label)] = counts.get(str(label), 0) + 1
+    shown = list(counts.items())[:limit]
+    items = [label if n == 1 else f"{label} ({n} rows)" for label, n in shown]
+    return items, finding.row_count - sum(n for _, n in shown)

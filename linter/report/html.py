@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING, Any
 
 from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, count_by_grade
 from ..rule import fmt
-from .base import ReportWriter, RunFacts
+from .base import ReportWriter, RunFacts, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -68,6 +68,16 @@ def _verdict(report: "Report") -> tuple[str, str]:
     return "ready", f"ready at gate {report.gate.word}"
 
 
+def _label_source(report: "Report") -> str:
+    """The id column, and whether its labels name single rows."""
+    name, values = report.design.get("id"), report.design.get("id_values")
+    if not name:
+        return "data row numbers"
+    if values is None or values >= report.info.rows:
+        return name
+    return f"{name} (not unique: {values:,} values for {report.info.rows:,} rows)"
+
+
 def _facts(report: "Report") -> str:
     pairs = [
         ("table", report.info.path),
@@ -75,7 +85,7 @@ def _facts(report: "Report") -> str:
         ("rows", f"{report.info.rows:,}"),
         ("columns", f"{report.info.columns:,}"),
         ("target", report.target),
-        ("row labels", report.design.get("id") or "data row numbers"),
+        ("row labels", _label_source(report)),
         ("parameters", f"{report.parameters:,}"),
         ("complete cases", f"{report.complete_cases:,}"),
         ("gate", report.gate.word),
@@ -117,9 +127,9 @@ def _finding(finding: Finding, why: str) -> str:
     parts.append(f'<div><span class="tag grade-{finding.grade.word}">{esc(finding.grade.word)}</span> <span class="rule">{esc(finding.rule)}</span>{columns}</div>')
     parts.append(f"<p>{esc(finding.message)}</p>")
     if finding.rows:
-        shown = ", ".join(str(r) for r in finding.rows[:LISTED_ROWS])
-        more = finding.row_count - min(len(finding.rows), LISTED_ROWS)
-        parts.append(f'<p><span class="label">rows:</span> {esc(shown)}{esc(f" (+{more} more)") if more > 0 else ""}</p>')
+        items, more = row_groups(finding, LISTED_ROWS)
+        shown = ", ".join(items)
+        parts.append(f'<p><span class="label">rows:</span> {esc(shown)}{esc(f" and {more:,} more rows") if more > 0 else ""}</p>')
     if finding.value is not None or finding.threshold is not None:
         measured = fmt(finding.value) if finding.value is not None else "-"
         limit = fmt(finding.threshold) if finding.threshold is not None else "-"

@@ -3,7 +3,8 @@
 A finding at or above the gate is a failure of its rule's test case (its
 message is the strongest finding's message; the body lists every such
 finding with its remedy); findings below the gate go to the test case's
-output; a rule that raised is skipped with the error as the reason.
+output; a rule that raised is skipped with the error as the reason, and so is a rule that did not apply
+(no scoring table, no time order, no fit), with why.
 """
 
 from __future__ import annotations
@@ -67,6 +68,10 @@ class JunitWriter(ReportWriter):
             if outcome.error is not None:
                 counts["skipped"] += 1
                 ET.SubElement(case, "skipped", {"message": xml_text(f"rule could not run: {outcome.error}")})
+                continue
+            if outcome.not_applicable is not None:
+                counts["skipped"] += 1
+                ET.SubElement(case, "skipped", {"message": xml_text(f"not applicable: {outcome.not_applicable}")})
                 continue
             findings = [f for f in self.by_rule.get(outcome.rule, []) if f.rule != RULE_ERROR]
             gated = [f for f in findings if f.grade >= report.gate]

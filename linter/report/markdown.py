@@ -13,7 +13,7 @@ import re
 from typing import TYPE_CHECKING
 
 from ..findings import GRADES_STRONGEST_FIRST, Finding, count_by_grade
-from .base import ReportWriter, RunFacts
+from .base import ReportWriter, RunFacts, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -40,9 +40,10 @@ def _verdict(report: "Report") -> str:
 def _rows(finding: Finding) -> str:
     if not finding.rows:
         return ""
-    shown = ", ".join(md_text(str(r)) for r in finding.rows[:LISTED_ROWS])
-    more = finding.row_count - min(len(finding.rows), LISTED_ROWS)
-    return f" Rows: {shown}" + (f" (+{more} more)" if more > 0 else "") + "."
+    items, more = row_groups(finding, LISTED_ROWS)
+    shown = ", ".join(md_text(item) for item in items)
+    stop = "" if finding.message.rstrip().endswith((".", ";", ":")) else "."
+    return f"{stop} Rows: {shown}" + (f" and {more:,} more rows" if more > 0 else "") + "."
 
 
 class MarkdownWriter(ReportWriter):

@@ -150,14 +150,14 @@ def influence(report: "Report", key: str = "influence") -> Plot | None:
     if flagged.size:
         axes.scatter(hat[flagged], studentized[flagged], s=22, color=COLOURS["flagged"], linewidths=0, label="rows named by influence or outlier findings")
     h_max = float(np.max(hat[finite]))
-    grid = np.linspace(max(1e-4, float(np.min(hat[finite])) * 0.9), min(0.999, max(h_max * 1.05, 0.05)), 200)
+    grid = np.linspace(max(1e-4, float(np.min(hat[finite])) * 0.9), min(0.999, max(h_max * 1.15, 3.0 * rank / n)), 200)
     r_lim = max(3.0, float(np.nanmax(np.abs(studentized[finite]))) * 1.1)
     contours_drawn = 0
     for level, style in zip(COOK_CONTOURS, ("--", ":")):
         bound = cook_contour(grid, level, rank, df_resid)
         keep = np.isfinite(bound) & (bound <= r_lim * 1.05)
         contours_drawn += int(keep.any())
-        axes.plot(grid[keep], bound[keep], style, color=COLOURS["contour"], linewidth=1, label=f"Cook's distance {level:g}")
+        axes.plot(grid[keep], bound[keep], style, color=COLOURS["contour"], linewidth=1, label=f"Cook's distance {level:g}" if keep.any() else None)
         axes.plot(grid[keep], -bound[keep], style, color=COLOURS["contour"], linewidth=1)
     axes.axhline(0.0, color="#999999", linewidth=0.6)
     labelled: dict[str, int] = {}
@@ -176,7 +176,8 @@ def influence(report: "Report", key: str = "influence") -> Plot | None:
     caption = (
         f"Each point is a complete case ({n:,}); dashed and dotted curves are Cook's distance "
         f"{COOK_CONTOURS[0]:g} and {COOK_CONTOURS[1]:g} for {rank} parameters. Labelled: rows named by influence or outlier findings "
-        f"(or, when none are, rows beyond the first contour); {len(labelled)} labels, each at the row of that label with the largest Cook's distance."
+        f"(or, when none are, rows beyond the first contour); "
+        + (f"{len(labelled)} label(s), each at the row of that label with the largest Cook's distance." if labelled else "no row qualifies.")
         + ("" if contours_drawn else " Both contours lie beyond the plotted range: no row comes near them.")
         + sampled
     )
@@ -222,13 +223,14 @@ def missingness(report: "Report", key: str = "missingness") -> Plot | None:
     return Plot(key, "Missing values", _svg(figure, key), caption)
 
 
-def _vif_lines(report: "Report") -> list[tuple[float, str]]:
+def _vif_lines(report: "Report") -> tuple[list[tuple[float, str]], str]:
+    """The VIF reference lines (value, grade word) and where their sources are told."""
     for rule in report.rules:
         if rule.id.split(".", 1)[-1] == "vif":
-            graded = [(t.value, f"{t.grade.word} ({t.source})") for t in rule.thresholds if t.grade is not None]
+            graded = [(t.value, t.grade.word) for t in rule.thresholds if t.grade is not None]
             if graded:
-                return sorted(graded)
-    return [(value, source) for value, source in VIF_LINES]
+                return sorted(graded), f"the thresholds of {rule.id} (prefit why {rule.id} gives their sources)"
+    return [(value, "reference") for value, _ in VIF_LINES], "common practice"
 
 
 def collinearity(report: "Report", key: str = "collinearity") -> Plot | None:
@@ -249,7 +251,7 @@ def collinearity(report: "Report", key: str = "collinearity") -> Plot | None:
         return None
     correlation = shared.correlation[:shown, :shown]
     vif = np.concatenate([np.asarray(shared.vif[:shown], dtype=float), np.full(len(names) - shown, np.inf)])
-    lines = _vif_lines(report)
+    lines, lines_source = _vif_lines(report)
     figure = _figure(min(8.0 + 0.45 * len(names), 14.0), min(3.2 + 0.3 * len(names), 9.5))
     left, right = figure.subplots(1, 2, gridspec_kw={"width_ratios": [1.2, 1.0]})
     image = left.imshow(correlation, cmap="RdBu_r", vmin=-1, vmax=1)
@@ -268,21 +270,31 @@ def collinearity(report: "Report", key: str = "collinearity") -> Plot | None:
     bars = right.barh(positions, heights, color=[COLOURS["flagged"] if not np.isfinite(v) or v >= lines[0][0] else COLOURS["point"] for v in vif])
     for bar, value in zip(bars, vif):
         right.text(bar.get_width(), bar.get_y() + bar.get_height() / 2, " inf" if not np.isfinite(value) else f" {value:.1f}", va="center", fontsize=7)
-    for (value, _), style in zip(lines, ("--", ":", "-.")):
-        right.axvline(value, linestyle=style, color=COLOURS["contour"], linewidth=1)
+    for (value, word), style in zip(lines, ("--", ":", "-.")):
+        right.axvline(value, linestyle=style, color=COLOURS["contour"], linewidth=1, label=f"{word} at {value:g}")
+    right.legend(loc="upper center", bbox_to_anchor=(0.5, -0.12), ncol=len(lines), fontsize=7, frameon=False)
+    right.set_xlabel("VIF", fontsize=8)
     right.set_yticks(positions, labels, fontsize=7)
     right.invert_yaxis()
     right.set_xlim(0, top * 1.1)
     right.set_title("variance inflation factor", fontsize=9)
     caption = (
         "Pearson correlations among the design's predictor columns over the complete cases, and each one's VIF "
-        "(the diagonal of the inverse correlation matrix). Lines at "
-        + ", ".join(f"{value:g} ({source})" for value, source in lines)
-        + "."
+        "(the diagonal of the inverse correlation matrix). "
+        + " and ".join(f"{style} line at {value:g} ({word})" for (value, word), style in zip(lines, ("Dashed", "dotted", "dash-dotted")))
+        + f": {lines_source}."
         + (f" {len(exact)} column(s) in an exact dependency, left out of the correlations (infinite VIF)." if exact else "")
         + ("" if len(names) == len(kept) + len(exact) else f" First {len(names)} of {len(kept) + len(exact)} columns.")
     )
     return Plot(key, "Correlation and variance inflation", _svg(figure, key), caption)
+
+
+def _end(value: float) -> str:
+    """A range end for a label: up to 4 significant digits, without trailing zeros."""
+    text = fmt(value, 4)
+    if "." in text and "e" not in text:
+        text = text.rstrip("0").rstrip(".")
+    return text
 
 
 def ranges(report: "Report", key: str = "ranges") -> Plot | None:
@@ -317,9 +329,13 @@ def ranges(report: "Report", key: str = "ranges") -> Plot | None:
             axes.barh(row, scaled(window[1]) - scaled(window[0]), left=scaled(window[0]), height=0.7, color=COLOURS["intended"], edgecolor="#5f8f5f")
         axes.plot([scaled(low), scaled(high)], [row, row], color=COLOURS["observed"], linewidth=1.2)
         axes.plot([scaled(inner[0]), scaled(inner[1])], [row, row], color=COLOURS["observed"], linewidth=4.5, solid_capstyle="butt")
-        axes.text(-0.03, row, fmt(low, 4), ha="right", va="center", fontsize=7)
-        axes.text(1.03, row, fmt(high, 4), ha="left", va="center", fontsize=7)
-    tick_labels = [_plain(n if n not in intended else f"{n} (intended {fmt(intended[n][0], 4)} to {fmt(intended[n][1], 4)})") for n in names]
+        if window is None or (low <= window[0] and high >= window[1]):
+            axes.text(-0.03, row, _end(low), ha="right", va="center", fontsize=7)
+            axes.text(1.03, row, _end(high), ha="left", va="center", fontsize=7)
+        else:
+            middle = min(max(scaled((low + high) / 2), 0.15), 0.85)
+            axes.text(middle, row - 0.4, f"observed {_end(low)} to {_end(high)}", ha="center", va="bottom", fontsize=7)
+    tick_labels = [_plain(n if n not in intended else f"{n} (intended {_end(intended[n][0])} to {_end(intended[n][1])})") for n in names]
     axes.set_yticks(range(len(names)), tick_labels, fontsize=7)
     axes.invert_yaxis()
     axes.set_xlim(-0.25, 1.25)

@@ -4,7 +4,8 @@ Grades map to levels: blocks and misleads are errors, weakens a warning,
 note a note. The table is the artifact, its columns are logical locations,
 and in text tables (CSV, JSON Lines) the rows a finding names are line
 regions: data row k of a CSV with a header is line k + 1, assuming one line
-per record.
+per record. A label that names several rows (an id value repeated on several
+rows) gets no region, as no single line stands for it.
 
 References
 ----------
@@ -103,7 +104,7 @@ class SarifWriter(ReportWriter):
             return None
         if self.digester is not None:
             positions = self.digester.positions([label])
-            return positions[0] + 1 + header if positions else None
+            return positions[0] + 1 + header if len(positions) == 1 else None
         return label + header if isinstance(label, int) and label >= 1 else None
 
     def _location(self, finding: Finding, label: Any | None, with_columns: bool) -> dict[str, Any]:

@@ -5,8 +5,9 @@ from __future__ import annotations
 import io
 from typing import TYPE_CHECKING
 
-from rich.console import Console
+from rich.console import Console, RenderableType
 from rich.padding import Padding
+from rich.table import Table
 from rich.text import Text
 from rich.theme import Theme
 
@@ -17,7 +18,7 @@ from ..findings import (
     Grade,
     count_by_grade,
 )
-from .base import ReportWriter, RunFacts
+from .base import ReportWriter, RunFacts, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -70,36 +71,56 @@ def _design_line(report: "Report") -> Text:
             parts.append(f"{term['column']} ({term['parameters']} dummies, reference {term['reference']!r})")
         elif term["kind"] in ("categorical", "boolean"):
             parts.append(f"{term['column']} (no complete rows)")
-    line = Text("design ", style="facts.label")
+    line = Text()
+    line.append("design ", style="facts.label")
     line.append(" + ".join(parts) or "empty")
     left_out = report.design.get("left_out", {})
     if report.design.get("id"):
-        line.append(f"; row labels from {report.design['id']!r}")
+        line.append(f"; row labels from {report.design['id']!r}{_shared_labels(report)}")
     if left_out:
         line.append("; left out: " + ", ".join(left_out))
     return line
 
 
+def _shared_labels(report: "Report") -> str:
+    """Why a label may name several rows: the id column has fewer distinct values than the table has rows."""
+    values = report.design.get("id_values")
+    if values is None or values >= report.info.rows:
+        return ""
+    return f" (not unique: {values:,} values for {report.info.rows:,} rows, so a label names every row carrying it)"
+
+
 INDENT_HEAD, INDENT_BODY = 2, 5
+SHORT_TEXT = 48
 
 
-def _finding_lines(finding: Finding, explain: str | None) -> list[tuple[int, Text]]:
-    head = Text()
-    head.append(f"{MARKERS[finding.grade]} ", style=f"grade.{finding.grade.word}")
-    head.append(finding.rule, style="finding.rule")
+def _once(label: str, text: str, told: set[tuple[str, str]]) -> str:
+    """``label: text`` the first time a table's report tells it, ``label: as above`` after that (for long texts)."""
+    if (label, text) in told and len(text) > SHORT_TEXT:
+        return f"{label}: as above"
+    told.add((label, text))
+    return f"{label}: {text}"
+
+
+def _finding_lines(finding: Finding, explain: str | None, told: set[tuple[str, str]]) -> list[tuple[int, RenderableType]]:
+    title = Text(finding.rule, style="finding.rule")
     if finding.columns:
-        head.append("  " + ", ".join(finding.columns), style="finding.columns")
-    lines: list[tuple[int, Text]] = [(INDENT_HEAD, head), (INDENT_BODY, Text(finding.message))]
+        title.append("  " + ", ".join(finding.columns), style="finding.columns")
+    head = Table.grid(padding=(0, 1))
+    head.add_column(no_wrap=True)
+    head.add_column()
+    head.add_row(Text(MARKERS[finding.grade], style=f"grade.{finding.grade.word}"), title)
+    lines: list[tuple[int, RenderableType]] = [(INDENT_HEAD, head), (INDENT_BODY, Text(finding.message))]
     if finding.rows:
-        shown = ", ".join(str(r) for r in finding.rows[:10])
-        more = finding.row_count - min(len(finding.rows), 10)
-        lines.append((INDENT_BODY, Text(f"rows: {shown}" + (f" (+{more} more)" if more > 0 else ""), style="facts.label")))
+        items, more = row_groups(finding, 10)
+        shown = ", ".join(items)
+        lines.append((INDENT_BODY, Text(f"rows: {shown}" + (f" and {more:,} more rows" if more > 0 else ""), style="facts.label")))
     if explain:
-        lines.append((INDENT_BODY, Text("why: " + explain, style="finding.why")))
+        lines.append((INDENT_BODY, Text(_once("why", explain, told), style="finding.why")))
     if finding.remedy:
         lines.append((INDENT_BODY, Text("fix: " + finding.remedy, style="finding.remedy")))
     if finding.source:
-        lines.append((INDENT_BODY, Text("threshold source: " + finding.source, style="facts.label")))
+        lines.append((INDENT_BODY, Text(_once("threshold source", finding.source, told), style="facts.label")))
     return lines
 
 
@@ -120,16 +141,22 @@ def render_terminal(report: "Report", colour: bool, width: int | None = None, ex
     console.print(Padding(_facts(report), (0, 0, 0, INDENT_HEAD)))
     console.print(Padding(_design_line(report), (0, 0, 0, INDENT_HEAD)))
     counts = count_by_grade(report.findings)
+    told: set[tuple[str, str]] = set()
     for grade in GRADES_STRONGEST_FIRST:
         group = [f for f in report.findings if f.grade is grade]
         if not group:
             continue
         console.print()
-        heading = Text(f" {grade.word.upper()} ", style=f"grade.{grade.word}")
-        heading.append(f" {len(group)}  ({GRADE_MEANINGS[grade]})", style="facts.label")
+        heading = Table.grid(padding=(0, 1))
+        heading.add_column(no_wrap=True)
+        heading.add_column()
+        heading.add_row(
+            Text(f" {grade.word.upper()} ", style=f"grade.{grade.word}"),
+            Text(f"{len(group)}  ({GRADE_MEANINGS[grade]})", style="facts.label"),
+        )
         console.print(heading)
         for finding in group:
-            for indent, line in _finding_lines(finding, (explain or {}).get(finding.rule)):
+            for indent, line in _finding_lines(finding, (explain or {}).get(finding.rule), told):
                 console.print(Padding(line, (0, 0, 0, indent)))
     console.print()
     summary = ", ".join(f"{n} {word}" for word, n in counts.items())

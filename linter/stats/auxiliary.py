@@ -142,6 +142,17 @@ def _as_added(Z: np.ndarray | AddedColumns, n: int) -> AddedColumns:
     return Z if isinstance(Z, AddedColumns) else AddedColumns.of(np.asarray(Z, dtype=np.float64).reshape(n, -1))
 
 
+def _leading_independent(diagonal: np.ndarray) -> int:
+    """How many leading pivots of a column-pivoted R stand clear of dependence.
+
+    Pivots decrease in size, so the independent columns come first; counting
+    only the leading run keeps an overflowed (NaN or infinite) pivot from
+    letting a zero one through.
+    """
+    clear = np.abs(diagonal) > DEPENDENT_SHARE
+    return int(diagonal.size if clear.all() else np.argmin(clear))
+
+
 def regress_added(factor: DesignFactor, X: np.ndarray, v: np.ndarray, Z: np.ndarray | AddedColumns) -> AddedFit:
     """Regress ``v`` on ``[X | Z]`` using the R factor of ``X``; ``Z`` may have zero columns.
 
@@ -168,7 +179,7 @@ def regress_added(factor: DesignFactor, X: np.ndarray, v: np.ndarray, Z: np.ndar
         return AddedFit(rss_base, rss_base, factor.rank, 0, coef, n, 0.0, _column(rest, batches, 0, np.zeros(0)))
     q2, r2, perm = scipy.linalg.qr(merged.r[:m, :m], pivoting=True, check_finite=False)
     qty = q2.T @ merged.r[:m, m]
-    kept = int(np.sum(np.abs(np.diag(r2)) > DEPENDENT_SHARE))
+    kept = _leading_independent(np.diag(r2))
     rss = float(merged.r[m, m] ** 2 + np.sum(qty[kept:] ** 2))
     on_unit = np.zeros(m)
     if kept:

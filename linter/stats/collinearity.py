@@ -50,7 +50,8 @@ def dependent_columns(factor: DesignFactor, names: tuple[str, ...]) -> tuple[int
         if not candidates:
             break
         chosen.append(candidates[0])
-    if len(chosen) == len(relations) and np.linalg.matrix_rank(vectors[:, chosen]) == len(relations):
+    usable = bool(np.all(np.isfinite(vectors[:, chosen]))) if chosen else False
+    if usable and len(chosen) == len(relations) and np.linalg.matrix_rank(vectors[:, chosen]) == len(relations):
         return tuple(sorted(chosen))
     return tuple(sorted(int(j) for j in factor.perm[factor.rank :]))
 
@@ -297,8 +298,17 @@ class Collinearity:
         """2-norm condition number of the kept design in its own units (not scaled)."""
         if self.r_scaled.size == 0:
             return 1.0
-        s = scipy.linalg.svdvals(self.r_scaled * self.scales[None, :], check_finite=False)
+        raw = self._raw_factor()
+        if raw is None:
+            return float("nan")
+        s = scipy.linalg.svdvals(raw, check_finite=False)
         return float(s[0] / s[-1]) if s[-1] > 0 else float("inf")
+
+    def _raw_factor(self) -> np.ndarray | None:
+        """The R factor in the columns' own units; None when a column's magnitude overflows it (NaN results)."""
+        with np.errstate(over="ignore", invalid="ignore"):
+            raw = self.r_scaled * self.scales[None, :]
+        return raw if np.all(np.isfinite(raw)) else None
 
     def raw_dependency(self) -> NearDependency:
         """The raw (unscaled) design's worst direction: its condition number and every column's variance proportion.
@@ -310,7 +320,10 @@ class Collinearity:
         names = self.column_names()
         if self.r_scaled.size == 0:
             return NearDependency(1.0, ())
-        _, s, vt = scipy.linalg.svd(self.r_scaled * self.scales[None, :], check_finite=False)
+        raw = self._raw_factor()
+        if raw is None:
+            return NearDependency(float("nan"), tuple((name, float("nan")) for name in names))
+        _, s, vt = scipy.linalg.svd(raw, check_finite=False)
         if s[-1] <= 0:
             return NearDependency(float("inf"), tuple((name, float("nan")) for name in names))
         phi = (vt.T / s[None, :]) ** 2

@@ -29,7 +29,8 @@ def column_scales(X: np.ndarray, batch_rows: int = BATCH_ROWS) -> np.ndarray:
 
     Sums of squares are taken directly when that neither overflows nor underflows; otherwise each
     column is divided by its largest magnitude before squaring, so values up to the largest double
-    do not overflow. Rows are taken ``batch_rows`` at a time, so no temporary is as large as ``X``.
+    do not overflow (a column whose norm itself exceeds the double range is scaled by its largest
+    magnitude instead). Rows are taken ``batch_rows`` at a time, so no temporary is as large as ``X``.
     """
     if not X.size:
         return np.ones(X.shape[1])
@@ -41,7 +42,10 @@ def column_scales(X: np.ndarray, batch_rows: int = BATCH_ROWS) -> np.ndarray:
         for start in range(0, X.shape[0], batch_rows):
             largest = np.maximum(largest, np.max(np.abs(X[start : start + batch_rows]), axis=0))
         largest = np.where(largest > 0, largest, 1.0)
-        norms = largest * np.sqrt(_sum_of_squares(X, largest, batch_rows))
+        with np.errstate(over="ignore"):
+            norms = largest * np.sqrt(_sum_of_squares(X, largest, batch_rows))
+        # A norm beyond the largest double: the largest magnitude still scales the column into [-1, 1].
+        norms = np.where(np.isfinite(norms), norms, largest)
     return np.where(norms > 0, norms, 1.0)
 
 
@@ -129,7 +133,9 @@ class DesignFactor:
         """Numerical rank of the design."""
         if self.p == 0 or self.n == 0:
             return 0
-        return int(np.sum(np.abs(np.diag(self.r)) > self.tolerance))
+        # Pivots decrease in size: count the leading run, so a NaN pivot (overflow) cannot admit a zero one.
+        clear = np.abs(np.diag(self.r)) > self.tolerance
+        return int(clear.size if clear.all() else np.argmin(clear))
 
     @cached_property
     def singular_values_scaled(self) -> np.ndarray:

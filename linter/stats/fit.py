@@ -9,7 +9,10 @@ import numpy as np
 import scipy.linalg
 
 from .accuracy import Digits, Refined, perturbation_digits, refine
+from .blas import one_blas_thread
 from .factor import DesignFactor
+
+SCORE_ROWS = 8_192
 
 
 @dataclass(frozen=True)
@@ -152,14 +155,36 @@ class PreliminaryFit:
             return float("nan")
         return 1.0 - (1.0 - self.r_squared) * dof_total / self.df_resid
 
-    def score_rows(self, X: np.ndarray, y: np.ndarray) -> RowScores:
-        """Leverage h_ii = ||R^-T x_i||^2 and residuals for a batch of complete rows (O(rows p^2))."""
+    @cached_property
+    def leverage_map(self) -> np.ndarray:
+        """``M`` (p x rank) with ``h_ii = ||x_i M||^2`` for a design row ``x_i`` in design units.
+
+        Row ``perm[j]`` of ``M`` is row ``j`` of ``R11^-1`` divided by that
+        column's scale; rows of columns the design cannot estimate are zero.
+        ``x_i M`` is ``R11^-T`` applied to the scaled estimable part of ``x_i``.
+        """
         f, k = self.factor, self.rank
-        coef = np.nan_to_num(self.coef)
-        residual = y - X @ coef
+        out = np.zeros((f.p, k))
+        if k:
+            cols = f.perm[:k]
+            out[cols] = self._r11_inverse / f.scales[cols][:, None]
+        return out
+
+    def score_rows(self, X: np.ndarray, y: np.ndarray) -> RowScores:
+        """Leverage h_ii = ||R^-T x_i||^2 and residuals for a batch of complete rows (O(rows p^2)).
+
+        Rows are taken ``SCORE_ROWS`` at a time: one matrix product with
+        :attr:`leverage_map` and a row sum of squares per block, so no
+        temporary is larger than a block.
+        """
+        rows, k = len(y), self.rank
+        residual = np.asarray(y, dtype=np.float64) - X @ np.nan_to_num(self.coef)
+        hat = np.zeros(rows)
         if not k:
-            return RowScores(np.zeros(len(y)), residual)
-        cols = f.perm[:k]
-        scaled = X[:, cols] / f.scales[cols]
-        w = scipy.linalg.solve_triangular(f.r[:k, :k], scaled.T, trans="T", check_finite=False)
-        return RowScores(np.einsum("ij,ij->j", w, w), residual)
+            return RowScores(hat, residual)
+        leverage_map = self.leverage_map
+        with one_blas_thread():
+            for start in range(0, rows, SCORE_ROWS):
+                w = X[start : start + SCORE_ROWS] @ leverage_map
+                np.einsum("ij,ij->i", w, w, out=hat[start : start + SCORE_ROWS])
+        return RowScores(hat, residual)

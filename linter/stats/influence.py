@@ -14,12 +14,52 @@ Chatterjee, S., Hadi, A. S. (1988). Sensitivity Analysis in Linear Regression. W
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 import scipy.linalg
 
+from .blas import one_blas_thread
 from .fit import PreliminaryFit, RowScores
+
+INFLUENCE_ROWS = 8_192
+
+
+@dataclass(frozen=True)
+class DfbetasTerms:
+    """What DFBETAS of any row are made of: ``t_i c_ij / (sqrt(c_jj) sqrt(1 - h_i))`` with ``c_i = (X'X)^-1 x_i``.
+
+    ``columns`` is ``(X'X)^-1`` with each column divided by ``sqrt(c_jj)``
+    (zero where the design cannot estimate the coefficient), so that a row's
+    DFBETAS are one product ``x_i columns`` scaled by the row's own terms.
+    """
+
+    X: np.ndarray = field(repr=False)
+    columns: np.ndarray
+    root_remaining: np.ndarray = field(repr=False)
+    studentized: np.ndarray = field(repr=False)
+    estimable: np.ndarray
+    undefined: np.ndarray = field(repr=False)
+
+    def unit(self, rows: np.ndarray | slice) -> np.ndarray:
+        """``c_ij / (sqrt(c_jj) sqrt(1 - h_i))`` of the chosen rows before the studentized residual, transposed (p x rows).
+
+        Coefficients run down the first axis so that a maximum over them is an
+        elementwise pass over whole rows of the block.
+        """
+        with np.errstate(divide="ignore", invalid="ignore"):
+            unit = self.columns.T @ self.X[rows].T
+            unit /= self.root_remaining[rows]
+        return unit
+
+    def finish(self, unit: np.ndarray, rows: np.ndarray | slice) -> np.ndarray:
+        """Turn :meth:`unit` of the chosen rows into transposed DFBETAS in place (NaN where undefined)."""
+        with np.errstate(invalid="ignore"):
+            unit *= self.studentized[rows]
+        unit[~self.estimable] = np.nan
+        unit[:, self.undefined[rows]] = np.nan
+        return unit
 
 
 @dataclass(frozen=True)
@@ -28,12 +68,14 @@ class RowInfluence:
 
     ``studentized`` is the externally studentized residual
     ``e_i / (s_(i) sqrt(1 - h_i))``; ``cooks`` is Cook's distance with the
-    rank of the design as the number of parameters; ``dfbetas`` (rows x p) is
-    the change of each coefficient when the row is deleted, in units of the
-    deleted-row standard error (NaN for coefficients the design cannot
-    estimate); ``dfbetas_reach`` is ``max_j |dfbetas_ij| / |studentized_i|``,
-    the factor that turns a row's studentized residual into its largest
-    DFBETAS, needed for the chance of crossing a DFBETAS cutoff.
+    rank of the design as the number of parameters; :attr:`dfbetas` (rows x p)
+    is the change of each coefficient when the row is deleted, in units of
+    the deleted-row standard error (NaN for coefficients the design cannot
+    estimate), built on demand (:meth:`dfbetas_of` gives chosen rows only);
+    ``dfbetas_largest`` is ``max_j |dfbetas_ij|`` of each row;
+    ``dfbetas_reach`` is ``max_j |dfbetas_ij| / |studentized_i|``, the factor
+    that turns a row's studentized residual into its largest DFBETAS, needed
+    for the chance of crossing a DFBETAS cutoff.
     """
 
     hat: np.ndarray
@@ -41,8 +83,25 @@ class RowInfluence:
     studentized: np.ndarray
     cooks: np.ndarray
     dffits: np.ndarray
-    dfbetas: np.ndarray
+    dfbetas_largest: np.ndarray
     dfbetas_reach: np.ndarray
+    terms: DfbetasTerms = field(repr=False, compare=False)
+
+    def dfbetas_of(self, rows: np.ndarray) -> np.ndarray:
+        """DFBETAS of the chosen rows (len(rows) x p)."""
+        rows = np.asarray(rows, dtype=np.int64)
+        return self.terms.finish(self.terms.unit(rows), rows).T
+
+    @cached_property
+    def dfbetas(self) -> np.ndarray:
+        """DFBETAS of every row (rows x p), built ``INFLUENCE_ROWS`` rows at a time on first use."""
+        rows = len(self.hat)
+        out = np.empty((rows, self.terms.columns.shape[1]))
+        with one_blas_thread():
+            for start in range(0, rows, INFLUENCE_ROWS):
+                block = slice(start, start + INFLUENCE_ROWS)
+                out[block] = self.terms.finish(self.terms.unit(block), block).T
+        return out
 
 
 def _sensitivities(fit: PreliminaryFit, X: np.ndarray) -> np.ndarray:
@@ -55,6 +114,32 @@ def _sensitivities(fit: PreliminaryFit, X: np.ndarray) -> np.ndarray:
     out = X @ np.where(np.isfinite(cov), cov, 0.0)
     out[:, ~estimable] = np.nan
     return out
+
+
+def _dfbetas_terms(fit: PreliminaryFit, X: np.ndarray, root_remaining: np.ndarray, studentized: np.ndarray, undefined: np.ndarray) -> DfbetasTerms:
+    cov = fit.cov_unscaled
+    diagonal = np.diag(cov)
+    estimable = np.isfinite(diagonal)
+    columns = np.zeros_like(cov)
+    columns[np.ix_(estimable, estimable)] = cov[np.ix_(estimable, estimable)] / np.sqrt(diagonal[estimable])[None, :]
+    return DfbetasTerms(X, columns, root_remaining, studentized, estimable, undefined)
+
+
+def _largest_and_reach(terms: DfbetasTerms) -> tuple[np.ndarray, np.ndarray]:
+    """``max_j |dfbetas_ij|`` and ``max_j |dfbetas_ij| / |t_i|`` of every row, ``INFLUENCE_ROWS`` rows at a time.
+
+    Each block is one matrix product whose result stays in cache; the rows x p
+    DFBETAS matrix itself is never stored.
+    """
+    rows = terms.X.shape[0]
+    largest, reach = np.empty(rows), np.empty(rows)
+    with one_blas_thread():
+        for start in range(0, rows, INFLUENCE_ROWS):
+            block = slice(start, start + INFLUENCE_ROWS)
+            unit = terms.unit(block)
+            np.fmax.reduce(np.abs(unit), axis=0, out=reach[block])
+            np.fmax.reduce(np.abs(terms.finish(unit, block)), axis=0, out=largest[block])
+    return largest, reach
 
 
 def deleted_variance(fit: PreliminaryFit, hat: np.ndarray, residual: np.ndarray) -> np.ndarray:
@@ -82,28 +167,24 @@ def row_influence(fit: PreliminaryFit, X: np.ndarray, y: np.ndarray, scores: Row
     if scores is None:
         scores = fit.score_rows(X, y)
     hat, residual = scores.hat, scores.residual
-    f, k, rows = fit.factor, fit.rank, len(residual)
+    k, rows = fit.rank, len(residual)
     if k == 0 or fit.df_resid <= 0:
         empty = np.full(rows, np.nan)
-        return RowInfluence(hat, residual, empty, empty.copy(), empty.copy(), np.full((rows, f.p), np.nan), empty.copy())
+        terms = DfbetasTerms(X, np.zeros((fit.factor.p, fit.factor.p)), empty, empty, np.zeros(fit.factor.p, dtype=bool), np.ones(rows, dtype=bool))
+        return RowInfluence(hat, residual, empty, empty.copy(), empty.copy(), empty.copy(), empty.copy(), terms)
     s2 = fit.rss / fit.df_resid
     s2_deleted = deleted_variance(fit, hat, residual)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        leverage_ratio = hat / (1.0 - hat)
-        studentized = residual / np.sqrt(s2_deleted * (1.0 - hat))
-        cooks = residual**2 * hat / (k * s2 * (1.0 - hat) ** 2)
-        dffits = studentized * np.sqrt(leverage_ratio)
-        unit = _sensitivities(fit, X)
-        unit /= np.sqrt(np.diag(fit.cov_unscaled))[None, :]
-        unit /= np.sqrt(1.0 - hat)[:, None]
-        reach = np.fmax.reduce(np.abs(unit), axis=1)
-        unit *= studentized[:, None]
-    dfbetas = unit
     undefined = hat >= 1.0 - 1e-12
-    for measure in (studentized, cooks, dffits, reach):
+    with np.errstate(divide="ignore", invalid="ignore"):
+        remaining = 1.0 - hat
+        studentized = residual / np.sqrt(s2_deleted * remaining)
+        cooks = residual**2 * hat / (k * s2 * remaining**2)
+        dffits = studentized * np.sqrt(hat / remaining)
+    terms = _dfbetas_terms(fit, X, np.sqrt(remaining), studentized, undefined)
+    largest, reach = _largest_and_reach(terms)
+    for measure in (studentized, cooks, dffits, reach, largest):
         measure[undefined] = np.nan
-    dfbetas[undefined] = np.nan
-    return RowInfluence(hat, residual, studentized, cooks, dffits, dfbetas, reach)
+    return RowInfluence(hat, residual, studentized, cooks, dffits, largest, reach, terms)
 
 
 def deletion_shift(fit: PreliminaryFit, X: np.ndarray, residual: np.ndarray, hat: np.ndarray) -> np.ndarray:
@@ -152,6 +233,11 @@ def group_deletion(fit: PreliminaryFit, X: np.ndarray, residual: np.ndarray) -> 
     ----------
     Cook & Weisberg (1982), sec. 3.6 (deleting subsets of cases); Belsley, Kuh & Welsch (1980), sec. 2.2.
     """
+    with one_blas_thread():
+        return _group_deletion(fit, X, residual)
+
+
+def _group_deletion(fit: PreliminaryFit, X: np.ndarray, residual: np.ndarray) -> GroupDeletion:
     f, k, m = fit.factor, fit.rank, len(residual)
     shift, se_after = np.full(f.p, np.nan), np.full(f.p, np.nan)
     if k == 0 or m == 0 or fit.df_resid <= 0:

@@ -49,10 +49,11 @@ class Moments:
         x = x[np.isfinite(x)]
         if x.size == 0:
             return cls.empty()
-        mean = float(x.mean())
-        d = x - mean
-        d2 = d * d
-        return cls(int(x.size), mean, float(d2.sum()), float((d2 * d).sum()), float((d2 * d2).sum()), float(x.min()), float(x.max()))
+        with np.errstate(over="ignore", invalid="ignore"):
+            mean = float(x.mean())
+            d = x - mean
+            d2 = d * d
+            return cls(int(x.size), mean, float(d2.sum()), float((d2 * d).sum()), float((d2 * d2).sum()), float(x.min()), float(x.max()))
 
     def merge(self, other: "Moments") -> "Moments":
         """The moments of both batches together."""
@@ -62,21 +63,23 @@ class Moments:
             return self
         na, nb = self.count, other.count
         n = na + nb
-        delta = other.mean - self.mean
-        mean = self.mean + delta * nb / n
-        m2 = self.m2 + other.m2 + delta**2 * na * nb / n
-        m3 = (
-            self.m3 + other.m3
-            + delta**3 * na * nb * (na - nb) / n**2
-            + 3 * delta * (na * other.m2 - nb * self.m2) / n
-        )
-        m4 = (
-            self.m4 + other.m4
-            + delta**4 * na * nb * (na * na - na * nb + nb * nb) / n**3
-            + 6 * delta**2 * (na * na * other.m2 + nb * nb * self.m2) / n**2
-            + 4 * delta * (na * other.m3 - nb * self.m3) / n
-        )
-        return Moments(n, mean, m2, m3, m4, min(self.minimum, other.minimum), max(self.maximum, other.maximum))
+        # numpy scalars: values near the double range overflow to inf (reported elsewhere) instead of raising.
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            delta = np.float64(other.mean) - np.float64(self.mean)
+            mean = self.mean + delta * nb / n
+            m2 = self.m2 + other.m2 + delta**2 * na * nb / n
+            m3 = (
+                self.m3 + other.m3
+                + delta**3 * na * nb * (na - nb) / n**2
+                + 3 * delta * (na * other.m2 - nb * self.m2) / n
+            )
+            m4 = (
+                self.m4 + other.m4
+                + delta**4 * na * nb * (na * na - na * nb + nb * nb) / n**3
+                + 6 * delta**2 * (na * na * other.m2 + nb * nb * self.m2) / n**2
+                + 4 * delta * (na * other.m3 - nb * self.m3) / n
+            )
+        return Moments(n, float(mean), float(m2), float(m3), float(m4), min(self.minimum, other.minimum), max(self.maximum, other.maximum))
 
     @property
     def variance(self) -> float:
@@ -91,16 +94,23 @@ class Moments:
     @property
     def skewness(self) -> float:
         """Moment skewness g1 (biased, as ``scipy.stats.skew`` by default)."""
-        if self.count < 2 or self.m2 <= 0:
+        if self.count < 2 or not self.m2 > 0:
             return float("nan")
-        return float(np.sqrt(self.count) * self.m3 / self.m2**1.5)
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            return _finite_or_nan(np.sqrt(self.count) * (np.float64(self.m3) / self.m2) / np.sqrt(self.m2))
 
     @property
     def kurtosis(self) -> float:
-        """Moment kurtosis (not excess), as in the Jarque-Bera statistic."""
-        if self.count < 2 or self.m2 <= 0:
+        """Moment kurtosis (not excess), as in the Jarque-Bera statistic; NaN when the fourth powers underflowed."""
+        if self.count < 2 or not self.m2 > 0 or not self.m4 > 0:
             return float("nan")
-        return float(self.count * self.m4 / self.m2**2)
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            return _finite_or_nan(self.count * (np.float64(self.m4) / self.m2) / self.m2)
+
+
+def _finite_or_nan(value: float) -> float:
+    """``value`` as a float, NaN when it over- or underflowed."""
+    return float(value) if np.isfinite(value) else float("nan")
 
 
 @dataclass(frozen=True)

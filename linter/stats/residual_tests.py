@@ -136,7 +136,11 @@ def jarque_bera(residual: np.ndarray) -> tuple[ResidualTest, float, float]:
     homoscedasticity and serial independence of regression residuals.
     Economics Letters 6(3).
     """
-    moments = Moments.of(residual)
+    residual = np.asarray(residual, dtype=np.float64)
+    finite = np.abs(residual[np.isfinite(residual)])
+    largest = float(finite.max()) if finite.size else 0.0
+    # Skewness and kurtosis are scale-free: on residuals scaled to at most 1 their powers neither overflow nor underflow.
+    moments = Moments.of(residual / largest if largest > 0 else residual)
     skewness, kurtosis = moments.skewness, moments.kurtosis
     statistic = moments.count / 6.0 * (skewness**2 + (kurtosis - 3.0) ** 2 / 4.0)
     return ResidualTest(float(statistic), 2, float(stats.chi2.sf(statistic, 2))), skewness, kurtosis

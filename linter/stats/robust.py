@@ -16,37 +16,86 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.linalg
 
+from .blas import one_blas_thread
+
 MODIFIED_Z_FACTOR = 0.6745
 MCD_SAMPLE_ROWS = 2_000
 MCD_SAMPLE_SEED = 20_260_601
+ROW_BLOCK = 16_384
+SELECTION_SAMPLE = 4_096
+SELECTION_DIRECT = 65_536
+
+
+def order_statistics(values: np.ndarray, ranks: tuple[int, ...]) -> list[float]:
+    """The values at the given 0-based ``ranks`` of ``values`` in sorted order, exactly (``values`` finite).
+
+    Long arrays are not partitioned whole: a bracket ``[low, high]`` around the
+    ranks is read from a sorted regular sample of ``SELECTION_SAMPLE`` values,
+    the values below it are counted and only those inside it are partitioned.
+    When the bracket misses a rank the whole array is partitioned instead, so
+    the result is always the exact order statistic.
+    """
+    n = values.size
+    if n <= SELECTION_DIRECT:
+        part = np.partition(values, ranks)
+        return [float(part[r]) for r in ranks]
+    sample = np.sort(values[:: n // SELECTION_SAMPLE])
+    m, margin = sample.size, 4.0 * np.sqrt(sample.size)
+    low = sample[max(int(min(ranks) * m / n - margin), 0)]
+    high = sample[min(int(max(ranks) * m / n + margin) + 1, m - 1)]
+    below = int(np.count_nonzero(values < low))
+    inside = values[(values >= low) & (values <= high)]
+    shifted = [r - below for r in ranks]
+    if min(shifted) < 0 or max(shifted) >= inside.size:
+        part = np.partition(values, ranks)
+        return [float(part[r]) for r in ranks]
+    part = np.partition(inside, shifted)
+    return [float(part[r]) for r in shifted]
+
+
+def _median(finite: np.ndarray) -> float:
+    """The median as :func:`numpy.median` computes it (the mean of the two middle values for an even count)."""
+    n = finite.size
+    middle = order_statistics(finite, (n // 2,) if n % 2 else (n // 2 - 1, n // 2))
+    return float(np.mean(np.array(middle)))
 
 
 def median_and_mad(values: np.ndarray) -> tuple[float, float]:
-    """The median of the finite values and their median absolute deviation from it (NaN without values)."""
+    """The median of the finite values and their median absolute deviation from it (NaN without values).
+
+    Works on one private copy of the finite values, which becomes the
+    absolute deviations in place; both medians by :func:`order_statistics`.
+    """
     x = np.asarray(values, dtype=float)
     finite = x[np.isfinite(x)]
     if finite.size == 0:
         return float("nan"), float("nan")
-    median = float(np.median(finite))
-    deviation = np.abs(finite - median, out=finite)
-    return median, float(np.median(deviation, overwrite_input=True))
+    median = _median(finite)
+    np.subtract(finite, median, out=finite)
+    np.abs(finite, out=finite)
+    return median, _median(finite)
 
 
-def modified_z(values: np.ndarray) -> tuple[np.ndarray, float, float]:
+def modified_z(values: np.ndarray, spread: tuple[float, float] | None = None) -> tuple[np.ndarray, float, float]:
     """``0.6745 (x - median) / MAD`` of the finite values (NaN elsewhere), with the median and the MAD.
 
     The MAD is the median absolute deviation from the median; when it is
-    zero (more than half the values tie) the scores are NaN.
+    zero (more than half the values tie) the scores are NaN. ``spread`` is
+    the values' ``(median, MAD)`` when already known (see
+    :func:`median_and_mad`).
 
     References
     ----------
     Iglewicz & Hoaglin (1993), eq. 3.1.
     """
     x = np.asarray(values, dtype=float)
-    median, mad = median_and_mad(x)
+    median, mad = median_and_mad(x) if spread is None else spread
     if not np.isfinite(mad) or mad == 0:
         return np.full(x.shape, np.nan), median, mad
-    return MODIFIED_Z_FACTOR * (x - median) / mad, median, mad
+    scores = np.subtract(x, median)
+    scores *= MODIFIED_Z_FACTOR
+    scores /= mad
+    return scores, median, mad
 
 
 @dataclass(frozen=True)
@@ -74,7 +123,7 @@ def mcd_estimate(data: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """
     from statsmodels.robust.covariance import CovDetMCD
 
-    with np.errstate(all="ignore"):
+    with np.errstate(all="ignore"), one_blas_thread():
         try:
             result = CovDetMCD(data).fit(None)
         except (ValueError, ZeroDivisionError) as exc:
@@ -82,32 +131,51 @@ def mcd_estimate(data: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.asarray(result.mean), np.asarray(result.cov)
 
 
+def _whitening(scatter: np.ndarray) -> np.ndarray:
+    """``W`` with ``W W' = S^-1``: the transposed inverse of the lower Cholesky factor of ``S``."""
+    factor = scipy.linalg.cholesky(scatter, lower=True)
+    return scipy.linalg.solve_triangular(factor, np.eye(factor.shape[0]), lower=True, check_finite=False).T
+
+
+def _whitened_squares(data: np.ndarray, location: np.ndarray, whitening: np.ndarray) -> np.ndarray:
+    """``||(x - m) W||^2`` for each row, ``ROW_BLOCK`` rows at a time (no temporary larger than a block)."""
+    out = np.empty(data.shape[0])
+    with one_blas_thread():
+        for start in range(0, data.shape[0], ROW_BLOCK):
+            z = np.subtract(data[start : start + ROW_BLOCK], location) @ whitening
+            np.einsum("ij,ij->i", z, z, out=out[start : start + ROW_BLOCK])
+    return out
+
+
 def squared_distances(data: np.ndarray, location: np.ndarray, scatter: np.ndarray) -> np.ndarray:
     """``(x - m)' S^-1 (x - m)`` for each row, through the inverse Cholesky factor of ``S`` (O(rows p^2))."""
-    factor = scipy.linalg.cholesky(scatter, lower=True)
-    whitening = scipy.linalg.solve_triangular(factor, np.eye(factor.shape[0]), lower=True, check_finite=False)
-    z = (data - location) @ whitening.T
-    return np.einsum("ij,ij->i", z, z)
+    return _whitened_squares(data, location, _whitening(scatter))
 
 
-def _row_hashes(data: np.ndarray) -> np.ndarray:
-    """A 64-bit hash of each row's values (equal rows, equal hashes), mixed column by column."""
-    bits = np.ascontiguousarray(data + 0.0).view(np.uint64)
-    mixed = np.full(data.shape[0], np.uint64(MCD_SAMPLE_SEED), dtype=np.uint64)
+def _row_hashes(data: np.ndarray, order: np.ndarray) -> np.ndarray:
+    """A 64-bit hash of each row's values taken in column ``order`` (equal rows, equal hashes), mixed column by column."""
+    mixed = np.empty(data.shape[0], dtype=np.uint64)
+    multiplier, shift = np.uint64(0x9E3779B97F4A7C15), np.uint64(29)
     with np.errstate(over="ignore"):
-        for j in range(data.shape[1]):
-            mixed = (mixed ^ bits[:, j]) * np.uint64(0x9E3779B97F4A7C15)
-            mixed ^= mixed >> np.uint64(29)
+        for start in range(0, data.shape[0], ROW_BLOCK):
+            bits = (data[start : start + ROW_BLOCK][:, order] + 0.0).view(np.uint64)
+            block = np.full(bits.shape[0], np.uint64(MCD_SAMPLE_SEED), dtype=np.uint64)
+            for j in range(bits.shape[1]):
+                block ^= bits[:, j]
+                block *= multiplier
+                block ^= block >> shift
+            mixed[start : start + ROW_BLOCK] = block
     return mixed
 
 
-def _content_sample(data: np.ndarray, sample_rows: int) -> np.ndarray:
-    """At most ``sample_rows`` rows chosen by content, in lexicographic order of their values."""
+def _content_sample(data: np.ndarray, order: np.ndarray, sample_rows: int) -> np.ndarray:
+    """At most ``sample_rows`` rows chosen by content, columns in ``order``, in lexicographic order of their values."""
     if data.shape[0] > sample_rows:
-        data = data[np.argpartition(_row_hashes(data), sample_rows - 1)[:sample_rows]]
-    if data.shape[1] == 0:
-        return data
-    return data[np.lexsort(data.T[::-1])]
+        data = data[np.argpartition(_row_hashes(data, order), sample_rows - 1)[:sample_rows]]
+    sample = data[:, order]
+    if sample.shape[1] == 0:
+        return sample
+    return sample[np.lexsort(sample.T[::-1])]
 
 
 def robust_distances(data: np.ndarray, columns: tuple[str, ...], sample_rows: int = MCD_SAMPLE_ROWS) -> RobustDistances:
@@ -128,17 +196,19 @@ def robust_distances(data: np.ndarray, columns: tuple[str, ...], sample_rows: in
     estimator. Technometrics 41(3), 212-223 (subsets for large n).
     """
     order = np.argsort(np.array(columns, dtype=object), kind="stable")
-    data = np.asarray(data, dtype=float)[:, order]
-    sample = _content_sample(data, sample_rows)
+    data = np.asarray(data, dtype=float)
+    sample = _content_sample(data, order, sample_rows)
     if not np.all(np.isfinite(sample)):
         raise np.linalg.LinAlgError("the data are not all finite")
     with np.errstate(all="ignore"):
         spread = sample.std(axis=0)
         standardized = (sample - sample.mean(axis=0)) / np.where(spread > 0, spread, 1.0)
-    if not np.all(np.isfinite(standardized)) or np.linalg.matrix_rank(standardized) < sample.shape[1]:
-        raise np.linalg.LinAlgError("the columns are linearly dependent or too extreme to standardise")
+    with one_blas_thread():
+        if not np.all(np.isfinite(standardized)) or np.linalg.matrix_rank(standardized) < sample.shape[1]:
+            raise np.linalg.LinAlgError("the columns are linearly dependent or too extreme to standardise")
     location, scatter = mcd_estimate(sample)
     if not (np.all(np.isfinite(scatter)) and np.all(np.isfinite(location))):
         raise np.linalg.LinAlgError("the robust scatter is not finite")
     back = np.argsort(order)
-    return RobustDistances(columns, squared_distances(data, location, scatter), location[back], scatter[np.ix_(back, back)], int(sample.shape[0]))
+    squared = _whitened_squares(data, location[back], _whitening(scatter)[back])
+    return RobustDistances(columns, squared, location[back], scatter[np.ix_(back, back)], int(sample.shape[0]))

@@ -1,9 +1,11 @@
 """Numeric stand-ins for "missing": repeated, round values far outside the bulk of a column.
 
-A value is judged from the data, by three signs together: it repeats, it sits
-outside the range of the other values with a gap that dwarfs the spacing of
-the values at that edge, and its digits look chosen rather than measured
-(all nines, one repeated digit, a power of ten, zero, minus one).
+A value is judged from the data: it sits outside the range of the other values
+with a gap that dwarfs the spacing of the values at that edge, and either its
+digits look chosen rather than measured (all nines, one repeated digit, a power
+of ten, zero, minus one) or it repeats far more often than the column's other
+values do. Repetition alone is no evidence where every value repeats (an
+attribute of a site on each of its site-days).
 """
 
 from __future__ import annotations
@@ -16,15 +18,22 @@ MIN_VALUES = 10
 EDGE_VALUES = 10
 MAX_PER_SIDE = 3
 MAX_CODE_SHARE = 0.5
-GAP_TO_SPACING = 10.0
 GAP_TO_SCALE_CODE = 1.0
-DISTANCE_TO_SCALE_CODE = 3.0
 GAP_TO_SCALE_ZERO = 0.5
-MAX_SHARE_ZERO = 0.05
 GAP_TO_SCALE_PLAIN = 3.0
-DISTANCE_TO_SCALE_PLAIN = 5.0
 MIN_REPEATS_PLAIN = 3
 MAX_SHARE_PLAIN = 0.2
+
+
+@dataclass(frozen=True)
+class SentinelLimits:
+    """The adjustable limits of :func:`find_sentinels` (defaults: common practice)."""
+
+    gap_to_spacing: float = 10.0
+    code_distance: float = 3.0
+    plain_distance: float = 5.0
+    repeat_contrast: float = 3.0
+    zero_share: float = 0.05
 
 
 @dataclass(frozen=True)
@@ -60,19 +69,32 @@ def _robust_scale(values: np.ndarray) -> float:
     return float(1.4826 * np.median(np.abs(values - np.median(values))))
 
 
+def typical_repeats(counts: np.ndarray) -> float:
+    """How often the value of a typical row occurs: the row-weighted median of the distinct values' counts.
+
+    1 for a column of distinct measurements; the number of rows per entity for
+    an attribute of an entity repeated on each of its rows.
+    """
+    if counts.size == 0:
+        return 0.0
+    ordered = np.sort(counts)
+    rows_so_far = np.cumsum(ordered)
+    return float(ordered[np.searchsorted(rows_so_far, rows_so_far[-1] / 2.0)])
+
+
 def _edge_spacing(distinct: np.ndarray, low: bool) -> float:
     """The median gap between consecutive distinct values at one edge of the rest of the column."""
     edge = distinct[:EDGE_VALUES] if low else distinct[-EDGE_VALUES:]
     return float(np.median(np.diff(edge)))
 
 
-def find_sentinels(values: np.ndarray) -> list[Sentinel]:
+def find_sentinels(values: np.ndarray, limits: SentinelLimits = SentinelLimits()) -> list[Sentinel]:
     """Values of a numeric column that act as missing-value codes, lowest first.
 
     Each edge of the column is examined from the outside in: the most
     extreme distinct value is a code when it is separated from the remaining
     values by a gap of at least ten times the spacing of the remaining
-    values at that edge (common practice) and
+    values at that edge (``limits.gap_to_spacing``, default 10, common practice) and
 
     * it is code-shaped (:func:`code_shaped`) and lies at least three robust
       standard deviations from the median of the rest, with a gap of at least
@@ -83,10 +105,13 @@ def find_sentinels(values: np.ndarray) -> list[Sentinel]:
       deviation; or
     * it is a negative code-shaped value repeating in a column of
       non-negative integers (a count cannot be negative); or
-    * it repeats at least three times (in at most a fifth of the rows) and
-      lies at least five robust standard deviations from the median with a
-      gap of at least three (no measured value repeats exactly that far from
-      the rest).
+    * it repeats at least three times (in at most a fifth of the rows), at
+      least three times as often as a typical value of the rest repeats
+      (:func:`typical_repeats`), and lies at least five robust standard
+      deviations from the median with a gap of at least three (no measured
+      value repeats exactly that far from the rest). Repetition is evidence
+      only when it stands out: in a table of site-days a site's floor area
+      repeats once per day like every other site's, however large the site.
 
     Robust standard deviation: interquartile range / 1.349 (Rousseeuw &
     Croux 1993). A code may cover at most half the values.
@@ -112,7 +137,7 @@ def find_sentinels(values: np.ndarray) -> list[Sentinel]:
             index = low if side_low else high - 1
             rest_distinct = distinct[low + 1 : high] if side_low else distinct[low : high - 1]
             rest_counts = counts[low + 1 : high] if side_low else counts[low : high - 1]
-            sentinel = _judge(distinct[index], int(counts[index]), rest_distinct, rest_counts, side_low, x.size)
+            sentinel = _judge(distinct[index], int(counts[index]), rest_distinct, rest_counts, side_low, x.size, limits)
             if sentinel is None:
                 break
             found.append(sentinel)
@@ -123,13 +148,15 @@ def find_sentinels(values: np.ndarray) -> list[Sentinel]:
     return sorted(found, key=lambda s: s.value)
 
 
-def _judge(value: float, count: int, rest: np.ndarray, rest_counts: np.ndarray, low: bool, total: int) -> Sentinel | None:
+def _judge(
+    value: float, count: int, rest: np.ndarray, rest_counts: np.ndarray, low: bool, total: int, limits: SentinelLimits
+) -> Sentinel | None:
     if count > MAX_CODE_SHARE * total:
         return None
     nearest = rest[0] if low else rest[-1]
     gap = abs(float(nearest) - float(value))
     spacing = _edge_spacing(rest, low)
-    if spacing <= 0 or gap < GAP_TO_SPACING * spacing:
+    if spacing <= 0 or gap < limits.gap_to_spacing * spacing:
         return None
     expanded = np.repeat(rest, rest_counts)
     scale = _robust_scale(expanded)
@@ -139,15 +166,16 @@ def _judge(value: float, count: int, rest: np.ndarray, rest_counts: np.ndarray, 
     in_scales = gap / scale
     in_spacings = gap / spacing
     reason = None
-    if code_shaped(value) and distance >= DISTANCE_TO_SCALE_CODE and in_scales >= GAP_TO_SCALE_CODE:
+    if code_shaped(value) and distance >= limits.code_distance and in_scales >= GAP_TO_SCALE_CODE:
         reason = "a code-shaped value far outside the rest of the column"
-    elif value == 0 and 2 <= count <= MAX_SHARE_ZERO * total and rest[0] > 0 and in_scales >= GAP_TO_SCALE_ZERO:
+    elif value == 0 and 2 <= count <= limits.zero_share * total and rest[0] > 0 and in_scales >= GAP_TO_SCALE_ZERO:
         reason = "zeros in a column that is otherwise strictly positive, far below its smallest other value"
     elif value < 0 and code_shaped(value) and count >= 2 and rest[0] >= 0 and np.all(np.mod(rest, 1) == 0):
         reason = "a negative code in a column of non-negative counts"
     elif (
         MIN_REPEATS_PLAIN <= count <= MAX_SHARE_PLAIN * total
-        and distance >= DISTANCE_TO_SCALE_PLAIN
+        and count >= limits.repeat_contrast * typical_repeats(rest_counts)
+        and distance >= limits.plain_distance
         and in_scales >= GAP_TO_SCALE_PLAIN
     ):
         reason = "a value repeated far outside the rest of the column"

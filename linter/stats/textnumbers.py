@@ -120,7 +120,7 @@ def _number_body(body: str, formats: set[str]) -> float | None:
             if thousands is None:
                 cleaned = re.sub(r"[ \u00a0\u202f']", "", body).replace(",", ".")
             else:
-                cleaned = body.replace(thousands, "").replace(decimal, ".")
+                cleaned = body.replace(thousands, "").replace(decimal or ".", ".")
             if decimal == "," and "," in body:
                 formats.add("decimal-comma")
             return float(cleaned)

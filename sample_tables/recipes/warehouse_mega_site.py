@@ -16,7 +16,6 @@ EXPECTED = [
     ("assumptions.nonlinearity", "weakens", ("pallets_stored", "floor_area_m2")),
     ("influence.cooks-distance", "misleads", ()),
     ("influence.leverage", "weakens", ()),
-    ("missingness.disguised-codes", "misleads", ("floor_area_m2",)),
     ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles")),
     ("outliers.univariate", "weakens", ("energy_kwh",)),
     ("outliers.univariate", "weakens", ("floor_area_m2",)),
