@@ -8,9 +8,7 @@ Run: python benchmarks/bench_assumptions.py
 
 from __future__ import annotations
 
-import time
 import warnings
-from typing import Callable
 
 import numpy as np
 import statsmodels.api as sm
@@ -21,21 +19,13 @@ from statsmodels.stats.diagnostic import (
     linear_reset,
 )
 from statsmodels.stats.stattools import jarque_bera
+from timing import best_of
 
 from prefit.stats import residual_tests as tests
 from prefit.stats.factor import DesignFactor
 from prefit.stats.fit import PreliminaryFit
 
 ROWS, PREDICTORS, LAGS, REPEATS = 100_000, 8, 10, 3
-
-
-def best_of(call: Callable[[], object]) -> float:
-    times = []
-    for _ in range(REPEATS):
-        start = time.perf_counter()
-        call()
-        times.append(time.perf_counter() - start)
-    return min(times)
 
 
 def main() -> None:
@@ -68,7 +58,7 @@ def main() -> None:
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         disagreement = np.max(np.abs(np.array(ours()) - np.array(theirs())) / np.abs(np.array(theirs())))
-        prefit_time, statsmodels_time = best_of(ours), best_of(theirs)
+        prefit_time, statsmodels_time = best_of(ours, REPEATS), best_of(theirs, REPEATS)
     print(f"{ROWS:,} rows, {PREDICTORS} predictors: Breusch-Pagan, White, RESET, Jarque-Bera, Breusch-Godfrey ({LAGS} lags)")
     print(f"largest relative disagreement with statsmodels: {disagreement:.1e}")
     print(f"prefit / statsmodels time: {prefit_time / statsmodels_time:.2f}")

@@ -9,23 +9,12 @@ Run: python benchmarks/bench_missingness.py
 
 from __future__ import annotations
 
-import time
-from typing import Callable
-
 import numpy as np
+from timing import best_of
 
 from prefit.stats.missingness import PatternMoments, little_mcar
 
 ROWS, COLUMNS, REPEATS = 5_000, 6, 2
-
-
-def best_of(call: Callable[[], object]) -> float:
-    times = []
-    for _ in range(REPEATS):
-        start = time.perf_counter()
-        call()
-        times.append(time.perf_counter() - start)
-    return min(times)
 
 
 def row_by_row(values: np.ndarray, tolerance: float = 1e-10, iterations: int = 10_000) -> float:
@@ -78,7 +67,7 @@ def main() -> None:
     assert test is not None
     baseline = row_by_row(values)
     disagreement = abs(test.statistic - baseline) / abs(baseline)
-    prefit_time, baseline_time = best_of(ours), best_of(lambda: row_by_row(values))
+    prefit_time, baseline_time = best_of(ours, REPEATS), best_of(lambda: row_by_row(values), REPEATS)
     print(f"{ROWS:,} rows, {COLUMNS} columns, {int(np.isnan(values).any(axis=1).sum()):,} incomplete rows (holes planted at random)")
     print(f"Little's statistic {test.statistic:.4g} on {test.df} df, p = {test.p_value:.3g}; relative disagreement {disagreement:.1e}")
     print(f"prefit / row-by-row EM time: {prefit_time / baseline_time:.4f}")

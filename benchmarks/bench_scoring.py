@@ -5,24 +5,14 @@ Prints the time ratios; simulated data, fixed seed. Run: python benchmarks/bench
 
 from __future__ import annotations
 
-import time
-
 import numpy as np
 import statsmodels.api as sm
+from timing import best_of
 
 from prefit.stats.factor import DesignFactor
 from prefit.stats.fit import PreliminaryFit
 
 ROWS, NEW_ROWS, PREDICTORS, REPEATS = 100_000, 20_000, 12, 3
-
-
-def best_of(call) -> float:
-    times = []
-    for _ in range(REPEATS):
-        start = time.perf_counter()
-        call()
-        times.append(time.perf_counter() - start)
-    return min(times)
 
 
 def main() -> None:
@@ -47,9 +37,9 @@ def main() -> None:
         return ols.get_prediction(new).se_mean ** 2 / ols.scale
 
     agreement = np.max(np.abs(prefit_leverage() - statsmodels_prediction()) / statsmodels_prediction())
-    ours = best_of(prefit_leverage)
-    textbook = best_of(normal_equations)
-    reference = best_of(statsmodels_prediction)
+    ours = best_of(prefit_leverage, REPEATS)
+    textbook = best_of(normal_equations, REPEATS)
+    reference = best_of(statsmodels_prediction, REPEATS)
     print(f"{NEW_ROWS:,} new rows against a fit of {ROWS:,} x {PREDICTORS + 1}; best of {REPEATS}")
     print(f"prefit triangular solve (factor reused)      {ours * 1e3:8.1f} ms")
     print(f"normal equations (forms X'X, inverts it)  {textbook * 1e3:8.1f} ms   ratio prefit/this {ours / textbook:5.2f}")

@@ -75,13 +75,22 @@ CheckFunction = Callable[["RunContext", "RuleSettings"], Iterable[Finding]]
 
 @runtime_checkable
 class RuleLike(Protocol):
-    """What the engine needs of a rule, built-in or from a plugin."""
+    """What the engine needs of a rule, built-in or from a plugin (read-only attributes)."""
 
-    id: str
-    summary: str
-    why: str
-    remedy: str
-    thresholds: tuple[Threshold, ...]
+    @property
+    def id(self) -> str: ...
+
+    @property
+    def summary(self) -> str: ...
+
+    @property
+    def why(self) -> str: ...
+
+    @property
+    def remedy(self) -> str: ...
+
+    @property
+    def thresholds(self) -> tuple[Threshold, ...]: ...
 
     def check(self, context: "RunContext", settings: "RuleSettings") -> Iterable[Finding]: ...
 
@@ -181,7 +190,7 @@ class RuleSettings:
         *,
         columns: Sequence[str] = (),
         rows: Sequence[RowLabel] = (),
-        row_values: Sequence[float | None] = (),
+        row_values: Sequence[float | None] | np.ndarray = (),
         row_count: int | None = None,
         value: float | None = None,
         threshold: Threshold | float | None = None,

@@ -148,11 +148,12 @@ def _complete_case_grade(
     if p and n <= p < total:
         return Grade.BLOCKS, None, "definition: least squares needs more complete cases than parameters"
     graded = settings.grade_of(share)
-    grade, limit = graded if graded else (Grade.NOTE, None)
+    grade: Grade = graded[0] if graded else Grade.NOTE
+    crossed: Threshold | None = graded[1] if graded else None
     per_parameter = settings.threshold("per-parameter")
     if p and n / p < per_parameter.value <= total / p and grade < Grade.MISLEADS:
         return Grade.MISLEADS, None, f"deletion leaves fewer than {per_parameter.value:g} rows per parameter: {per_parameter.source}"
-    return grade, limit, limit.source if limit else COMMON_PRACTICE
+    return grade, crossed, crossed.source if crossed else COMMON_PRACTICE
 
 
 # ---------------------------------------------------------------- pattern

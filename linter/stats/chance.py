@@ -104,7 +104,7 @@ def expected_count(values: np.ndarray, probability: Callable[[np.ndarray], np.nd
     return float(n * np.nanmean(probability(picked)))
 
 
-def t_tail(value: np.ndarray, dof: float) -> np.ndarray:
+def t_tail(value: np.ndarray | float, dof: float) -> np.ndarray:
     """Two-sided tail probability ``P(|T| >= value)`` of Student's t."""
     return 2.0 * scipy.stats.t.sf(np.abs(value), dof)
 
