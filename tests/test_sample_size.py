@@ -123,6 +123,14 @@ def test_power_matches_cohens_lambda_table(u: int, table_lambda: float) -> None:
     assert_allclose(planning.f_test_power(f2, u, v), 0.80, atol=0.005)
 
 
+def test_power_at_finite_v_matches_cohens_worked_example() -> None:
+    # reference: Cohen (1988), Example 9.1, p. 424 (u = 5 predictors, v = 89, R-squared 0.10, so f2 = 0.10/0.90),
+    # the example R's pwr package documents for pwr.f2.test; printed power .67, and pwr's result 0.6736 (both from memory)
+    power = planning.f_test_power(0.10 / 0.90, 5, 89)
+    assert round(power, 2) == 0.67
+    assert_allclose(power, 0.6736, atol=5e-5)
+
+
 def test_power_for_one_parameter_matches_the_normal_approximation() -> None:
     # u = 1, v = infinity: power at lambda = (z_0.975 + z_0.80)^2 is 0.80 (Cohen 1988, eq. 9.4.1); source: scipy.stats.norm
     lam = (scipy.stats.norm.ppf(0.975) + scipy.stats.norm.ppf(0.80)) ** 2
