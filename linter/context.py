@@ -45,6 +45,7 @@ class RunContext:
     score: ScoreTable | None = None
     _summaries: dict[str, ColumnSummary] = field(default_factory=dict, init=False, repr=False)
     _text_numbers: dict[str, TextNumbers] = field(default_factory=dict, init=False, repr=False)
+    _values: dict[str, np.ndarray] = field(default_factory=dict, init=False, repr=False)
     _spreads: dict[str, tuple[float, float]] = field(default_factory=dict, init=False, repr=False)
 
     @cached_property
@@ -112,8 +113,12 @@ class RunContext:
         return self._text_numbers[column]
 
     def values(self, column: str) -> np.ndarray:
-        """A numeric column over all table rows as float64 (NaN for missing)."""
-        return numeric_values(self.table.column(column))
+        """A numeric column over all table rows as float64 (NaN for missing); converted once, shared read-only."""
+        if column not in self._values:
+            converted = numeric_values(self.table.column(column))
+            converted.setflags(write=False)
+            self._values[column] = converted
+        return self._values[column]
 
     def median_and_mad(self, column: str) -> tuple[float, float]:
         """Median and median absolute deviation of a numeric column's finite values over all table rows (computed once)."""
