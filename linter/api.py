@@ -20,6 +20,7 @@ from .accepted import (
 )
 from .context import RunContext
 from .engine import RuleOutcome, error_finding, run_rule, select_rules
+from .engines import EngineRun
 from .errors import UsageProblem
 from .findings import GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade
 from .options import SETTINGS_BY_KEY, CheckOptions, parse_settings
@@ -27,7 +28,7 @@ from .progress import RunProgress
 from .reading import ReadOptions, TableInfo, read_table
 from .registry import Registry, discover
 from .roles import apply_missing_codes, distinct_labels, resolve_roles
-from .rule import RuleLike
+from .rule import RuleLike, RuleSettings
 from .scoring import check_declared_ranges, read_score_table
 
 if TYPE_CHECKING:
@@ -56,6 +57,7 @@ class Report:
     outcomes: tuple[RuleOutcome, ...]
     gate: Grade
     accepted: tuple[Finding, ...] = ()
+    engine: EngineRun | None = None
     rules: tuple[RuleLike, ...] = field(default=(), compare=False, repr=False)
     context: RunContext | None = field(default=None, compare=False, repr=False)
 
@@ -110,6 +112,7 @@ class Report:
             "findings": [f.to_dict() for f in self.findings],
             "summary": count_by_grade(self.findings),
             "accepted": len(self.accepted),
+            **({"engine": self.engine.to_dict()} if self.engine is not None else {}),
         }
 
     def to_json(self) -> str:
@@ -167,14 +170,64 @@ def run_check(
     debug: bool = False,
     progress: RunProgress | None = None,
 ) -> Report:
-    """Resolve roles, build the context, run the selected rules and assemble the report.
+    """Resolve roles, build the context of an in-memory table, run the selected rules and assemble the report.
 
     ``progress``, when given, is told the number of rules, each rule before it runs, and the end.
     """
     registry = registry if registry is not None else discover()
     selected = select_rules(registry, options)
     context = build_context(table, info, options)
-    roles, replaced = context.roles, context.replaced_codes
+    return report_for(context, registry, selected, EngineRun("memory", info.rows, info.rows), debug, progress)
+
+
+def check_file(
+    path: str,
+    options: CheckOptions,
+    engine: str = "auto",
+    scheduler: str | None = None,
+    debug: bool = False,
+    progress: RunProgress | None = None,
+    row_budget: int | None = None,
+) -> Report:
+    """Check a table file with the chosen engine (``auto``, ``memory``, ``stream`` or ``dask``).
+
+    ``auto`` streams files larger than :data:`prefit.engines.AUTO_STREAM_BYTES`;
+    ``scheduler`` is the address of an existing Dask scheduler (default: a
+    local cluster); ``row_budget`` caps the rows the stream and Dask engines
+    keep in memory for the rules.
+    """
+    from .engines import StreamRunner, choose_engine, scaled_context
+
+    read = ReadOptions(sep=options.sep, encoding=options.encoding)
+    chosen = choose_engine(engine, path)
+    if chosen == "memory" or path == "-":
+        table, info = read_table(path, read)
+        return run_check(table, info, options, debug=debug, progress=progress)
+    registry = discover()
+    selected = select_rules(registry, options)
+    if chosen == "stream":
+        from .batches import open_batches
+        from .progress import pass_bars
+
+        context, run = scaled_context(StreamRunner(open_batches(path, read), pass_bars()), options, row_budget)
+    else:
+        from .distributed import DaskRunner
+
+        with DaskRunner(path, read, scheduler) as runner:
+            context, run = scaled_context(runner, options, row_budget)
+    return report_for(context, registry, selected, run, debug, progress)
+
+
+def report_for(
+    context: RunContext,
+    registry: Registry,
+    selected: Sequence[tuple[RuleLike, RuleSettings]],
+    engine: EngineRun,
+    debug: bool = False,
+    progress: RunProgress | None = None,
+) -> Report:
+    """Run the selected rules on a built context and assemble the report."""
+    info, roles, replaced = context.info, context.roles, context.replaced_codes
     outcomes = []
     if progress is not None:
         progress.start(info.path, len(selected))
@@ -204,7 +257,8 @@ def run_check(
         design=description,
         findings=tuple(sorted(findings, key=Finding.sort_key)),
         outcomes=tuple(outcomes),
-        gate=options.gate,
+        gate=context.options.gate,
+        engine=engine,
         rules=tuple(registry),
         context=context,
     )

@@ -56,6 +56,9 @@ def _build_parser() -> argparse.ArgumentParser:
     check.add_argument("--config", metavar="FILE", help="a prefit.toml or pyproject.toml (default: searched upward from here)")
     check.add_argument("--no-config", action="store_true", help="ignore configuration files")
     check.add_argument("--explain", action="store_true", help="print each finding's why under it")
+    check.add_argument("--engine", default="auto", choices=("auto", "memory", "stream", "dask"), help="read the table whole (memory), in row batches (stream; automatic above 1 GiB) or on Dask (dask; needs prefit[dask])")
+    check.add_argument("--scheduler", metavar="ADDRESS", help="with --engine dask: an existing Dask scheduler (default: a local cluster)")
+    check.add_argument("--row-budget", type=int, metavar="ROWS", help="with --engine stream or dask: rows kept in memory for the rules (default: 6 million cells' worth); beyond it the rules run on a sample")
     check.add_argument("--colour", choices=("auto", "always", "never"), default="auto", help="colour in the text report")
 
     rules = commands.add_parser("rules", help="list the rule catalogue")
@@ -143,9 +146,8 @@ def _colour(choice: str, output: str | None) -> bool:
 
 def _command_check(args: argparse.Namespace) -> int:
     from .accepted import load_accepted
-    from .api import apply_accepted, run_check
+    from .api import apply_accepted, check_file
     from .progress import progress_for
-    from .reading import ReadOptions, read_table
     from .report import FORMATS, WriterSettings, render
 
     if args.format not in FORMATS:
@@ -156,9 +158,12 @@ def _command_check(args: argparse.Namespace) -> int:
     if args.accept_file is not None and not args.accept_current:
         load_accepted(args.accept_file)
     reports = []
+    if args.scheduler is not None and args.engine != "dask":
+        raise UsageProblem("--scheduler", "only applies to the Dask engine", "add --engine dask")
+    if args.row_budget is not None and args.row_budget < 1:
+        raise UsageProblem("--row-budget", "must be a positive number of rows", "e.g. --row-budget 500000")
     for path in args.tables:
-        table, info = read_table(path, ReadOptions(sep=options.sep, encoding=options.encoding))
-        reports.append(run_check(table, info, options, debug=args.debug, progress=progress_for()))
+        reports.append(check_file(path, options, args.engine, args.scheduler, args.debug, progress_for(), args.row_budget))
     reports = apply_accepted(reports, args.accept_file, args.accept_current)
     settings = WriterSettings(colour=_colour(args.colour, args.output), explain=args.explain)
     _write(render(args.format, reports, settings), args.output)

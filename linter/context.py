@@ -12,6 +12,7 @@ import pyarrow as pa
 from .design import Design, build_design
 from .findings import MAX_LISTED_ROWS, RowLabel
 from .options import CheckOptions
+from .passes import TableStatistics
 from .reading import TableInfo
 from .roles import Kind, Roles, label_values, numeric_values
 from .rule import top_rows
@@ -35,6 +36,12 @@ class RunContext:
 
     Rules must treat the context as read-only: they receive the same object
     and every cached array is shared between them.
+
+    ``statistics``, when given, are the table's pass-1 statistics merged over
+    row batches (stream and Dask engines): the column summaries and the R
+    factor come from them instead of from ``table``. ``file_positions`` maps
+    the rows of ``table`` to their positions in the file when ``table`` is a
+    sample of it.
     """
 
     table: pa.Table
@@ -43,6 +50,8 @@ class RunContext:
     options: CheckOptions
     replaced_codes: dict[str, int] = field(default_factory=dict)
     score: ScoreTable | None = None
+    statistics: TableStatistics | None = field(default=None, repr=False)
+    file_positions: np.ndarray | None = field(default=None, repr=False)
     _summaries: dict[str, ColumnSummary] = field(default_factory=dict, init=False, repr=False)
     _text_numbers: dict[str, TextNumbers] = field(default_factory=dict, init=False, repr=False)
     _values: dict[str, np.ndarray] = field(default_factory=dict, init=False, repr=False)
@@ -56,6 +65,8 @@ class RunContext:
     @cached_property
     def factor(self) -> DesignFactor:
         """Pivoted QR of the unit-length-scaled design; O(n p^2), in row batches each too small to share across BLAS threads."""
+        if self.statistics is not None:
+            return self.statistics.model.design_factor(self.design.terms)
         with one_blas_thread():
             return DesignFactor.of(self.design.X, self.design.y)
 
@@ -63,8 +74,11 @@ class RunContext:
     def fit(self) -> PreliminaryFit:
         """Least squares on the complete cases, from :attr:`factor`."""
         y = self.design.y
-        moments = Moments.of(y)
-        tss = moments.m2 if self.options.intercept else float(np.dot(y, y))
+        if self.statistics is not None:
+            moments = self.statistics.model.target
+            tss = moments.m2 if self.options.intercept else moments.m2 + moments.count * moments.mean**2
+        else:
+            tss = Moments.of(y).m2 if self.options.intercept else float(np.dot(y, y))
         return PreliminaryFit(self.factor, tss, self.options.intercept, self.design.X, y)
 
     @cached_property
@@ -98,7 +112,10 @@ class RunContext:
         """Counts, moments and mode of one table column (all rows)."""
         if column not in self._summaries:
             kind = self.roles.kinds[column]
-            self._summaries[column] = summarise(column, self.table.column(column), kind)
+            if self.statistics is not None:
+                self._summaries[column] = self.statistics.tallies[column].summary(column, kind, self.table.column(column))
+            else:
+                self._summaries[column] = summarise(column, self.table.column(column), kind)
         return self._summaries[column]
 
     @cached_property
@@ -151,9 +168,11 @@ class RunContext:
         return [v if v is not None else "" for v in label_values(column)]
 
     def row_label(self, position: int) -> RowLabel:
-        """The label of 0-based table row ``position``: its id value, or its 1-based data row number."""
+        """The label of 0-based table row ``position``: its id value, or its 1-based data row number in the file."""
         labels = self._labels
-        return labels[position] if labels is not None else int(position) + 1
+        if labels is not None:
+            return labels[position]
+        return int(self.file_positions[position] if self.file_positions is not None else position) + 1
 
     def listed_rows(
         self, positions: Sequence[int] | np.ndarray, measures: Sequence[float] | np.ndarray | None = None

@@ -108,14 +108,6 @@ def category_codes(column: pa.ChunkedArray, kind: Kind) -> tuple[np.ndarray, lis
     return codes, levels
 
 
-def _reference_and_levels(codes: np.ndarray, levels: list[str]) -> tuple[int, list[int]]:
-    """The most frequent level (ties: first in sorted order) and the other present levels, sorted."""
-    counts = np.bincount(codes, minlength=len(levels))
-    present = [i for i in range(len(levels)) if counts[i] > 0]
-    reference = min(present, key=lambda i: (-counts[i], levels[i]))
-    return reference, sorted((i for i in present if i != reference), key=lambda i: levels[i])
-
-
 FILL_ROWS = 8_192
 
 
@@ -152,6 +144,70 @@ def _fill_design(
                 column += 1
 
 
+@dataclass(frozen=True)
+class ModelColumns:
+    """The target and predictors of a table (or row batch) before coding: values over all rows and which rows are complete.
+
+    ``numeric`` holds float64 values (NaN for missing) of numeric and date
+    predictors; ``categories`` the integer level codes (-1 for missing) and
+    level labels of the others.
+    """
+
+    y: np.ndarray
+    complete: np.ndarray
+    numeric: Mapping[str, np.ndarray]
+    categories: Mapping[str, tuple[np.ndarray, list[str]]]
+    missing_by_column: Mapping[str, int]
+
+    @classmethod
+    def of(cls, table: pa.Table, roles: Roles) -> "ModelColumns":
+        """Read the model columns: a row is complete with the target and every predictor present and finite."""
+        n_rows = table.num_rows
+        y = numeric_values(table.column(roles.target)) if roles.kinds[roles.target] in (Kind.NUMERIC, Kind.BOOLEAN) else np.full(n_rows, np.nan)
+        complete = np.isfinite(y)
+        missing_by_column: dict[str, int] = {roles.target: int(n_rows - np.count_nonzero(complete))}
+        numeric: dict[str, np.ndarray] = {}
+        categories: dict[str, tuple[np.ndarray, list[str]]] = {}
+        for name in roles.predictors:
+            kind = roles.kinds[name]
+            column = table.column(name)
+            if kind in (Kind.NUMERIC, Kind.DATETIME):
+                values = numeric_values(column)
+                present = np.isfinite(values)
+                numeric[name] = values
+            else:
+                categories[name] = category_codes(column, kind)
+                present = categories[name][0] >= 0
+            missing_by_column[name] = int(n_rows - np.count_nonzero(present))
+            complete &= present
+        return cls(y, complete, numeric, categories, missing_by_column)
+
+    def coded(self, roles: Roles, intercept: bool, dummies: Mapping[str, tuple[str, ...]]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """The design rows ``X``, target ``y`` and 0-based positions of the complete rows.
+
+        ``dummies[name]`` lists the levels of a categorical predictor that
+        become indicator columns, in order (a level this table lacks gives a
+        column of zeros).
+        """
+        every_row = bool(self.complete.all())
+        positions = np.arange(self.complete.size) if every_row else np.flatnonzero(self.complete)
+        sources: list[tuple[np.ndarray, tuple[int, ...]]] = []
+        for name in roles.predictors:
+            if name in self.numeric:
+                sources.append((self.numeric[name], ()))
+                continue
+            codes, levels = self.categories[name]
+            index = {level: i for i, level in enumerate(levels)}
+            wanted = tuple(index.get(level, -2) for level in dummies.get(name, ()))
+            if wanted:
+                sources.append((codes, wanted))
+        p = (1 if intercept else 0) + sum(1 if not d else len(d) for _, d in sources)
+        X = np.empty((positions.size, p), dtype=np.float64)
+        _fill_design(X, None if every_row else positions, intercept, sources)
+        y = np.ascontiguousarray(self.y, dtype=np.float64) if every_row else self.y[positions]
+        return X, y, positions
+
+
 def build_design(table: pa.Table, roles: Roles, intercept: bool = True) -> Design:
     """Build the complete-case design: rows with the target and every predictor present and finite.
 
@@ -159,55 +215,38 @@ def build_design(table: pa.Table, roles: Roles, intercept: bool = True) -> Desig
     array (row batches of it are contiguous for the batched QR and row
     scoring); numeric columns are read without copies where Arrow allows.
     """
-    n_rows = table.num_rows
-    y_all = numeric_values(table.column(roles.target)) if roles.kinds[roles.target] in (Kind.NUMERIC, Kind.BOOLEAN) else np.full(n_rows, np.nan)
-    complete = np.isfinite(y_all)
-    missing_by_column: dict[str, int] = {roles.target: int(n_rows - np.count_nonzero(complete))}
-    numeric: dict[str, np.ndarray] = {}
-    categories: dict[str, tuple[np.ndarray, list[str]]] = {}
-    for name in roles.predictors:
-        kind = roles.kinds[name]
-        column = table.column(name)
-        if kind in (Kind.NUMERIC, Kind.DATETIME):
-            values = numeric_values(column)
-            present = np.isfinite(values)
-            numeric[name] = values
-        else:
-            categories[name] = category_codes(column, kind)
-            present = categories[name][0] >= 0
-        missing_by_column[name] = int(n_rows - np.count_nonzero(present))
-        complete &= present
-    every_row = bool(complete.all())
-    positions = np.arange(n_rows) if every_row else np.flatnonzero(complete)
-    del complete
+    columns = ModelColumns.of(table, roles)
     terms: list[Term] = [Term(INTERCEPT, None, (INTERCEPT,))] if intercept else []
-    sources: list[tuple[np.ndarray, tuple[int, ...]]] = []
     for name in roles.predictors:
         kind = roles.kinds[name]
-        if name in numeric:
+        if name in columns.numeric:
             terms.append(Term(name, kind, (name,)))
-            sources.append((numeric[name], ()))
             continue
-        all_codes, all_levels = categories[name]
-        kept = all_codes if every_row else all_codes[positions]
+        all_codes, all_levels = columns.categories[name]
+        kept = all_codes[columns.complete]
         if kept.size == 0:
             terms.append(Term(name, kind, ()))
             continue
-        reference, others = _reference_and_levels(kept, all_levels)
-        names = tuple(all_levels[i] for i in others)
-        terms.append(Term(name, kind, tuple(f"{name}={level}" for level in names), names, all_levels[reference]))
-        if others:
-            sources.append((all_codes, tuple(others)))
-    p = sum(t.df for t in terms)
-    X = np.empty((positions.size, p), dtype=np.float64)
-    _fill_design(X, None if every_row else positions, intercept, sources)
-    y = np.ascontiguousarray(y_all, dtype=np.float64) if every_row else y_all[positions]
+        counts = np.bincount(kept, minlength=len(all_levels))
+        terms.append(treatment_term(name, kind, {all_levels[i]: int(c) for i, c in enumerate(counts) if c > 0}))
+    X, y, positions = columns.coded(roles, intercept, {t.source: t.levels for t in terms if t.reference is not None})
     return Design(
         terms=tuple(terms),
         intercept=intercept,
         X=X,
         y=y,
         positions=positions,
-        table_rows=n_rows,
-        missing_by_column=missing_by_column,
+        table_rows=table.num_rows,
+        missing_by_column=columns.missing_by_column,
     )
+
+
+def treatment_term(name: str, kind: Kind, counts: Mapping[str, int]) -> Term:
+    """The treatment-coded term of a category from its level counts among complete rows.
+
+    The reference is the most frequent level (ties: first in sorted order);
+    the other levels become indicator columns in sorted order.
+    """
+    reference = min(counts, key=lambda level: (-counts[level], level))
+    others = tuple(sorted(level for level in counts if level != reference))
+    return Term(name, kind, tuple(f"{name}={level}" for level in others), others, reference)

@@ -149,6 +149,9 @@ def table_section(report: "Report", findings: list[Finding], run: RunFacts, plot
     out.append(f'<h1>prefit report <span class="path">{esc(report.info.path)}</span></h1>')
     out.append(f'<p><span class="verdict {kind}">{esc(verdict)}</span></p>')
     out.append(_facts(report))
+    sampled = report.engine.sentence() if report.engine is not None else None
+    if sampled is not None:
+        out.append(f"<p>{esc(sampled)}</p>")
     out.append("<h2>Findings</h2>")
     out.append(_counts(report, findings))
     if not findings:

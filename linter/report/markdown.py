@@ -65,6 +65,9 @@ class MarkdownWriter(ReportWriter):
             f"{report.info.rows:,} rows, {report.info.columns:,} columns; target {md_text(report.target)}; "
             f"{report.parameters:,} parameters; {report.complete_cases:,} complete cases."
         )
+        sampled = report.engine.sentence() if report.engine is not None else None
+        if sampled is not None:
+            lines.append(f"Note: {md_text(sampled)}.")
         lines.append("")
         counts = count_by_grade(self.findings)
         words = [g.word for g in GRADES_STRONGEST_FIRST]

@@ -140,6 +140,9 @@ def render_terminal(report: "Report", colour: bool, width: int | None = None, ex
     console.print(Text(f"prefit {report.info.path}", style="bold"))
     console.print(Padding(_facts(report), (0, 0, 0, INDENT_HEAD)))
     console.print(Padding(_design_line(report), (0, 0, 0, INDENT_HEAD)))
+    sampled = report.engine.sentence() if report.engine is not None else None
+    if sampled is not None:
+        console.print(Padding(Text(sampled), (0, 0, 0, INDENT_HEAD)))
     counts = count_by_grade(report.findings)
     told: set[tuple[str, str]] = set()
     for grade in GRADES_STRONGEST_FIRST:

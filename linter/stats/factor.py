@@ -7,7 +7,6 @@ from functools import cached_property
 
 import numpy as np
 import scipy.linalg
-import scipy.linalg.lapack
 
 from .mergeable import TriangularFactor
 
@@ -50,22 +49,52 @@ def column_scales(X: np.ndarray, batch_rows: int = BATCH_ROWS) -> np.ndarray:
 
 
 def augmented_factor(X: np.ndarray, y: np.ndarray, scales: np.ndarray) -> TriangularFactor:
-    """The R factor of ``[X / scales | y]`` for one batch of rows; merge batches with ``merge``.
+    """The R factor of ``[X / scales | y]`` for one batch of rows; merge batches with ``merge``."""
+    return TriangularFactor.of(np.column_stack([X / scales, y]))
 
-    Calls LAPACK's Householder QR (``dgeqrf``) on a private Fortran-ordered copy that it may overwrite.
+
+TIE = 1e-8
+
+
+def pivoted_qr(a: np.ndarray, z: np.ndarray, relative_tolerance: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Householder QR with column pivoting of a small square ``a``: ``a[:, perm] = Q r``; also returns ``Q' z``.
+
+    Each step takes the column with the largest remaining norm, as LAPACK's
+    ``dgeqp3`` does, except that norms within a relative ``1e-8`` of the
+    largest, or within the rank tolerance (``relative_tolerance`` times the
+    largest first norm), count as tied and the first in design order wins.
+    Exact ties (a dummy trap, a duplicated column) are then broken the same way
+    whatever the rounding of the merged factor, so every engine names the same
+    dependent columns.
     """
-    rows, k = X.shape[0], X.shape[1] + 1
-    if rows == 0:
-        return TriangularFactor(np.zeros((k, k)), 0)
-    block = np.asfortranarray(np.column_stack([X / scales, y]))
-    lwork, _ = scipy.linalg.lapack.dgeqrf_lwork(rows, k)
-    qr, _, _, info = scipy.linalg.lapack.dgeqrf(block, lwork=int(lwork), overwrite_a=1)
-    if info != 0:
-        raise np.linalg.LinAlgError(f"dgeqrf failed with info={info}")
-    r = np.zeros((k, k))
-    top = min(k, rows)
-    r[:top] = np.triu(qr[:top, :k])
-    return TriangularFactor(r, rows)
+    r = np.array(a, dtype=np.float64)
+    qtz = np.array(z, dtype=np.float64)
+    m, n = r.shape
+    perm = np.arange(n)
+    floor = 0.0
+    for j in range(min(m, n)):
+        remaining = np.sqrt(np.einsum("ij,ij->j", r[j:, j:], r[j:, j:]))
+        top = float(remaining.max()) if remaining.size else 0.0
+        if j == 0:
+            floor = relative_tolerance * top
+        pick = j + int(np.argmax(remaining >= top - max(TIE * top, floor)))
+        if pick != j:
+            r[:, [j, pick]] = r[:, [pick, j]]
+            perm[[j, pick]] = perm[[pick, j]]
+        x = r[j:, j]
+        norm = float(np.sqrt(x @ x))
+        if norm == 0.0:
+            continue
+        alpha = -norm if x[0] >= 0 else norm
+        v = x.copy()
+        v[0] -= alpha
+        vv = float(v @ v)
+        if vv == 0.0:
+            continue
+        r[j:, j:] -= np.outer(v, (2.0 / vv) * (v @ r[j:, j:]))
+        qtz[j:] -= v * ((2.0 / vv) * (v @ qtz[j:]))
+        r[j + 1 :, j] = 0.0
+    return np.triu(r), perm, qtz
 
 
 @dataclass(frozen=True)
@@ -101,8 +130,8 @@ class DesignFactor:
         r0, z0, rho = merged.r[:p, :p], merged.r[:p, p], merged.r[p, p]
         if p == 0:
             return cls(scales, np.zeros((0, 0)), np.zeros(0, dtype=int), np.zeros(0), float(rho**2), merged.rows)
-        q2, r2, perm = scipy.linalg.qr(r0, pivoting=True, check_finite=False)
-        return cls(scales, r2, perm, q2.T @ z0, float(rho**2), merged.rows)
+        r2, perm, qtz = pivoted_qr(r0, z0, max(merged.rows, p) * EPS)
+        return cls(scales, r2, perm, qtz, float(rho**2), merged.rows)
 
     @classmethod
     def of(cls, X: np.ndarray, y: np.ndarray, batch_rows: int = BATCH_ROWS) -> "DesignFactor":

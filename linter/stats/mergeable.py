@@ -10,7 +10,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg
+import scipy.linalg.lapack
 
 
 @dataclass(frozen=True)
@@ -133,24 +133,30 @@ class TriangularFactor:
     rows: int
 
     @classmethod
-    def of(cls, block: np.ndarray) -> "TriangularFactor":
-        """The R factor of one batch (k columns); a short batch is padded to k x k."""
+    def of(cls, block: np.ndarray, rows: int | None = None) -> "TriangularFactor":
+        """The R factor of one batch (k columns; ``rows`` counts the table rows it stands for, default its own)."""
         block = np.asarray(block, dtype=np.float64)
-        k = block.shape[1]
-        if block.shape[0] == 0:
-            return cls(np.zeros((k, k)), 0)
-        r = scipy.linalg.qr(block, mode="r", check_finite=False)[0]
-        return cls(_square(r, k), int(block.shape[0]))
+        return cls(triangular(block), int(block.shape[0]) if rows is None else rows)
 
     def merge(self, other: "TriangularFactor") -> "TriangularFactor":
         """The R factor of both batches stacked."""
-        k = self.r.shape[1]
-        r = scipy.linalg.qr(np.vstack([self.r, other.r]), mode="r", check_finite=False)[0]
-        return TriangularFactor(_square(r, k), self.rows + other.rows)
+        return TriangularFactor(triangular(np.vstack([self.r, other.r])), self.rows + other.rows)
 
 
-def _square(r: np.ndarray, k: int) -> np.ndarray:
-    out = np.zeros((k, k))
-    rows = min(k, r.shape[0])
-    out[:rows] = np.triu(r[:rows, :k])
-    return out
+def triangular(block: np.ndarray) -> np.ndarray:
+    """The k x k upper-triangular R of a rows x k matrix (zero rows below a short matrix's rank).
+
+    LAPACK's Householder QR (``dgeqrf``) runs on a private Fortran-ordered copy that it overwrites.
+    """
+    rows, k = block.shape
+    r = np.zeros((k, k))
+    if rows == 0 or k == 0:
+        return r
+    work = np.array(block, dtype=np.float64, order="F")
+    lwork, _ = scipy.linalg.lapack.dgeqrf_lwork(rows, k)
+    qr, _, _, info = scipy.linalg.lapack.dgeqrf(work, lwork=int(lwork), overwrite_a=1)
+    if info != 0:
+        raise np.linalg.LinAlgError(f"dgeqrf failed with info={info}")
+    top = min(k, rows)
+    r[:top] = np.triu(qr[:top, :k])
+    return r

@@ -1,0 +1,182 @@
+"""Reading a table file as a sequence of row batches, so that no more than one batch need be in memory.
+
+Parquet is read row group by row group, Arrow IPC batch by batch (memory
+mapped), delimited text with pyarrow's streaming reader (the same parser,
+types and missing-value settings as :func:`prefit.reading.read_table`,
+compressed or not). JSON Lines and stdin have no streaming reader here: they
+are read whole and then cut into batches.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import io
+import os
+from dataclasses import dataclass
+from typing import Iterator
+
+import pyarrow as pa
+
+from .errors import UsageProblem
+from .reading import (
+    ReadOptions,
+    TableInfo,
+    _check_header,
+    _format_from_bytes,
+    _format_from_name,
+    _sniff_sep,
+    is_readable_file,
+    read_table,
+)
+
+BATCH_ROWS = 65_536
+CSV_BLOCK_BYTES = 1 << 24
+SNIFF_BYTES = 64 * 1024
+
+
+@dataclass(frozen=True)
+class BatchSource:
+    """A table file read in row batches; :meth:`batches` may be called once per pass."""
+
+    path: str
+    format: str
+    compression: str | None
+    options: ReadOptions
+    rows: int | None
+    sep: str | None = None
+    streamed: bool = True
+
+    def batches(self, batch_rows: int = BATCH_ROWS) -> Iterator[pa.Table]:
+        """The table's rows in order, at most ``batch_rows`` at a time, as one-chunk tables."""
+        if self.format == "parquet":
+            import pyarrow.parquet as pq
+
+            with pq.ParquetFile(self.path) as handle:
+                for batch in handle.iter_batches(batch_size=batch_rows):
+                    yield pa.Table.from_batches([batch])
+        elif self.format == "arrow":
+            yield from self._arrow_batches(batch_rows)
+        elif self.streamed:
+            yield from self._csv_batches(batch_rows)
+        else:
+            table, _ = read_table(self.path, self.options)
+            for batch in table.to_batches(max_chunksize=batch_rows):
+                yield pa.Table.from_batches([batch], schema=table.schema)
+
+    def _arrow_batches(self, batch_rows: int) -> Iterator[pa.Table]:
+        import pyarrow.ipc as ipc
+
+        with pa.memory_map(self.path, "r") as source:
+            head = source.read(6)
+            source.seek(0)
+            reader = ipc.open_file(source) if head == b"ARROW1" else ipc.open_stream(source)
+            batches = (reader.get_batch(i) for i in range(reader.num_record_batches)) if head == b"ARROW1" else iter(reader)
+            for batch in batches:
+                for start in range(0, batch.num_rows, batch_rows):
+                    yield pa.Table.from_batches([batch.slice(start, batch_rows)])
+
+    def _csv_batches(self, batch_rows: int) -> Iterator[pa.Table]:
+        import pyarrow.csv as pacsv
+
+        stream = pa.input_stream(self.path, compression=self.compression)
+        reader = pacsv.open_csv(
+            stream,
+            read_options=pacsv.ReadOptions(block_size=CSV_BLOCK_BYTES),
+            parse_options=pacsv.ParseOptions(delimiter=self.sep or ","),
+            convert_options=pacsv.ConvertOptions(null_values=[""], strings_can_be_null=True, quoted_strings_can_be_null=True),
+        )
+        try:
+            for batch in reader:
+                for start in range(0, batch.num_rows, batch_rows):
+                    yield pa.Table.from_batches([batch.slice(start, batch_rows)])
+        except pa.ArrowInvalid as exc:
+            raise UsageProblem(self.path, f"cannot be read as delimited text ({str(exc).splitlines()[0]})", "check the file and --sep, or read it with --engine memory") from None
+        finally:
+            stream.close()
+
+    def schema(self) -> pa.Schema:
+        """The column names and types of the first batch."""
+        batches = self.batches()
+        try:
+            first = next(batches, None)
+        finally:
+            batches.close()
+        if first is None:
+            raise UsageProblem(self.path, "has a header but no data rows", "give a table with at least one data row")
+        return first.schema
+
+    def info(self, rows: int, columns: int) -> TableInfo:
+        """The table facts, with the file's digest computed by streaming its bytes."""
+        return TableInfo(path=self.path, format=self.format, rows=rows, columns=columns, sha256=file_digest(self.path))
+
+
+def file_digest(path: str) -> str:
+    """SHA-256 of the file's bytes, read in blocks."""
+    with open(path, "rb") as handle:
+        return hashlib.file_digest(handle, "sha256").hexdigest()
+
+
+def open_batches(path: str, options: ReadOptions = ReadOptions()) -> BatchSource:
+    """Open ``path`` for reading in batches: its format, compression, delimiter and column count, read-only."""
+    if path == "-" or not is_readable_file(path):
+        raise UsageProblem(path, "cannot be streamed (stdin or not a file)", "give a file path, or use --engine memory")
+    with open(path, "rb") as handle:
+        head = handle.read(SNIFF_BYTES)
+    if not head:
+        raise UsageProblem(path, "is empty", "give a table with a header row and data rows")
+    fmt, codec = _format_from_name(path)
+    sniffed_fmt, sniffed_codec = _format_from_bytes(head[:16])
+    if sniffed_fmt in ("parquet", "arrow"):
+        fmt, codec = sniffed_fmt, None
+    codec = sniffed_codec or codec
+    if fmt == "parquet":
+        return _parquet_source(path, options)
+    if fmt == "arrow":
+        return _arrow_source(path, options)
+    if fmt in (None, "csv") and options.encoding.lower().replace("_", "-") in ("utf-8", "utf8", "utf-8-sig") and codec in (None, "gzip", "bz2", "zstd"):
+        text = pa.input_stream(path, compression=codec).read(SNIFF_BYTES) if codec else head
+        if text.startswith(b"\xef\xbb\xbf") or _format_from_bytes(text[:16])[0] is not None:
+            return BatchSource(path, _format_from_bytes(text[:16])[0] or "csv", None, options, None, streamed=False)
+        decoded = text.decode("utf-8", errors="ignore")
+        sep = options.sep if options.sep is not None else _sniff_sep(decoded, path)
+        sep = "\t" if sep == "\\t" else sep
+        if len(sep) != 1:
+            raise UsageProblem("--sep", f"must be one character, got {sep!r}", "use e.g. --sep ';' or --sep '\\t'")
+        import csv
+
+        header = next(csv.reader(io.StringIO(decoded), delimiter=sep), [])
+        _check_header(header, path)
+        return BatchSource(path, "csv", codec, options, None, sep)
+    return BatchSource(path, fmt or "csv", None, options, None, streamed=False)
+
+
+def _parquet_source(path: str, options: ReadOptions) -> BatchSource:
+    import pyarrow.parquet as pq
+
+    try:
+        with pq.ParquetFile(path) as handle:
+            meta = handle.metadata
+            _check_header(list(handle.schema_arrow.names), path)
+            return BatchSource(path, "parquet", None, options, meta.num_rows)
+    except (pa.ArrowInvalid, OSError) as exc:
+        raise UsageProblem(path, f"is not a readable Parquet file ({str(exc).splitlines()[0]})", "re-export it or check that the copy is complete") from None
+
+
+def _arrow_source(path: str, options: ReadOptions) -> BatchSource:
+    import pyarrow.ipc as ipc
+
+    try:
+        with pa.memory_map(path, "r") as source:
+            if source.read(6) == b"ARROW1":
+                source.seek(0)
+                reader = ipc.open_file(source)
+                rows = sum(reader.get_batch(i).num_rows for i in range(reader.num_record_batches))
+                return BatchSource(path, "arrow", None, options, rows)
+            return BatchSource(path, "arrow", None, options, None)
+    except (pa.ArrowInvalid, OSError) as exc:
+        raise UsageProblem(path, f"is not a readable Arrow IPC/Feather file ({str(exc).splitlines()[0]})", "re-export it") from None
+
+
+def file_bytes(path: str) -> int:
+    """The size of a file on disk (0 for stdin)."""
+    return os.path.getsize(path) if path != "-" and os.path.isfile(path) else 0

