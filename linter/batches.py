@@ -13,7 +13,7 @@ import hashlib
 import io
 import os
 from dataclasses import dataclass
-from typing import Iterator
+from typing import Generator, Iterator
 
 import pyarrow as pa
 
@@ -46,7 +46,7 @@ class BatchSource:
     sep: str | None = None
     streamed: bool = True
 
-    def batches(self, batch_rows: int = BATCH_ROWS) -> Iterator[pa.Table]:
+    def batches(self, batch_rows: int = BATCH_ROWS) -> Generator[pa.Table, None, None]:
         """The table's rows in order, at most ``batch_rows`` at a time, as one-chunk tables."""
         if self.format == "parquet":
             import pyarrow.parquet as pq

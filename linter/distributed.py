@@ -104,13 +104,13 @@ class DaskRunner:
 
     def map_merge(self, task: Callable[[pa.Table, int], Any], merge: Callable[[Sequence[Any]], Any], label: str) -> Any:
         """``task`` on every partition (with its first table position), merged pairwise up a tree on the cluster."""
-        import dask
         import pandas as pd
+        from dask.delayed import delayed
 
         parts = self._frame.map_partitions(_run_partition, task, self._offsets, self._schema, meta=pd.Series(dtype=object))
-        level = [dask.delayed(_first)(part) for part in parts.to_delayed()]
+        level = [delayed(_first)(part) for part in parts.to_delayed()]
         while len(level) > 1:
-            level = [dask.delayed(_merge_two)(merge, level[i], level[i + 1]) if i + 1 < len(level) else level[i] for i in range(0, len(level), SPLIT_EVERY)]
+            level = [delayed(_merge_two)(merge, level[i], level[i + 1]) if i + 1 < len(level) else level[i] for i in range(0, len(level), SPLIT_EVERY)]
         return level[0].compute()
 
     def info(self, rows: int, columns: int) -> TableInfo:

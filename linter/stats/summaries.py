@@ -84,9 +84,9 @@ class ColumnTally:
     def summary(self, name: str, kind: Kind, column: pa.ChunkedArray | None = None) -> ColumnSummary:
         """The summary; ``column`` (all rows) gives the distinct count and mode when the tally passed its cap."""
         counts = self.counts
-        if counts is None:
-            counts = _value_counts(column, None) if column is not None else {}
-        distinct, mode, mode_count = _mode(counts)
+        if counts is None and column is not None:
+            counts = _value_counts(column, None)
+        distinct, mode, mode_count = _mode(counts or {})
         return ColumnSummary(name, kind, self.rows, self.missing, self.nonfinite, distinct, mode, mode_count, self.moments)
 
 
