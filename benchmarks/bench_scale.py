@@ -33,16 +33,16 @@ def table_path(rows: int, columns: int, fmt: str) -> Path:
     return CACHE / f"warehouse_{rows}x{columns}.{fmt}"
 
 
-def generate(rows: int, columns: int) -> None:
-    """Write the Parquet and CSV tables of one size (``columns`` counts the target and the category), in slices."""
+def generate(rows: int, columns: int, formats: tuple[str, ...] = ("parquet", "csv")) -> None:
+    """Write the tables of one size (``columns`` counts the target and the category), in slices."""
     import numpy as np
     import pyarrow as pa
     import pyarrow.csv as pacsv
     import pyarrow.parquet as pq
 
     CACHE.mkdir(exist_ok=True)
-    parquet, csv = table_path(rows, columns, "parquet"), table_path(rows, columns, "csv")
-    if parquet.exists() and csv.exists():
+    paths = {fmt: table_path(rows, columns, fmt) for fmt in formats}
+    if all(path.exists() for path in paths.values()):
         return
     rng = np.random.default_rng(rows * 1000 + columns)
     numeric = columns - 2
@@ -62,10 +62,11 @@ def generate(rows: int, columns: int) -> None:
             data = {f"x{j + 1:02d}": pa.array(X[:, j], from_pandas=True) for j in range(numeric)}
             batch = pa.table({**data, "zone": zone, "kwh": kwh})
             if writer_pq is None:
-                writer_pq = pq.ParquetWriter(parquet, batch.schema)
-                writer_csv = pacsv.CSVWriter(csv, batch.schema)
+                writer_pq = pq.ParquetWriter(paths["parquet"], batch.schema)
+                writer_csv = pacsv.CSVWriter(paths["csv"], batch.schema) if "csv" in paths else None
             writer_pq.write_table(batch, row_group_size=GENERATE_ROWS)
-            writer_csv.write_table(batch)
+            if writer_csv is not None:
+                writer_csv.write_table(batch)
     finally:
         if writer_pq is not None:
             writer_pq.close()
@@ -177,7 +178,7 @@ def print_row(row: dict[str, object]) -> None:
 
 def peak_memory_run(rows: int = 10_000_000, columns: int = 20) -> dict[str, object]:
     """The streaming engine on a table larger than its row budget: wall time and peak resident memory."""
-    generate(rows, columns)
+    generate(rows, columns, ("parquet",))
     path = table_path(rows, columns, "parquet")
     command = [sys.executable, "-m", "prefit", "check", str(path), "--target", "kwh", "--format", "json", "--no-config", "--engine", "stream"]
     elapsed, peak = run_process(command)

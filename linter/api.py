@@ -21,6 +21,7 @@ from .accepted import (
 from .context import RunContext
 from .engine import RuleOutcome, error_finding, run_rule, select_rules
 from .engines import EngineRun
+from .passes import SCREENED_RULES
 from .errors import UsageProblem
 from .findings import GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade
 from .options import SETTINGS_BY_KEY, CheckOptions, parse_settings
@@ -240,6 +241,10 @@ def report_for(
         if progress is not None:
             progress.finish()
     findings = [f for o in outcomes for f in o.findings] + [error_finding(o) for o in outcomes if o.error]
+    if engine.sampled:
+        measured = {SCREENED_RULES[screen.measure] for screen in engine.screens}
+        screened = tuple(rule.id for rule, _ in selected if rule.id in measured)
+        engine = replace(engine, on_sample=tuple(o.rule for o in outcomes), screened=screened)
     design = context.design
     description = design.describe()
     description["kinds"] = {name: str(kind) for name, kind in roles.kinds.items()}

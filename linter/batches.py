@@ -31,6 +31,7 @@ from .reading import (
 
 BATCH_ROWS = 65_536
 CSV_BLOCK_BYTES = 1 << 24
+PARQUET_BUFFER = 1 << 20
 SNIFF_BYTES = 64 * 1024
 
 
@@ -51,8 +52,9 @@ class BatchSource:
         if self.format == "parquet":
             import pyarrow.parquet as pq
 
-            with pq.ParquetFile(self.path) as handle:
-                for batch in handle.iter_batches(batch_size=batch_rows):
+            # Without pre-buffering and with a bounded read buffer, memory holds one row group's pages, not the file.
+            with pq.ParquetFile(self.path, pre_buffer=False, buffer_size=PARQUET_BUFFER) as handle:
+                for batch in handle.iter_batches(batch_size=batch_rows, use_threads=False):
                     yield pa.Table.from_batches([batch])
         elif self.format == "arrow":
             yield from self._arrow_batches(batch_rows)

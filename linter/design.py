@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Mapping
+from typing import Callable, Mapping
 
 import numpy as np
 import pyarrow as pa
@@ -160,10 +160,16 @@ class ModelColumns:
     missing_by_column: Mapping[str, int]
 
     @classmethod
-    def of(cls, table: pa.Table, roles: Roles) -> "ModelColumns":
-        """Read the model columns: a row is complete with the target and every predictor present and finite."""
+    def of(cls, table: pa.Table, roles: Roles, values: Callable[[str], np.ndarray] | None = None) -> "ModelColumns":
+        """Read the model columns: a row is complete with the target and every predictor present and finite.
+
+        ``values`` converts a numeric column to float64 (default: :func:`numeric_values`
+        of the table's column); the run context passes its shared, cached conversion.
+        """
+        if values is None:
+            values = lambda name: numeric_values(table.column(name))  # noqa: E731
         n_rows = table.num_rows
-        y = numeric_values(table.column(roles.target)) if roles.kinds[roles.target] in (Kind.NUMERIC, Kind.BOOLEAN) else np.full(n_rows, np.nan)
+        y = values(roles.target) if roles.kinds[roles.target] in (Kind.NUMERIC, Kind.BOOLEAN) else np.full(n_rows, np.nan)
         complete = np.isfinite(y)
         missing_by_column: dict[str, int] = {roles.target: int(n_rows - np.count_nonzero(complete))}
         numeric: dict[str, np.ndarray] = {}
@@ -172,9 +178,8 @@ class ModelColumns:
             kind = roles.kinds[name]
             column = table.column(name)
             if kind in (Kind.NUMERIC, Kind.DATETIME):
-                values = numeric_values(column)
-                present = np.isfinite(values)
-                numeric[name] = values
+                numeric[name] = values(name)
+                present = np.isfinite(numeric[name])
             else:
                 categories[name] = category_codes(column, kind)
                 present = categories[name][0] >= 0
@@ -208,14 +213,14 @@ class ModelColumns:
         return X, y, positions
 
 
-def build_design(table: pa.Table, roles: Roles, intercept: bool = True) -> Design:
+def build_design(table: pa.Table, roles: Roles, intercept: bool = True, values: Callable[[str], np.ndarray] | None = None) -> Design:
     """Build the complete-case design: rows with the target and every predictor present and finite.
 
     The design is written straight into one preallocated C-ordered float64
     array (row batches of it are contiguous for the batched QR and row
-    scoring); numeric columns are read without copies where Arrow allows.
+    scoring); ``values`` is as for :meth:`ModelColumns.of`.
     """
-    columns = ModelColumns.of(table, roles)
+    columns = ModelColumns.of(table, roles, values)
     terms: list[Term] = [Term(INTERCEPT, None, (INTERCEPT,))] if intercept else []
     for name in roles.predictors:
         kind = roles.kinds[name]

@@ -22,6 +22,7 @@ from typing import TYPE_CHECKING, Any, Callable, Iterator, Mapping, Protocol, Se
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.compute as pc
 
 from .batches import BatchSource, file_bytes
 from .errors import UsageProblem
@@ -38,6 +39,7 @@ from .roles import apply_missing_codes
 ENGINES = ("memory", "stream", "dask")
 AUTO_STREAM_BYTES = 1 << 30
 SAMPLE_CELLS = 6_000_000
+FEW_VALUES = 1_000
 SAMPLE_SEED = 0x5EED_0F_1E1D
 _MIX = (np.uint64(0x9E3779B97F4A7C15), np.uint64(0xBF58476D1CE4E5B9), np.uint64(0x94D049BB133111EB))
 
@@ -127,8 +129,8 @@ class StreamRunner:
                 offset += batch.num_rows
                 if bar is not None:
                     bar.advance(batch.num_rows)
-                # Merge as we go so that memory holds a few results, not one per batch.
-                if len(results) >= 8:
+                # Merge as we go so that memory holds two results, not one per batch.
+                if len(results) == 2:
                     results = [merge(results)]
         finally:
             if bar is not None:
@@ -153,6 +155,8 @@ class EngineRun:
     rules_rows: int
     complete_rows: int | None = None
     screens: tuple[MeasureScreen, ...] = field(default=(), repr=False)
+    on_sample: tuple[str, ...] = ()
+    screened: tuple[str, ...] = ()
 
     @property
     def sampled(self) -> bool:
@@ -182,6 +186,8 @@ class EngineRun:
                 "how": "rows with the smallest seeded hash of their position (uniform, the same for any batching)",
             }
             out["complete_rows"] = self.complete_rows
+            out["rules_on_sample"] = list(self.on_sample)
+            out["rules_with_every_row_screened"] = list(self.screened)
             out["row_screens"] = {s.measure: s.to_dict() for s in self.screens}
         return out
 
@@ -232,9 +238,10 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
     info = runner.info(kept.seen, kept.table.num_columns)
     context = build_context(kept.table, info, options)
     roles, intercept, schema, codes = context.roles, options.intercept, context.table.schema, options.missing_codes
+    counted = frozenset() if kept.whole else few_values(kept.table)
 
     def pass_one(batch: pa.Table, offset: int) -> TableStatistics:
-        return first_pass(conformed(batch, schema, codes), roles, intercept)
+        return first_pass(conformed(batch, schema, codes), roles, intercept, counted)
 
     statistics: TableStatistics = runner.map_merge(pass_one, merge_all, "pass 1")
     if kept.whole:
@@ -251,6 +258,15 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
 
         screens = runner.map_merge(pass_two, merge_screens, "pass 2")
     return context, EngineRun(runner.name, kept.seen, kept.table.num_rows, statistics.model.rows, screens)
+
+
+def few_values(sample: pa.Table) -> frozenset[str]:
+    """Columns whose distinct values pass 1 counts over the whole table: those with few distinct values in the sample.
+
+    Within the row budget nothing is counted: the kept rows are the whole
+    table and give the exact distinct count and mode directly.
+    """
+    return frozenset(name for name in sample.column_names if pc.count_distinct(sample.column(name)).as_py() <= FEW_VALUES)
 
 
 def whole_fit(statistics: TableStatistics, kinds: Mapping[str, Kind], intercept: bool) -> PreliminaryFit:

@@ -27,9 +27,16 @@ from .stats.fit import PreliminaryFit
 from .stats.influence import row_influence
 from .stats.mergeable import Moments, TriangularFactor, triangular
 from .stats.missingness import MissingPatterns
-from .stats.summaries import ColumnTally
+from .stats.summaries import DISTINCT_CAP, ColumnTally
 
 TOP_ROWS = 20
+SCREENED_RULES = {
+    "leverage": "influence.leverage",
+    "studentized_residual": "outliers.studentized-residual",
+    "cooks_distance": "influence.cooks-distance",
+    "dffits": "influence.dffits",
+    "dfbetas": "influence.dfbetas",
+}
 
 
 @dataclass(frozen=True)
@@ -159,10 +166,10 @@ class TableStatistics:
         )
 
 
-def first_pass(batch: pa.Table, roles: Roles, intercept: bool) -> TableStatistics:
-    """Pass 1 over one batch of table rows."""
+def first_pass(batch: pa.Table, roles: Roles, intercept: bool, counted: frozenset[str] = frozenset()) -> TableStatistics:
+    """Pass 1 over one batch of table rows; the distinct values of the ``counted`` columns are counted too."""
     columns = ModelColumns.of(batch, roles)
-    tallies = {name: ColumnTally.of(batch.column(name), roles.kinds[name]) for name in batch.column_names}
+    tallies = {name: ColumnTally.of(batch.column(name), roles.kinds[name], cap=DISTINCT_CAP if name in counted else 0) for name in batch.column_names}
     model_columns = (roles.target, *roles.predictors)
     mask = np.column_stack([_missing(columns, batch, name, roles) for name in model_columns]) if batch.num_rows else np.zeros((0, len(model_columns)), dtype=bool)
     patterns = MissingPatterns.of(model_columns, mask)

@@ -33,6 +33,8 @@ class Refined:
 
     ``correction`` is the relative size of the last correction applied: once
     refinement has converged it bounds the error the solver itself leaves.
+    When refinement was not needed (``steps`` 0) it is the a-priori bound on
+    the plain solution's relative error.
     """
 
     z: np.ndarray

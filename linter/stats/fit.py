@@ -13,6 +13,8 @@ from .blas import one_blas_thread
 from .factor import DesignFactor
 
 SCORE_ROWS = 8_192
+REFINE_ABOVE = 1e-9
+EPS = float(np.finfo(np.float64).eps)
 
 
 @dataclass(frozen=True)
@@ -69,7 +71,31 @@ class PreliminaryFit:
         if self.X is None or self.y is None or k == 0:
             return None
         z = scipy.linalg.solve_triangular(f.r[:k, :k], f.qty[:k], check_finite=False)
+        if self.forward_error_bound <= REFINE_ABOVE:
+            return Refined(z, float(f.rss_outside + np.sum(f.qty[k:] ** 2)), self.forward_error_bound, 0)
         return refine(f, self.X, self.y, z)
+
+    @cached_property
+    def forward_error_bound(self) -> float:
+        """A first-order bound on the relative error of the plain QR solution: ``k eps kappa (2 + kappa tan(theta))``.
+
+        ``kappa`` is the condition number of the estimable, unit-length-scaled
+        columns and ``tan(theta)`` the ratio of the residual norm to the fitted
+        values' norm. Below :data:`REFINE_ABOVE` the solution needs no refinement
+        (and the row passes that refinement costs are skipped).
+
+        References
+        ----------
+        Higham, N. J. (2002). Accuracy and Stability of Numerical Algorithms, 2nd ed., thm. 20.1. SIAM.
+        Golub, G. H., Van Loan, C. F. (2013). Matrix Computations, 4th ed., sec. 5.3.8.
+        """
+        f, k = self.factor, self.rank
+        values = scipy.linalg.svdvals(f.r[:k, :k]) if k else np.ones(1)
+        kappa = float(values[0] / values[-1]) if values[-1] > 0 else float("inf")
+        fitted = float(np.linalg.norm(f.qty[:k]))
+        residual = float(np.sqrt(f.rss_outside + np.sum(f.qty[k:] ** 2)))
+        tangent = residual / fitted if fitted > 0 else float("inf")
+        return float(k * EPS * kappa * (2.0 + kappa * tangent))
 
     @cached_property
     def coef(self) -> np.ndarray:
