@@ -21,12 +21,12 @@ from .accepted import (
 from .context import RunContext
 from .engine import RuleOutcome, error_finding, run_rule, select_rules
 from .engines import EngineRun
-from .passes import SCREENED_RULES
 from .errors import UsageProblem
 from .findings import GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade
 from .options import SETTINGS_BY_KEY, CheckOptions, parse_settings
+from .passes import SCREENED_RULES
 from .progress import RunProgress
-from .reading import ReadOptions, TableInfo, read_table
+from .reading import ReadOptions, TableInfo, decode_dictionaries, read_table
 from .registry import Registry, discover
 from .roles import apply_missing_codes, distinct_labels, resolve_roles
 from .rule import RuleLike, RuleSettings
@@ -273,9 +273,9 @@ def _as_table(source: "pa.Table | pd.DataFrame | str | Path", read: ReadOptions)
     if isinstance(source, (str, Path)):
         return read_table(str(source), read)
     if isinstance(source, pa.Table):
-        table = source
+        table = decode_dictionaries(source)
     else:
-        table = pa.Table.from_pandas(source, preserve_index=False)
+        table = decode_dictionaries(pa.Table.from_pandas(source, preserve_index=False))
     if table.num_rows == 0:
         raise UsageProblem("table", "has no data rows", "give a table with at least one row")
     name = "<table>" if isinstance(source, pa.Table) else "<DataFrame>"

@@ -25,6 +25,7 @@ from .reading import (
     _format_from_bytes,
     _format_from_name,
     _sniff_sep,
+    decode_dictionaries,
     is_readable_file,
     read_table,
 )
@@ -55,7 +56,7 @@ class BatchSource:
             # Without pre-buffering and with a bounded read buffer, memory holds one row group's pages, not the file.
             with pq.ParquetFile(self.path, pre_buffer=False, buffer_size=PARQUET_BUFFER) as handle:
                 for batch in handle.iter_batches(batch_size=batch_rows, use_threads=False):
-                    yield pa.Table.from_batches([batch])
+                    yield decode_dictionaries(pa.Table.from_batches([batch]))
         elif self.format == "arrow":
             yield from self._arrow_batches(batch_rows)
         elif self.streamed:
@@ -75,7 +76,7 @@ class BatchSource:
             batches = (reader.get_batch(i) for i in range(reader.num_record_batches)) if head == b"ARROW1" else iter(reader)
             for batch in batches:
                 for start in range(0, batch.num_rows, batch_rows):
-                    yield pa.Table.from_batches([batch.slice(start, batch_rows)])
+                    yield decode_dictionaries(pa.Table.from_batches([batch.slice(start, batch_rows)]))
 
     def _csv_batches(self, batch_rows: int) -> Iterator[pa.Table]:
         import pyarrow.csv as pacsv

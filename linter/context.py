@@ -26,7 +26,7 @@ from .stats.influence import RowInfluence, row_influence
 from .stats.mergeable import Moments
 from .stats.missingness import Holes
 from .stats.robust import median_and_mad
-from .stats.summaries import ColumnSummary, summarise
+from .stats.summaries import ColumnSummary, ColumnTally, summarise
 from .stats.textnumbers import TextNumbers
 
 
@@ -56,11 +56,12 @@ class RunContext:
     _text_numbers: dict[str, TextNumbers] = field(default_factory=dict, init=False, repr=False)
     _values: dict[str, np.ndarray] = field(default_factory=dict, init=False, repr=False)
     _spreads: dict[str, tuple[float, float]] = field(default_factory=dict, init=False, repr=False)
+    _tallies: dict[str, ColumnTally] = field(default_factory=dict, init=False, repr=False)
 
     @cached_property
     def design(self) -> Design:
         """The complete-case design matrix and target (built once)."""
-        return build_design(self.table, self.roles, intercept=self.options.intercept)
+        return build_design(self.table, self.roles, intercept=self.options.intercept, values=self.values)
 
     @cached_property
     def factor(self) -> DesignFactor:
@@ -118,10 +119,40 @@ class RunContext:
                 self._summaries[column] = summarise(column, self.table.column(column), kind)
         return self._summaries[column]
 
+    def tally(self, column: str) -> ColumnTally:
+        """Row, missing and non-finite counts and moments of a numeric or true/false column over all rows (computed once).
+
+        The same counts and moments as :meth:`summary`, without its distinct
+        values and mode, which cost a hash of every value.
+        """
+        if self.statistics is not None:
+            return self.statistics.tallies[column]
+        if column not in self._tallies:
+            values = self.values(column)
+            missing = self.table.column(column).null_count
+            nonfinite = int(values.size - np.count_nonzero(np.isfinite(values))) - missing
+            self._tallies[column] = ColumnTally(values.size, missing, nonfinite, Moments.of(values), None)
+        return self._tallies[column]
+
+    def design_column(self, name: str) -> np.ndarray:
+        """One column of the design matrix over the complete cases, as a contiguous array (not cached: no lasting memory).
+
+        A numeric predictor's column is gathered from :meth:`values` (its
+        shared read-only array itself when every row is complete); a dummy
+        is copied out of ``design.X``, whose row-major layout makes every
+        whole-column pass read the entire matrix.
+        """
+        design = self.design
+        term = design.term(design.column_sources[design.column_names.index(name)])
+        if term.kind in (Kind.NUMERIC, Kind.DATETIME) and term.reference is None:
+            values = self.values(term.source)
+            return values if design.n == values.size else values[design.positions]
+        return np.ascontiguousarray(design.X[:, design.column_names.index(name)])
+
     @cached_property
     def holes(self) -> Holes:
         """Where the target and predictors are missing (null or NaN), row by row, and the row patterns."""
-        return Holes.of(self.table, self.model_columns, self.roles.kinds)
+        return Holes.of(self.table, self.model_columns, self.roles.kinds, self.values)
 
     def text_numbers(self, column: str) -> TextNumbers:
         """How many values of a text column are numbers, formatted numbers or other tokens."""

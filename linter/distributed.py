@@ -21,6 +21,7 @@ from .reading import ReadOptions, TableInfo
 SPLIT_EVERY = 2
 CSV_BLOCK = "64MB"
 LOCAL_WORKERS = 2
+CONNECT_TIMEOUT = "5s"
 
 
 def _import_dask() -> Any:
@@ -79,7 +80,7 @@ class DaskRunner:
         self._source, self._schema = source, source.schema()
         if self.scheduler is not None:
             try:
-                self._client = distributed.Client(self.scheduler, timeout="10s")
+                self._client = distributed.Client(self.scheduler, timeout=CONNECT_TIMEOUT)
             except (OSError, TimeoutError) as exc:
                 raise UsageProblem(f"--scheduler {self.scheduler}", f"cannot be reached ({exc})", "check the address, e.g. tcp://10.0.0.5:8786") from None
         else:

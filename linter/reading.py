@@ -243,6 +243,7 @@ def read_table(path: str, options: ReadOptions = ReadOptions()) -> tuple[pa.Tabl
         data = _check_encoding(data, options.encoding, path)
         table = _read_jsonl(data, path) if fmt == "jsonl" else _read_csv(data, options, path)
     _check_header(list(table.column_names), path)
+    table = decode_dictionaries(table)
     if table.num_columns == 0:
         raise UsageProblem(path, "has no columns", "give a table with a header row")
     if table.num_rows == 0:
@@ -252,6 +253,14 @@ def read_table(path: str, options: ReadOptions = ReadOptions()) -> tuple[pa.Tabl
             raise UsageProblem(path, f"column {name!r} holds bytes that are not text", "name the file's encoding with --encoding")
     info = TableInfo(path=path, format=fmt, rows=table.num_rows, columns=table.num_columns, sha256=digest)
     return table, info
+
+
+def decode_dictionaries(table: pa.Table) -> pa.Table:
+    """The table with dictionary-encoded columns (pandas categoricals in Parquet, Arrow) decoded to their values."""
+    for index, field in enumerate(table.schema):
+        if pa.types.is_dictionary(field.type):
+            table = table.set_column(index, field.name, table.column(index).cast(field.type.value_type))
+    return table
 
 
 def is_readable_file(path: str) -> bool:

@@ -5,6 +5,14 @@ matter: with thousands of rows a test detects departures too small to change
 any conclusion, so a finding reports the p-value beside a measure of damage
 (how far the usual standard errors are off, how much variance a bend
 explains, how strongly neighbouring residuals move together).
+
+Every preview reads all complete cases, except White's test on a large,
+wide table: its auxiliary regression has ``p (p + 1) / 2`` columns and
+costs ``n`` times their square, so when that exceeds a fixed budget it runs
+on a subset of rows chosen by a seeded hash of their table position (see
+:func:`prefit.stats.residual_tests.white_within_budget`); the finding then
+says how many rows it used and why, while the Breusch-Pagan test and the
+HC3-against-usual standard errors that grade the finding use every row.
 """
 
 from __future__ import annotations
@@ -23,18 +31,21 @@ from prefit.stats.auxiliary import (
     autocorrelations,
     durbin_watson,
     hc3_standard_errors,
+    r_squared_on_each,
     regress_added,
 )
 from prefit.stats.curvature import CurvatureCheck, square_columns
 from prefit.stats.factor import DesignFactor
 from prefit.stats.residual_tests import (
     ResidualTest,
+    SampledTest,
     breusch_godfrey,
     breusch_pagan,
     default_lags,
     jarque_bera,
     reset,
-    white,
+    white_columns,
+    white_within_budget,
 )
 
 ALPHA = Threshold("alpha", 0.01, "common practice: 1% significance level, as each preview is one of several tests")
@@ -64,17 +75,14 @@ def _intercept_column(ctx: RunContext) -> int | None:
 def _spread_share_by_term(ctx: RunContext, squared: np.ndarray) -> dict[str, float]:
     """For each predictor, the R^2 of the squared residuals on that predictor alone (with a constant)."""
     design = ctx.design
-    start, shares = 0, {}
+    start, sources, groups = 0, [], []
     for term in design.terms:
         width = term.df
         if term.kind is not None and width:
-            block = np.column_stack([np.ones(design.n), design.X[:, start : start + width]])
-            coef, *_ = np.linalg.lstsq(block, squared, rcond=None)
-            residual = squared - block @ coef
-            total = float(np.sum((squared - squared.mean()) ** 2))
-            shares[term.source] = 1.0 - float(residual @ residual) / total if total > 0 else 0.0
+            sources.append(term.source)
+            groups.append(range(start, start + width))
         start += width
-    return shares
+    return dict(zip(sources, r_squared_on_each(design.X, squared, groups)))
 
 
 def _residual_after_bends(ctx: RunContext) -> tuple[np.ndarray, list[str], int]:
@@ -103,9 +111,10 @@ def _heteroscedasticity(ctx: RunContext, settings: RuleSettings) -> Iterator[Fin
     koenker = breusch_pagan(ctx.factor, X, residual, design.intercept)
     intercept = _intercept_column(ctx)
     others = design.p - 1
-    general: ResidualTest | None = None
+    sampled: SampledTest | None = None
     if intercept is not None and others * (others + 1) // 2 <= WHITE_MAX_PRODUCTS:
-        general = white(ctx.factor, X, residual, intercept)
+        sampled = white_within_budget(ctx.factor, X, residual, intercept, design.positions)
+    general = sampled.test if sampled else None
     p_value = min(koenker.p_value, general.p_value if general else 1.0)
     if not p_value < settings.limit("alpha"):
         return
@@ -128,7 +137,7 @@ def _heteroscedasticity(ctx: RunContext, settings: RuleSettings) -> Iterator[Fin
     leader = max(shares, key=lambda name: (shares[name], name))
     coefficient = design.column_names[worst]
     direction = "too small" if ratio[worst] > 1 else "too large"
-    white_text = f"; White LM = {fmt(general.statistic)} (df {general.df}, {_p(general.p_value)})" if general else ""
+    white_text = f"; White LM = {fmt(general.statistic)} (df {general.df}, {_p(general.p_value)}{_on_rows(sampled, design.p)})" if general else ""
     after = f" (after allowing for the bend in {', '.join(bent)})" if bent else ""
     yield settings.finding(
         grade,
@@ -143,13 +152,39 @@ def _heteroscedasticity(ctx: RunContext, settings: RuleSettings) -> Iterator[Fin
         f"or fit weighted least squares with weights that fall as {leader} grows",
         details={
             "breusch_pagan": _test_details(koenker),
-            "white": _test_details(general) if general else None,
+            "white": _white_details(sampled, design.p) if sampled else None,
             "se_ratio_hc3_to_usual": {design.column_names[j]: float(ratio[j]) for j in candidates},
             "spread_r_squared_by_predictor": shares,
             "alpha": settings.limit("alpha"),
             "after_bends_in": bent,
         },
     )
+
+
+def _row_sample_reason(sampled: SampledTest, p: int) -> str | None:
+    """Why White's test ran on a subset of the rows, or None when it used them all."""
+    if not sampled.sampled:
+        return None
+    columns = white_columns(p) - 1
+    return (
+        f"its auxiliary regression has {columns} columns, so on all {sampled.rows:,} rows it would cost about "
+        f"{sampled.rows:,} x {columns}^2 operations; {sampled.rows_used:,} rows chosen by a seeded hash of their position "
+        "keep its chi-squared reference, and the standard errors compared use all rows"
+    )
+
+
+def _on_rows(sampled: SampledTest | None, p: int) -> str:
+    if sampled is None or not sampled.sampled:
+        return ""
+    return (
+        f", on {sampled.rows_used:,} of {sampled.rows:,} rows chosen by a seeded hash, as its "
+        f"{white_columns(p) - 1}-column auxiliary regression on every row would be slow"
+    )
+
+
+def _white_details(sampled: SampledTest, p: int) -> dict[str, object]:
+    reason = _row_sample_reason(sampled, p)
+    return _test_details(sampled.test) | {"rows_used": sampled.rows_used, "rows": sampled.rows, "row_sample": reason}
 
 
 def _test_details(test: ResidualTest) -> dict[str, float]:

@@ -12,8 +12,9 @@ import pyarrow.compute as pc
 from prefit.context import RunContext
 from prefit.design import category_codes
 from prefit.findings import Finding, Grade
-from prefit.roles import Kind
+from prefit.roles import Kind, numeric_values
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.stats.rowmatch import ColumnBits, candidate_rows, value_bits
 from prefit.stats.textnumbers import is_text_type, mostly_number_like
 
 SQUARE_SAFE = float(np.sqrt(np.finfo(np.float64).max))
@@ -23,6 +24,9 @@ COUNTER_RUN_RATIO = 3.0
 TIME_NAME = re.compile(r"(^|[_\W])(t|year|yr|quarter|month|week|day|date|time|hour|period|trend)s?($|[_\W])", re.IGNORECASE)
 MANY_DUMMIES = 100
 EXACT_CORRELATION = 1e-12
+SPOT_ROWS = 4_096
+SCALE_ALLOWANCE = 1e-9
+SCREEN_ALLOWANCE = 1e-6
 
 
 # ---------------------------------------------------------------- constant-predictor
@@ -41,7 +45,7 @@ def _constant_predictor(ctx: RunContext, settings: RuleSettings) -> Iterator[Fin
                 only = term.reference if term.reference is not None else "(none)"
                 yield _constant_finding(settings, grade, term.source, f"category {only!r}", design.n)
             continue
-        column = design.X[:, design.column_names.index(term.columns[0])]
+        column = ctx.design_column(term.columns[0])
         if np.ptp(column) == 0:
             yield _constant_finding(settings, grade, term.source, f"{column[0]:g}", design.n)
 
@@ -63,17 +67,51 @@ def _constant_finding(settings: RuleSettings, grade: Grade, column: str, value: 
 
 def _row_groups(columns: list[pa.ChunkedArray]) -> tuple[np.ndarray, np.ndarray]:
     """For each row, the index of its group of identical rows, and the size of each group."""
-    codes = []
-    for chunked in columns:
-        column = chunked.combine_chunks()
-        if pa.types.is_null(column.type):
-            codes.append(np.full(len(column), -1, dtype=np.int64))
-            continue
-        if pa.types.is_floating(column.type):
-            column = pc.if_else(pc.is_nan(column), pa.scalar(None, column.type), column)
-        encoded = pc.dictionary_encode(column)
-        codes.append(encoded.indices.fill_null(-1).to_numpy(zero_copy_only=False).astype(np.int64))
-    return _group_codes(codes)
+    return _group_codes([_value_codes(chunked) for chunked in columns])
+
+
+def _value_codes(chunked: pa.ChunkedArray) -> np.ndarray:
+    """One code (>= -1) per row: equal values share a code; missing and NaN are -1."""
+    column = chunked.combine_chunks()
+    if pa.types.is_null(column.type):
+        return np.full(len(column), -1, dtype=np.int64)
+    if pa.types.is_floating(column.type):
+        column = pc.if_else(pc.is_nan(column), pa.scalar(None, column.type), column)
+    encoded = pc.dictionary_encode(column)
+    return encoded.indices.fill_null(-1).to_numpy(zero_copy_only=False).astype(np.int64)
+
+
+def _table_bits(ctx: RunContext, name: str) -> ColumnBits:
+    """The bits of a table column at given rows: float values for numbers, value codes for the rest."""
+    column = ctx.table.column(name)
+    if not (pa.types.is_integer(column.type) or pa.types.is_float32(column.type) or pa.types.is_float64(column.type)):
+        return lambda rows: _value_codes(column if rows is None else column.take(rows)).view(np.uint64)
+    if name in ctx.model_columns and ctx.roles.kinds[name] is Kind.NUMERIC:
+        shared = ctx.values(name)
+        return lambda rows: value_bits(shared if rows is None else shared[rows])
+    return lambda rows: value_bits(numeric_values(column if rows is None else column.take(rows)))
+
+
+def _repeated_rows(ctx: RunContext) -> tuple[np.ndarray, np.ndarray]:
+    """Table positions of the rows that repeat an earlier row in every column, and the sizes of the groups of equal rows.
+
+    Hashes narrow the table to candidate rows (number columns first: they
+    narrow fastest); the candidates are then grouped exactly, by value, as
+    :func:`_row_groups` groups a whole table. Rows left out are unique, so
+    groups of several rows are the same as over the whole table.
+    """
+    table = ctx.table
+    numbers_first = sorted(table.column_names, key=lambda name: not _is_number(table.column(name).type))
+    candidates = candidate_rows((_table_bits(ctx, name) for name in numbers_first), table.num_rows)
+    if candidates.size == 0:
+        return candidates, np.empty(0, dtype=np.int64)
+    chosen = table if candidates.size == table.num_rows else table.take(candidates)
+    groups, counts = _row_groups(list(chosen.columns))
+    return candidates[_later_copies(groups)], counts
+
+
+def _is_number(t: pa.DataType) -> bool:
+    return bool(pa.types.is_integer(t) or pa.types.is_floating(t))
 
 
 def _group_codes(codes: list[np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
@@ -101,10 +139,8 @@ def _later_copies(groups: np.ndarray) -> np.ndarray:
 
 
 def _duplicate_rows(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
-    table = ctx.table
-    rows = table.num_rows
-    groups, counts = _row_groups(list(table.columns))
-    copies = _later_copies(groups)
+    rows = ctx.table.num_rows
+    copies, counts = _repeated_rows(ctx)
     limit = settings.threshold("weakens")
     if copies.size and limit.crossed(copies.size / rows):
         listed, _, total = ctx.listed_rows(copies)
@@ -128,12 +164,17 @@ def _replicates(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     design = ctx.design
     if design.n < 3 or design.p == 0 or not ctx.target_is_numeric:
         return
-    columns = [np.unique(design.X[:, j], return_inverse=True)[1].reshape(-1).astype(np.int64) for j in range(design.p)]
+    candidates = _replicate_candidates(ctx)
+    if candidates.size == 0:
+        return
+    every_row = candidates.size == design.n
+    X = design.X if every_row else design.X[candidates]
+    y = design.y if every_row else design.y[candidates]
+    columns = [np.unique(X[:, j], return_inverse=True)[1].reshape(-1).astype(np.int64) for j in range(design.p)]
     inverse, counts = _group_codes(columns)
     shared = np.flatnonzero(counts > 1)
     if shared.size == 0:
         return
-    y = design.y
     low = np.full(counts.size, np.inf)
     high = np.full(counts.size, -np.inf)
     np.minimum.at(low, inverse, y)
@@ -142,7 +183,7 @@ def _replicates(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     if varying.size == 0:
         return
     in_groups = np.isin(inverse, varying)
-    listed, _, total = ctx.listed_rows(design.positions[in_groups])
+    listed, _, total = ctx.listed_rows(design.positions[candidates[in_groups]])
     yield settings.finding(
         Grade.NOTE,
         f"{varying.size:,} groups of rows ({int(in_groups.sum()):,} rows) share every predictor value but differ in "
@@ -155,6 +196,18 @@ def _replicates(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         remedy="keep the replicates; use them for a pure-error lack-of-fit test",
         details={"groups": int(varying.size), "rows": int(in_groups.sum())},
     )
+
+
+def _replicate_candidates(ctx: RunContext) -> np.ndarray:
+    """Design rows that may share every design value with another row: measured columns first, the intercept skipped."""
+    design = ctx.design
+    measured = [t.columns[0] for t in design.terms if t.kind in (Kind.NUMERIC, Kind.DATETIME) and t.reference is None and t.columns]
+    coded = [c for t in design.terms if t.kind is not None for c in t.columns if c not in measured]
+
+    def bits_of(name: str) -> ColumnBits:
+        return lambda rows: value_bits(ctx.design_column(name) if rows is None else ctx.design_column(name)[rows])
+
+    return candidate_rows((bits_of(name) for name in measured + coded), design.n)
 
 
 # ---------------------------------------------------------------- identifier
@@ -189,6 +242,10 @@ def _identifier(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
 
 
 def _numeric_identifier(values: np.ndarray) -> str | None:
+    spot = values[:: max(values.size // SPOT_ROWS, 1)]
+    spot = spot[np.isfinite(spot)]
+    if np.any(spot != np.round(spot)):
+        return None
     present = values[np.isfinite(values)]
     if present.size < IDENTIFIER_MIN_ROWS or np.any(present != np.round(present)):
         return None
@@ -212,6 +269,10 @@ def _numeric_identifier(values: np.ndarray) -> str | None:
 
 
 def _label_identifier(ctx: RunContext, column: str) -> str | None:
+    values = ctx.table.column(column)
+    spot = values.take(np.arange(0, len(values), max(len(values) // SPOT_ROWS, 1))).drop_null()
+    if len(pc.unique(spot)) < len(spot):
+        return None
     summary = ctx.summary(column)
     present = summary.rows - summary.missing
     if present >= IDENTIFIER_MIN_ROWS and summary.distinct == present:
@@ -381,9 +442,12 @@ def _scale_disparity(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
     design = ctx.design
     if design.n == 0:
         return
+    limit = settings.threshold("note")
+    if not _may_differ_in_scale(ctx, limit):
+        return
     magnitudes: dict[str, float] = {}
     for column in ctx.numeric_predictors:
-        values = design.X[:, design.column_names.index(column)]
+        values = ctx.design_column(column)
         nonzero = np.abs(values[values != 0])
         if nonzero.size:
             magnitudes[column] = float(np.median(nonzero * 0.5) * 2.0)  # halved: the middle pair's mean cannot overflow
@@ -392,7 +456,6 @@ def _scale_disparity(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
     largest = max(magnitudes, key=lambda c: (magnitudes[c], c))
     smallest = min(magnitudes, key=lambda c: (magnitudes[c], c))
     ratio = magnitudes[largest] / magnitudes[smallest]
-    limit = settings.threshold("note")
     if not limit.crossed(ratio):
         return
     yield settings.finding(
@@ -408,6 +471,50 @@ def _scale_disparity(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
     )
 
 
+def _may_differ_in_scale(ctx: RunContext, limit: Threshold) -> bool:
+    """False when bounds on each predictor's median absolute non-zero value prove their ratio within ``limit``.
+
+    The median lies between the largest absolute value and any value that at
+    most half of the non-zero values fall below; a column of one sign offers
+    its smallest absolute value, others a value from evenly spaced rows,
+    confirmed by a count.
+    """
+    lows: list[float] = []
+    highs: list[float] = []
+    for column in ctx.numeric_predictors:
+        values = ctx.design_column(column)
+        if values.size == 0:
+            continue
+        low, high = float(values.min()), float(values.max())
+        if low == high == 0.0:
+            continue
+        highs.append(max(abs(low), abs(high)))
+        if low > 0.0 or high < 0.0:
+            lows.append(min(abs(low), abs(high)))
+            continue
+        floor = _median_floor(values)
+        if floor is None:
+            return True
+        lows.append(floor)
+    if len(highs) < 2:
+        return True
+    return limit.crossed(max(highs) / min(lows) * (1.0 + SCALE_ALLOWANCE))
+
+
+def _median_floor(values: np.ndarray) -> float | None:
+    """A positive value at most the median absolute non-zero value, or None if evenly spaced rows suggest none."""
+    magnitude = np.abs(values)
+    spot = magnitude[:: max(magnitude.size // SPOT_ROWS, 1)]
+    spot = np.sort(spot[spot > 0])
+    if spot.size == 0:
+        return None
+    floor = float(spot[spot.size // 4])
+    zeros = np.count_nonzero(magnitude == 0)
+    nonzero = magnitude.size - zeros
+    below = np.count_nonzero(magnitude < floor) - zeros
+    return floor if below <= (nonzero - 1) // 2 else None
+
+
 # ---------------------------------------------------------------- target-leak
 
 
@@ -421,19 +528,24 @@ def _target_leak(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     if y_norm == 0 or not np.isfinite(y_norm):
         return
     limit = settings.threshold("misleads")
+    y_unit = y / y_norm
+    y_root = np.sqrt(_sum_of_products(y, y))
+    x = np.empty_like(y)
     for column in ctx.numeric_predictors:
-        x = design.X[:, design.column_names.index(column)]
+        values = ctx.design_column(column)
         with np.errstate(over="ignore", invalid="ignore"):
-            x = x - x.mean()
+            np.subtract(values, values.mean(), out=x)
+            if _plainly_below(limit, x, y, y_root):
+                continue
             x_norm = float(np.linalg.norm(x))
         if x_norm == 0 or not np.isfinite(x_norm):
             continue
-        r = float(np.dot(x / x_norm, y / y_norm))
+        r = float(np.dot(x / x_norm, y_unit))
         r2 = r * r
         if not limit.crossed(r2):
             continue
         slope = float(np.dot(x, y) / (x_norm * x_norm))
-        intercept = float(design.y.mean() - slope * (design.X[:, design.column_names.index(column)].mean()))
+        intercept = float(design.y.mean() - slope * values.mean())
         exact = 1 - abs(r) < EXACT_CORRELATION
         if exact:
             what = f"{ctx.roles.target} = {slope:.6g} x {column} + {intercept:.6g} exactly: the target itself under another name or a fixed multiple"
@@ -449,6 +561,24 @@ def _target_leak(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
             f"computed from {ctx.roles.target} (a sub-meter sum, a unit conversion, a later reading)",
             details={"r_squared": r2, "slope": slope, "intercept": intercept, "exact": exact},
         )
+
+
+def _sum_of_products(a: np.ndarray, b: np.ndarray) -> float:
+    """Sum of ``a * b`` on the calling thread, with no temporary array."""
+    return float(np.einsum("i,i->", a, b))
+
+
+def _plainly_below(limit: Threshold, x: np.ndarray, y: np.ndarray, y_root: float) -> bool:
+    """Whether the squared correlation of centred ``x`` and ``y`` is clearly below ``limit``.
+
+    A single-threaded screen: the multi-threaded BLAS dot products of the
+    exact computation are then run only for the rare predictor near the limit.
+    """
+    xx = _sum_of_products(x, x)
+    if not (0.0 < xx < np.inf and 0.0 < y_root < np.inf):
+        return False
+    r = _sum_of_products(x, y) / (np.sqrt(xx) * y_root)
+    return bool(np.isfinite(r)) and not limit.crossed(r * r + SCREEN_ALLOWANCE)
 
 
 RULES = [

@@ -16,7 +16,9 @@ from prefit.design import category_codes
 from prefit.findings import Finding, Grade
 from prefit.roles import Kind
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
-from prefit.stats.missingness import PatternMoments, little_mcar
+from prefit.stats.blas import one_blas_thread
+from prefit.stats.missingness import PatternMoments, little_mcar, pattern_index
+from prefit.stats.ranks import RankedColumn
 from prefit.stats.sentinels import Sentinel, SentinelLimits, find_sentinels
 from prefit.stats.textnumbers import is_text_type, mostly_number_like, parsed_values
 
@@ -285,24 +287,35 @@ def _codes_finding(
 
 
 def _mcar(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
-    columns = tuple(c for c in ctx.model_columns if ctx.roles.kinds[c] is Kind.NUMERIC)
-    if len(columns) < 2:
+    candidates = tuple(c for c in ctx.model_columns if ctx.roles.kinds[c] is Kind.NUMERIC)
+    if len(candidates) < 2 or ctx.table.num_rows == 0:
         return
-    values = np.column_stack([ctx.values(c) for c in columns])
-    values[~np.isfinite(values) | (np.abs(values) > SQUARE_SAFE)] = np.nan
-    keep = [j for j in range(len(columns)) if _spread(values[:, j]) > 0]
-    columns = tuple(columns[j] for j in keep)
-    values = values[:, keep]
-    if len(columns) < 2 or not np.isnan(values).any():
+    holes = ctx.holes
+    hole_counts = holes.counts()
+    arrays: dict[str, np.ndarray] = {}
+    present: dict[str, int] = {}
+    extra_holes = False
+    for column in candidates:
+        values, count, spread = _usable_values(ctx.values(column), ctx.table.num_rows - hole_counts[column])
+        extra_holes |= count < ctx.table.num_rows - hole_counts[column]
+        if spread > 0:
+            arrays[column], present[column] = values, count
+    columns = tuple(arrays)
+    missing = [c for c in columns if present[c] < ctx.table.num_rows]
+    if len(columns) < 2 or not missing:
         return
-    values = (values - np.nanmean(values, axis=0)) / np.nanstd(values, axis=0)
-    test = little_mcar(PatternMoments.of(columns, values))
+    if extra_holes:
+        masks, row_group, _ = pattern_index(np.column_stack([np.isnan(arrays[c]) for c in columns]))
+    else:
+        row_group, masks = holes.row_pattern, holes.pattern_masks[:, [holes.columns.index(c) for c in columns]]
+    moments = PatternMoments.grouped(columns, [arrays[c] for c in columns], row_group, masks).standardized()
+    with one_blas_thread():
+        test = little_mcar(moments)
     if test is None:
         return
     limit = settings.threshold("weakens")
     if not limit.crossed(test.p_value):
         return
-    missing = [c for j, c in enumerate(columns) if np.isnan(values[:, j]).any()]
     converged = "" if test.converged else " (the EM estimate did not converge; treat the statistic with care)"
     yield settings.finding(
         Grade.WEAKENS,
@@ -318,9 +331,20 @@ def _mcar(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     )
 
 
-def _spread(values: np.ndarray) -> float:
-    finite = values[np.isfinite(values)]
-    return float(np.ptp(finite)) if finite.size > 1 else 0.0
+def _usable_values(values: np.ndarray, present: int) -> tuple[np.ndarray, int, float]:
+    """A numeric column with NaN also where it is infinite or too large to square, its count of values and their range.
+
+    ``present`` counts the values that are not NaN; the column is copied only
+    when it holds an infinite or oversized value.
+    """
+    if present > 0:
+        low, high = float(np.fmin.reduce(values)), float(np.fmax.reduce(values))
+        if -SQUARE_SAFE <= low and high <= SQUARE_SAFE:
+            return values, present, high - low if present > 1 else 0.0
+    usable = np.isfinite(values) & (np.abs(values) <= SQUARE_SAFE)
+    count = int(np.count_nonzero(usable))
+    kept = np.where(usable, values, np.nan)
+    return kept, count, float(np.nanmax(kept) - np.nanmin(kept)) if count > 1 else 0.0
 
 
 # ---------------------------------------------------------------- informative
@@ -329,18 +353,18 @@ def _spread(values: np.ndarray) -> float:
 def _informative(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     holes = ctx.holes
     rows = ctx.table.num_rows
-    tests: list[tuple[str, str, float, str]] = []
-    codes: dict[str, tuple[np.ndarray, list[str]]] = {}
-    for column, count in holes.counts().items():
-        if count < INFORMATIVE_MIN_GROUP or rows - count < INFORMATIVE_MIN_GROUP:
-            continue
-        missing = holes.missing(column)
-        for other in ctx.model_columns:
-            if other == column:
-                continue
-            compared = _compare(ctx, column, other, missing, holes.missing(other), codes)
-            if compared is not None:
-                tests.append((column, other, *compared))
+    holed = {
+        column: np.flatnonzero(holes.missing(column))
+        for column, count in holes.counts().items()
+        if INFORMATIVE_MIN_GROUP <= count <= rows - INFORMATIVE_MIN_GROUP
+    }
+    compared: dict[tuple[str, str], tuple[float, str]] = {}
+    for other in ctx.model_columns:
+        partners = {column: hole_rows for column, hole_rows in holed.items() if column != other}
+        if partners:
+            for column, result in _compare(ctx, other, partners).items():
+                compared[(column, other)] = result
+    tests = [(c, o, *compared[(c, o)]) for c in holed for o in ctx.model_columns if (c, o) in compared]
     if not tests:
         return
     adjusted = _holm([t[2] for t in tests])
@@ -375,53 +399,62 @@ def _informative(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         )
 
 
-def _compare(
-    ctx: RunContext,
-    column: str,
-    other: str,
-    missing: np.ndarray,
-    other_missing: np.ndarray,
-    codes_cache: dict[str, tuple[np.ndarray, list[str]]],
-) -> tuple[float, str] | None:
-    """A two-sided test of whether ``other`` differs between rows where ``column`` is missing and present.
+def _compare(ctx: RunContext, other: str, holed: dict[str, np.ndarray]) -> dict[str, tuple[float, str]]:
+    """Two-sided tests of whether ``other`` differs between the rows where each holed column is missing and the rest.
 
-    Numeric columns: Mann-Whitney U (robust to the gross outliers that
-    undeclared codes produce); categories: Pearson's chi-square test of the
-    levels x missing table.
+    ``holed`` maps each column to the rows where it is missing. Only rows
+    where ``other`` is present take part. Numeric and date columns:
+    Mann-Whitney U (robust to the gross outliers that undeclared codes
+    produce), with ``other`` ranked once for all columns; categories:
+    Pearson's chi-square test of the levels x missing table. Columns whose
+    comparison has fewer than five rows on either side are left out.
 
     References
     ----------
     Mann, H. B., Whitney, D. R. (1947). Ann. Math. Stat. 18(1).
+    Pearson, K. (1900). Philosophical Magazine 50(302).
     """
     kind = ctx.roles.kinds[other]
-    usable = ~other_missing
-    with_hole = missing & usable
-    without = ~missing & usable
-    if with_hole.sum() < INFORMATIVE_MIN_GROUP or without.sum() < INFORMATIVE_MIN_GROUP:
-        return None
     if kind in (Kind.NUMERIC, Kind.DATETIME):
-        values = ctx.values(other)
-        a, b = values[with_hole], values[without]
-        a, b = a[np.isfinite(a)], b[np.isfinite(b)]
-        if a.size < INFORMATIVE_MIN_GROUP or b.size < INFORMATIVE_MIN_GROUP or np.ptp(np.concatenate([a, b])) == 0:
-            return None
-        p = float(scipy.stats.mannwhitneyu(a, b, alternative="two-sided", method="asymptotic").pvalue)
-        direction = "higher" if np.median(a) > np.median(b) else "lower"
-        return p, f"{other} is {direction} where {column} is missing (median {fmt(float(np.median(a)))} vs {fmt(float(np.median(b)))})"
-    if other not in codes_cache:
-        codes_cache[other] = category_codes(ctx.table.column(other), kind)
-    codes, levels = codes_cache[other]
-    table = np.zeros((len(levels), 2))
-    np.add.at(table, (codes[with_hole], 0), 1)
-    np.add.at(table, (codes[without], 1), 1)
-    table = table[table.sum(axis=1) > 0]
-    if table.shape[0] < 2:
-        return None
-    result = scipy.stats.chi2_contingency(table, correction=False)
-    share_missing = table[:, 0] / table.sum(axis=1)
-    worst = int(np.argmax(share_missing))
-    present_levels = [levels[i] for i in range(len(levels)) if np.any(codes[usable] == i)]
-    return float(result.pvalue), f"{column} is most often missing at {other} = {present_levels[worst]!r} ({share_missing[worst]:.0%} of its rows)"
+        return _compare_numeric(other, RankedColumn.of(ctx.values(other)), holed)
+    codes, levels = category_codes(ctx.table.column(other), kind)
+    usable = ~ctx.holes.missing(other)
+    per_level = np.bincount(codes[usable], minlength=len(levels)).astype(np.float64)
+    present_levels = [levels[i] for i in range(len(levels)) if per_level[i] > 0]
+    results: dict[str, tuple[float, str]] = {}
+    for column, hole_rows in holed.items():
+        table = np.zeros((len(levels), 2))
+        table[:, 0] = np.bincount(codes[hole_rows[usable[hole_rows]]], minlength=len(levels))
+        table[:, 1] = per_level - table[:, 0]
+        if table[:, 0].sum() < INFORMATIVE_MIN_GROUP or table[:, 1].sum() < INFORMATIVE_MIN_GROUP:
+            continue
+        table = table[table.sum(axis=1) > 0]
+        if table.shape[0] < 2:
+            continue
+        result = scipy.stats.chi2_contingency(table, correction=False)
+        share_missing = table[:, 0] / table.sum(axis=1)
+        worst = int(np.argmax(share_missing))
+        results[column] = (
+            float(result.pvalue),
+            f"{column} is most often missing at {other} = {present_levels[worst]!r} ({share_missing[worst]:.0%} of its rows)",
+        )
+    return results
+
+
+def _compare_numeric(other: str, ranked: RankedColumn, holed: dict[str, np.ndarray]) -> dict[str, tuple[float, str]]:
+    if ranked.size < 2 * INFORMATIVE_MIN_GROUP or ranked.at(0) == ranked.at(ranked.size - 1):
+        return {}
+    results: dict[str, tuple[float, str]] = {}
+    for column, hole_rows in holed.items():
+        split = ranked.split(hole_rows, INFORMATIVE_MIN_GROUP)
+        if split is None:
+            continue
+        direction = "higher" if split.group_median > split.rest_median else "lower"
+        results[column] = (
+            split.p_value,
+            f"{other} is {direction} where {column} is missing (median {fmt(split.group_median)} vs {fmt(split.rest_median)})",
+        )
+    return results
 
 
 def _holm(p_values: list[float]) -> list[float]:

@@ -21,6 +21,8 @@ LEVERAGE_SOURCE = (
     "(Montgomery, Peck & Vining 2012, Introduction to Linear Regression Analysis, 5th ed., sec. 3.8)"
 )
 SIGNIFICANT_DIGITS = 12
+SPOT_ROWS = 4_096
+ROUNDING_ALLOWANCE = 1e-9
 
 
 @dataclass(frozen=True)
@@ -50,18 +52,36 @@ def _mode_count(ctx: RunContext, term: Term) -> ModeCount | None:
     if term.reference is not None:
         if not term.columns:
             return ModeCount(1, term.reference, design.n, design.n)
-        index = [design.column_names.index(c) for c in term.columns]
-        off = int(np.count_nonzero(design.X[:, index].any(axis=1)))
+        off_reference = ctx.design_column(term.columns[0]) != 0
+        for name in term.columns[1:]:
+            off_reference |= ctx.design_column(name) != 0
+        off = int(np.count_nonzero(off_reference))
         return ModeCount(len(term.columns) + 1, term.reference, design.n - off, design.n)
-    column = design.X[:, design.column_names.index(term.columns[0])]
+    column = ctx.design_column(term.columns[0])
     values, counts = np.unique(column, return_counts=True)
     best = int(np.argmax(counts))
     return ModeCount(int(values.size), f"{values[best]:g}", int(counts[best]), design.n)
 
 
 def _is_indicator(ctx: RunContext, term: Term) -> bool:
-    column = ctx.design.X[:, ctx.design.column_names.index(term.columns[0])]
+    column = ctx.design_column(term.columns[0])
     return bool(np.all((column == 0.0) | (column == 1.0)))
+
+
+def _plainly_varied(column: np.ndarray, share_limit: Threshold, min_distinct: float) -> bool:
+    """Whether a column shows ``min_distinct`` values in evenly spaced rows and provably no value filling ``share_limit`` of it.
+
+    Any value misses every row on one side of a pivot, so the rows on the
+    smaller side bound from below the rows that differ from the most frequent
+    value, without counting values.
+    """
+    spot = column[:: max(column.size // SPOT_ROWS, 1)]
+    if np.unique(spot).size < min_distinct:
+        return False
+    pivot = np.sort(spot)[spot.size // 2]
+    below = np.count_nonzero(column < pivot)
+    above = np.count_nonzero(column > pivot)
+    return not share_limit.crossed((column.size - min(below, above)) / column.size)
 
 
 def _near_constant(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
@@ -70,6 +90,8 @@ def _near_constant(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]
     min_distinct = settings.limit("min-distinct")
     for term in ctx.design.terms:
         if term.kind is None:
+            continue
+        if term.reference is None and term.columns and _plainly_varied(ctx.design_column(term.columns[0]), share_limit, min_distinct):
             continue
         counted = _mode_count(ctx, term)
         if counted is None or counted.distinct < 2:
@@ -146,7 +168,7 @@ def _narrow(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     for term in design.terms:
         if term.kind is not Kind.NUMERIC or term.reference is not None:
             continue
-        column = design.X[:, design.column_names.index(term.source)]
+        column = ctx.design_column(term.source)
         spread = float(np.std(column, ddof=1))
         if not spread > 0.0:
             continue
@@ -192,11 +214,14 @@ def _against_intended(settings: RuleSettings, name: str, column: np.ndarray, spr
 
 def _against_resolution(settings: RuleSettings, name: str, column: np.ndarray, spread: float) -> Iterator[Finding]:
     low, high = float(column.min()), float(column.max())
+    min_steps = settings.threshold("min-steps")
+    min_cv = settings.threshold("min-cv")
+    tight = low > 0.0 and min_cv.crossed(spread / float(np.mean(column)))
+    if not tight and not _may_span_few_steps(column, low, high, min_steps):
+        return
     distinct = int(np.unique(column).size)
     step = resolution_of(column)
     steps = (high - low) / step if step > 0 else float("inf")
-    min_steps = settings.threshold("min-steps")
-    min_cv = settings.threshold("min-cv")
     details = {"observed": [low, high], "resolution": step, "steps": steps, "sd": spread, "distinct_values": distinct}
     if distinct >= 3 and min_steps.crossed(steps) and _is_reading(column, step, settings.limit("max-step-share")):
         yield settings.finding(
@@ -225,6 +250,24 @@ def _against_resolution(settings: RuleSettings, name: str, column: np.ndarray, s
                 remedy=f"collect rows over a wider range of {name}; centre it before fitting so the intercept stays interpretable",
                 details={**details, "coefficient_of_variation": cv},
             )
+
+
+def _may_span_few_steps(column: np.ndarray, low: float, high: float, min_steps: Threshold) -> bool:
+    """False when evenly spaced rows already prove the span holds at least ``min_steps`` steps of :func:`resolution_of`.
+
+    The smallest gap between distinct values of all rows is at most the
+    smallest gap between those of some rows; the bound allows for the
+    rounding of the subtraction.
+    """
+    scale = max(abs(low), abs(high))
+    if not 0.0 < scale < np.inf:
+        return True
+    decimals = SIGNIFICANT_DIGITS - 1 - math.floor(math.log10(scale))
+    spot = np.unique(np.round(column[:: max(column.size // SPOT_ROWS, 1)], decimals))
+    if spot.size < 2:
+        return True
+    widest_step = float(np.round(np.min(np.diff(spot)) * (1.0 + ROUNDING_ALLOWANCE), decimals))
+    return not widest_step > 0.0 or min_steps.crossed((high - low) / widest_step)
 
 
 def _is_reading(column: np.ndarray, step: float, max_share: float) -> bool:

@@ -17,16 +17,16 @@ def _missing_values(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding
     target = ctx.roles.target
     if ctx.roles.kinds[target] not in (Kind.NUMERIC, Kind.BOOLEAN):
         return
-    summary = ctx.summary(target)
-    lost = summary.missing + summary.nonfinite
+    tally = ctx.tally(target)
+    lost = tally.missing + tally.nonfinite
     if lost == 0:
         return
-    usable = summary.usable
+    usable = tally.rows - lost
     limit = settings.threshold("blocks")
     if usable < limit.value:
         yield settings.finding(
             Grade.BLOCKS,
-            f"{target} has {usable} usable value(s) in {summary.rows:,} rows ({summary.missing:,} missing, {summary.nonfinite:,} not finite): nothing to fit",
+            f"{target} has {usable} usable value(s) in {tally.rows:,} rows ({tally.missing:,} missing, {tally.nonfinite:,} not finite): nothing to fit",
             columns=[target],
             value=usable,
             threshold=limit,
@@ -36,7 +36,7 @@ def _missing_values(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding
     rows, _, total = ctx.listed_rows(np.flatnonzero(~np.isfinite(ctx.values(target))))
     yield settings.finding(
         Grade.NOTE,
-        f"{target} is missing or not finite in {lost:,} of {summary.rows:,} rows ({lost / summary.rows:.1%}); those rows cannot enter the fit",
+        f"{target} is missing or not finite in {lost:,} of {tally.rows:,} rows ({lost / tally.rows:.1%}); those rows cannot enter the fit",
         columns=[target],
         rows=rows,
         row_count=total,
@@ -91,9 +91,9 @@ def _constant(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         )
 
 
-def _central_skewness(values: np.ndarray, share: float) -> float:
-    """Moment skewness of the values between the ``share`` and ``1 - share`` quantiles."""
-    finite = values[np.isfinite(values)]
+def _central_skewness(values: np.ndarray, share: float, all_finite: bool = False) -> float:
+    """Moment skewness of the values between the ``share`` and ``1 - share`` quantiles; ``all_finite`` skips the filter."""
+    finite = values if all_finite else values[np.isfinite(values)]
     low, high = np.quantile(finite, [share, 1.0 - share])
     return float(Moments.of(finite[(finite >= low) & (finite <= high)]).skewness)
 
@@ -102,13 +102,14 @@ def _skewed(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     target = ctx.roles.target
     if ctx.roles.kinds[target] is not Kind.NUMERIC:
         return
-    moments = ctx.summary(target).moments
+    tally = ctx.tally(target)
+    moments = tally.moments
     if moments.count < 3 or moments.minimum <= 0:
         return
     skewness, spread = moments.skewness, moments.maximum / moments.minimum
     if not (settings.threshold("skewness").crossed(skewness) and settings.threshold("max-min-ratio").crossed(spread)):
         return
-    central = _central_skewness(ctx.values(target), settings.limit("trim-share"))
+    central = _central_skewness(ctx.values(target), settings.limit("trim-share"), tally.missing + tally.nonfinite == 0)
     if not settings.threshold("central-skewness").crossed(central):
         return
     yield settings.finding(

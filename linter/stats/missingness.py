@@ -10,7 +10,8 @@ need nothing else.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Mapping
+from functools import cached_property, reduce
+from typing import Callable, Mapping, Sequence
 
 import numpy as np
 import pyarrow as pa
@@ -18,23 +19,55 @@ import pyarrow.compute as pc
 import scipy.stats
 
 from ..roles import Kind, numeric_values
+from .blas import one_blas_thread
 
 Pattern = tuple[bool, ...]
+TABLE_BITS = 20
+MOMENT_ROWS = 8_192
 
 
-def _patterns_of(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Distinct rows of a boolean matrix, the index of each row's pattern, and the pattern counts."""
+def pattern_index(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Distinct rows of a boolean matrix, the index of each row's pattern, and the pattern counts; O(rows x columns).
+
+    Patterns are sorted as binary numbers with the first column most
+    significant. Only columns with a True somewhere can tell rows apart, so
+    each row's key holds just those bits; with at most ``TABLE_BITS`` of them
+    the patterns are counted in a table indexed by the key, without sorting.
+    """
     mask = np.asarray(mask, dtype=bool)
-    if mask.shape[0] == 0:
-        return np.zeros((0, mask.shape[1]), dtype=bool), np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
-    width = mask.shape[1]
-    if width > 62:
+    rows, width = mask.shape
+    if rows == 0:
+        return np.zeros((0, width), dtype=bool), np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    holed = np.flatnonzero(mask.any(axis=0))
+    if holed.size > 62:
         distinct, inverse, counts = np.unique(mask, axis=0, return_inverse=True, return_counts=True)
-        return distinct, inverse.reshape(-1), counts
-    weights = np.left_shift(np.int64(1), np.arange(width - 1, -1, -1, dtype=np.int64))
-    keys, inverse, counts = np.unique(mask.astype(np.int64) @ weights, return_inverse=True, return_counts=True)
-    distinct = (keys[:, None] & weights[None, :]) != 0
-    return distinct, inverse.reshape(-1), counts
+        return distinct, inverse.reshape(-1).astype(np.int64), counts
+    keys = _row_keys(mask, holed)
+    if holed.size <= TABLE_BITS:
+        table = np.bincount(keys, minlength=1 << holed.size)
+        found = np.flatnonzero(table)
+        index = np.zeros(table.size, dtype=np.int64)
+        index[found] = np.arange(found.size)
+        inverse, counts = index[keys], table[found]
+    else:
+        found, inverse, counts = np.unique(keys, return_inverse=True, return_counts=True)
+    distinct = np.zeros((found.size, width), dtype=bool)
+    distinct[:, holed] = (found[:, None].astype(np.int64) >> np.arange(holed.size - 1, -1, -1)) & 1 == 1
+    return distinct, inverse.astype(np.int64, copy=False), counts.astype(np.int64, copy=False)
+
+
+def _row_keys(mask: np.ndarray, columns: np.ndarray) -> np.ndarray:
+    """The bits of ``mask`` in ``columns`` (at most 62) as one unsigned integer per row, first column most significant."""
+    dtype = next(t for t in (np.uint8, np.uint16, np.uint32, np.uint64) if np.iinfo(t).bits >= columns.size)
+    keys = np.zeros(mask.shape[0], dtype=dtype)
+    for j in columns:
+        np.left_shift(keys, 1, out=keys)
+        np.bitwise_or(keys, mask[:, j], out=keys)
+    return keys
+
+
+def _pattern_counts(distinct: np.ndarray, counts: np.ndarray) -> dict[Pattern, int]:
+    return {tuple(bool(v) for v in row): int(c) for row, c in zip(distinct, counts)}
 
 
 @dataclass(frozen=True)
@@ -52,8 +85,8 @@ class MissingPatterns:
     @classmethod
     def of(cls, columns: tuple[str, ...], mask: np.ndarray) -> "MissingPatterns":
         """Patterns of one batch; ``mask`` is rows x columns, True where missing."""
-        distinct, _, counts = _patterns_of(mask)
-        return cls(columns, {tuple(bool(v) for v in row): int(c) for row, c in zip(distinct, counts)})
+        distinct, _, counts = pattern_index(mask)
+        return cls(columns, _pattern_counts(distinct, counts))
 
     def merge(self, other: "MissingPatterns") -> "MissingPatterns":
         """The patterns of both batches together."""
@@ -99,33 +132,53 @@ class MissingPatterns:
 class Holes:
     """Where the model columns (target first, then predictors) are missing, row by row.
 
-    A value is missing when it is null, or NaN in a numeric column.
+    A value is missing when it is null, or NaN in a numeric column. ``mask``
+    is rows x columns in column-major order (each column's holes lie
+    together); ``row_pattern`` gives each row's index into ``pattern_masks``,
+    the distinct rows of ``mask``.
     """
 
     columns: tuple[str, ...]
     mask: np.ndarray
     patterns: MissingPatterns
+    row_pattern: np.ndarray
+    pattern_masks: np.ndarray
 
     @classmethod
-    def of(cls, table: pa.Table, columns: tuple[str, ...], kinds: Mapping[str, Kind]) -> "Holes":
-        """The holes of ``columns`` of ``table``; O(rows x columns) booleans."""
-        mask = np.zeros((table.num_rows, len(columns)), dtype=bool)
+    def of(
+        cls,
+        table: pa.Table,
+        columns: tuple[str, ...],
+        kinds: Mapping[str, Kind],
+        values: Callable[[str], np.ndarray] | None = None,
+    ) -> "Holes":
+        """The holes of ``columns`` of ``table``; O(rows x columns) booleans.
+
+        ``values`` returns a numeric column as float64 with NaN for missing
+        (a shared cache of conversions); without it, columns are converted here.
+        """
+        convert = values or (lambda name: numeric_values(table.column(name)))
+        mask = np.zeros((table.num_rows, len(columns)), dtype=bool, order="F")
         for j, name in enumerate(columns):
             column = table.column(name)
             if kinds[name] in (Kind.NUMERIC, Kind.BOOLEAN, Kind.DATETIME):
-                mask[:, j] = np.isnan(numeric_values(column))
+                np.isnan(convert(name), out=mask[:, j])
             else:
                 mask[:, j] = pc.is_null(column).to_numpy(zero_copy_only=False)
-        return cls(columns, mask, MissingPatterns.of(columns, mask))
+        distinct, inverse, counts = pattern_index(mask)
+        return cls(columns, mask, MissingPatterns(columns, _pattern_counts(distinct, counts)), inverse, distinct)
 
     def missing(self, column: str) -> np.ndarray:
         """The missing mask of one column over all rows."""
         return self.mask[:, self.columns.index(column)]
 
+    @cached_property
+    def _totals(self) -> np.ndarray:
+        return np.count_nonzero(self.mask, axis=0)
+
     def counts(self) -> dict[str, int]:
         """Missing values per column."""
-        totals = self.mask.sum(axis=0)
-        return {c: int(totals[j]) for j, c in enumerate(self.columns)}
+        return {c: int(self._totals[j]) for j, c in enumerate(self.columns)}
 
 
 @dataclass(frozen=True)
@@ -165,16 +218,35 @@ class PatternMoments:
     def of(cls, columns: tuple[str, ...], values: np.ndarray) -> "PatternMoments":
         """Moments of one batch; ``values`` is rows x columns with NaN where missing."""
         values = np.asarray(values, dtype=np.float64)
-        mask = ~np.isfinite(values)
-        distinct, inverse, counts = _patterns_of(mask)
-        order = np.argsort(inverse, kind="stable")
-        batches = np.split(order, np.cumsum(counts)[:-1]) if counts.size else []
+        distinct, inverse, _ = pattern_index(~np.isfinite(values))
+        return cls.grouped(columns, [values[:, j] for j in range(values.shape[1])], inverse, distinct)
+
+    @classmethod
+    def grouped(
+        cls, columns: tuple[str, ...], arrays: Sequence[np.ndarray], row_group: np.ndarray, group_missing: np.ndarray
+    ) -> "PatternMoments":
+        """Moments from one array per column, given each row's group and each group's pattern.
+
+        ``row_group`` holds a group index per row, ``group_missing`` a row per
+        group, True where the group's rows lack the column; groups with the
+        same pattern are pooled. One counting sort puts the rows in group
+        order, O(rows); each group's observed columns are then gathered
+        ``MOMENT_ROWS`` rows at a time, and the blocks' moments merged.
+        """
+        if row_group.size == 0:
+            return cls(columns, {})
+        patterns, label = np.unique(np.asarray(group_missing, dtype=bool), axis=0, return_inverse=True)
+        label = label.reshape(-1)
+        if patterns.shape[0] < label.size or np.any(label != np.arange(label.size)):
+            row_group = label[row_group]
+        code = np.uint16 if patterns.shape[0] <= np.iinfo(np.uint16).max else np.int64
+        order = np.argsort(row_group.astype(code), kind="stable")
+        ends = np.cumsum(np.bincount(row_group, minlength=patterns.shape[0]))
         groups: dict[Pattern, PatternGroup] = {}
-        for pattern, count, rows in zip(distinct, counts, batches):
-            observed = values[rows][:, ~pattern]
-            mean = observed.mean(axis=0)
-            centred = observed - mean
-            groups[tuple(bool(v) for v in pattern)] = PatternGroup(int(count), mean, centred.T @ centred)
+        with one_blas_thread():
+            for pattern, start, end in zip(patterns, ends - np.diff(ends, prepend=0), ends):
+                if end > start:
+                    groups[tuple(bool(v) for v in pattern)] = _group_moments(arrays, np.flatnonzero(~pattern), order[start:end])
         return cls(columns, groups)
 
     def merge(self, other: "PatternMoments") -> "PatternMoments":
@@ -186,9 +258,42 @@ class PatternMoments:
             merged[pattern] = merged[pattern].merge(group) if pattern in merged else group
         return PatternMoments(self.columns, merged)
 
+    def standardized(self) -> "PatternMoments":
+        """The moments of the columns shifted and scaled to available-case mean 0 and standard deviation 1.
+
+        The same as the moments of the standardized values (each column minus
+        the mean of its observed values, over their n-denominator standard
+        deviation), without another pass over the rows. Columns without
+        spread keep their scale.
+        """
+        count, mean, m2 = _available_case(self.usable(), len(self.columns))
+        variance = np.divide(m2, count, out=np.zeros_like(m2), where=count > 0)
+        scale = np.where(variance > 0, np.sqrt(variance), 1.0)
+        groups: dict[Pattern, PatternGroup] = {}
+        for pattern, group in self.groups.items():
+            o = np.flatnonzero(~np.array(pattern, dtype=bool))
+            shifted = (group.mean - mean[o]) / scale[o]
+            groups[pattern] = PatternGroup(group.count, shifted, group.comoment / np.outer(scale[o], scale[o]))
+        return PatternMoments(self.columns, groups)
+
     def usable(self) -> list[tuple[np.ndarray, PatternGroup]]:
         """Patterns with at least one observed column, as observed-column masks, in a fixed order."""
         return [(np.array([not m for m in p]), g) for p, g in sorted(self.groups.items()) if not all(p)]
+
+
+def _group_moments(arrays: Sequence[np.ndarray], observed: np.ndarray, rows: np.ndarray) -> PatternGroup:
+    """Count, mean and co-moment of ``arrays[j][rows]`` over the ``observed`` columns ``j``, block by block."""
+    block = np.empty((min(MOMENT_ROWS, rows.size), observed.size), order="F")
+    parts = (rows[start : start + MOMENT_ROWS] for start in range(0, rows.size, MOMENT_ROWS))
+    return reduce(PatternGroup.merge, (_block_moments(arrays, observed, part, block[: part.size]) for part in parts))
+
+
+def _block_moments(arrays: Sequence[np.ndarray], observed: np.ndarray, rows: np.ndarray, block: np.ndarray) -> PatternGroup:
+    for k, j in enumerate(observed):
+        np.take(arrays[j], rows, out=block[:, k])
+    mean = block.mean(axis=0)
+    block -= mean
+    return PatternGroup(int(rows.size), mean, block.T @ block)
 
 
 @dataclass(frozen=True)
@@ -249,6 +354,13 @@ def normal_em(moments: PatternMoments, tolerance: float = 1e-10, max_iterations:
 
 def _start(groups: list[tuple[np.ndarray, PatternGroup]], p: int) -> tuple[np.ndarray, np.ndarray]:
     """Available-case means and variances (merged over patterns) as the starting point."""
+    count, mean, m2 = _available_case(groups, p)
+    variance = np.where(count > 0, m2 / np.maximum(count, 1), 1.0)
+    return mean, np.diag(np.where(variance > 0, variance, 1.0))
+
+
+def _available_case(groups: list[tuple[np.ndarray, PatternGroup]], p: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Per column, the count, mean and sum of squared deviations of its observed values, merged over patterns."""
     count = np.zeros(p)
     mean = np.zeros(p)
     m2 = np.zeros(p)
@@ -261,8 +373,7 @@ def _start(groups: list[tuple[np.ndarray, PatternGroup]], p: int) -> tuple[np.nd
             mean[j] += delta * n_b / total
             m2[j] += group.comoment[k, k] + delta * delta * n_a * n_b / total
             count[j] = total
-    variance = np.where(count > 0, m2 / np.maximum(count, 1), 1.0)
-    return mean, np.diag(np.where(variance > 0, variance, 1.0))
+    return count, mean, m2
 
 
 class _PartialPattern:

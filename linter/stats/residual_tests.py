@@ -11,11 +11,16 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-from .auxiliary import AddedColumns, AddedFit, lagged, regress_added
+from .auxiliary import AddedColumns, AddedFit, column_picker, lagged, regress_added
+from .blas import one_blas_thread
 from .factor import DesignFactor
 from .mergeable import Moments
 
 RESET_POWERS = (2, 3)
+# Rows times squared auxiliary columns for one White test: a few tenths of a second on one core.
+WHITE_WORK = 1_000_000_000
+ROWS_PER_COLUMN = 20
+ROW_SEED = 20260601
 
 
 @dataclass(frozen=True)
@@ -70,16 +75,24 @@ def breusch_pagan(factor: DesignFactor, X: np.ndarray, residual: np.ndarray, int
     J. Econometrics 17(1).
     """
     squared = residual**2
-    fit = regress_added(factor, X, squared, _constant_unless(intercept, X.shape[0]))
+    fit = regress_added(factor, X, squared, _constant_unless(intercept, X.shape[0]), keep_residual=False)
     return _lagrange_multiplier(fit, _centred_total(squared), fit.rank - 1)
 
 
 def white_products(X: np.ndarray, intercept_column: int) -> AddedColumns:
     """Squares and cross products of the design columns other than the intercept (i <= j), built batch by batch."""
     others = np.asarray([j for j in range(X.shape[1]) if j != intercept_column], dtype=int)
-    first, second = np.triu_indices(others.size)
-    left, right = others[first], others[second]
-    return AddedColumns(int(first.size), lambda start, stop: X[start:stop, left] * X[start:stop, right])
+    count = others.size
+    columns = column_picker(others)
+
+    def fill(start: int, stop: int, out: np.ndarray) -> None:
+        block = X[start:stop, columns]
+        at = 0
+        for i in range(count):
+            np.multiply(block[:, i : i + 1], block[:, i:], out=out[:, at : at + count - i])
+            at += count - i
+
+    return AddedColumns(count * (count + 1) // 2, fill, order="F")
 
 
 def white(factor: DesignFactor, X: np.ndarray, residual: np.ndarray, intercept_column: int) -> ResidualTest:
@@ -94,8 +107,81 @@ def white(factor: DesignFactor, X: np.ndarray, residual: np.ndarray, intercept_c
     estimator and a direct test for heteroskedasticity. Econometrica 48(4).
     """
     squared = residual**2
-    fit = regress_added(factor, X, squared, white_products(X, intercept_column))
+    fit = regress_added(factor, X, squared, white_products(X, intercept_column), keep_residual=False)
     return _lagrange_multiplier(fit, _centred_total(squared), fit.rank - 1)
+
+
+def white_columns(p: int) -> int:
+    """Columns of White's auxiliary regression for a design of ``p`` columns with an intercept, ``e^2`` included."""
+    return p + (p - 1) * p // 2 + 1
+
+
+def hashed_rows(positions: np.ndarray, share: float, seed: int = ROW_SEED) -> np.ndarray:
+    """Indices of the rows kept in a deterministic sample of about ``share`` of them, chosen by their position.
+
+    Each table position is hashed with the SplitMix64 finaliser (seeded);
+    a row is kept when its hash falls below ``share`` of the hash range, so
+    the choice depends on the row alone, never on the batching or the order
+    in which rows arrive.
+
+    References
+    ----------
+    Steele, G. L., Lea, D., Flood, C. H. (2014). Fast splittable
+    pseudorandom number generators. OOPSLA 2014.
+    """
+    z = np.asarray(positions).astype(np.uint64) + np.uint64(seed * 0x9E3779B97F4A7C15 % 2**64)
+    z = (z ^ (z >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
+    z = (z ^ (z >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
+    z = z ^ (z >> np.uint64(31))
+    return np.flatnonzero(z < np.uint64(min(share, 1.0) * float(2**64 - 2**11)))
+
+
+@dataclass(frozen=True)
+class SampledTest:
+    """A residual test and the rows it used: ``rows_used`` of ``rows``, the indices ``subset`` (None for all)."""
+
+    test: ResidualTest
+    rows_used: int
+    rows: int
+    subset: np.ndarray | None = None
+
+    @property
+    def sampled(self) -> bool:
+        """Whether the test ran on a subset of the rows."""
+        return self.rows_used < self.rows
+
+
+def white_within_budget(
+    factor: DesignFactor, X: np.ndarray, residual: np.ndarray, intercept_column: int, positions: np.ndarray
+) -> SampledTest:
+    """White's test on all rows, or on a hashed subset of rows when the auxiliary regression would cost too much.
+
+    The auxiliary regression has ``k = p (p + 1) / 2 + 1`` columns and costs
+    about ``n k^2`` operations: on all rows while ``n k^2`` is at most
+    :data:`WHITE_WORK`, otherwise on the rows :func:`hashed_rows` keeps,
+    about ``WHITE_WORK / k^2`` of them but at least
+    :data:`ROWS_PER_COLUMN` per auxiliary column, so the chi-squared
+    reference of ``n R^2`` still holds. ``positions`` are the rows'
+    positions in the table. The test uses the subset's own design factor;
+    with all rows it uses ``factor``.
+
+    References
+    ----------
+    White, H. (1980). A heteroskedasticity-consistent covariance matrix
+    estimator and a direct test for heteroskedasticity. Econometrica 48(4).
+    Harrell, F. E. (2015). Regression Modeling Strategies, 2nd ed., sec. 4.4:
+    10 to 20 rows per estimated parameter (common practice, from memory).
+    """
+    n = X.shape[0]
+    width = white_columns(X.shape[1])
+    wanted = max(WHITE_WORK // width**2, ROWS_PER_COLUMN * width)
+    if n * width**2 <= WHITE_WORK or wanted >= n:
+        return SampledTest(white(factor, X, residual, intercept_column), n, n)
+    rows = hashed_rows(positions, wanted / n)
+    chosen, left = X[rows], residual[rows]
+    with one_blas_thread():
+        own = DesignFactor.of(chosen, left)
+    return SampledTest(white(own, chosen, left, intercept_column), int(rows.size), n, rows)
 
 
 def reset(factor: DesignFactor, X: np.ndarray, residual: np.ndarray, fitted: np.ndarray, intercept: bool) -> ResidualTest:
@@ -112,8 +198,13 @@ def reset(factor: DesignFactor, X: np.ndarray, residual: np.ndarray, fitted: np.
     """
     spread = float(np.std(fitted)) or 1.0
     base = (fitted - fitted.mean()) / spread if intercept else fitted / spread
-    powers = np.column_stack([base**p for p in RESET_POWERS])
-    fit = regress_added(factor, X, residual, powers)
+    powers = np.empty((base.size, len(RESET_POWERS)))
+    running = base.copy()
+    for power in range(2, max(RESET_POWERS) + 1):
+        running *= base
+        if power in RESET_POWERS:
+            powers[:, RESET_POWERS.index(power)] = running
+    fit = regress_added(factor, X, residual, powers, keep_residual=False)
     wald = fit.f_statistic * fit.added_rank
     if not np.isfinite(wald):
         return ResidualTest(float("nan"), fit.added_rank, float("nan"))
@@ -169,8 +260,8 @@ def breusch_godfrey(
     """
     n = X.shape[0]
     constant = _constant_unless(intercept, n)
-    base = regress_added(factor, X, residual, constant)
-    full = regress_added(factor, X, residual, np.column_stack([constant, lagged(residual, lags, groups)]))
+    base = regress_added(factor, X, residual, constant, keep_residual=False)
+    full = regress_added(factor, X, residual, np.column_stack([constant, lagged(residual, lags, groups)]), keep_residual=False)
     added = full.added_rank - base.added_rank
     total = _centred_total(residual)
     r_squared = 1.0 - full.rss / total if total > 0 else float("nan")

@@ -23,6 +23,8 @@ GAP_TO_SCALE_ZERO = 0.5
 GAP_TO_SCALE_PLAIN = 3.0
 MIN_REPEATS_PLAIN = 3
 MAX_SHARE_PLAIN = 0.2
+EDGE_SAMPLE = 1_024
+EDGE_ROWS = 64
 
 
 @dataclass(frozen=True)
@@ -124,8 +126,10 @@ def find_sentinels(values: np.ndarray, limits: SentinelLimits = SentinelLimits()
     Explorations 8(1), 83-92.
     """
     x = np.asarray(values, dtype=np.float64)
-    x = x[np.isfinite(x)]
-    if x.size < MIN_VALUES:
+    finite = np.isfinite(x)
+    if not finite.all():
+        x = x[finite]
+    if x.size < MIN_VALUES or _edges_hold_no_code(x, limits):
         return []
     distinct, counts = np.unique(x, return_counts=True)
     found: list[Sentinel] = []
@@ -146,6 +150,44 @@ def find_sentinels(values: np.ndarray, limits: SentinelLimits = SentinelLimits()
             else:
                 high -= 1
     return sorted(found, key=lambda s: s.value)
+
+
+def _edges_hold_no_code(x: np.ndarray, limits: SentinelLimits) -> bool:
+    """Whether the most extreme value at each edge fails a test of :func:`_judge` that needs only the edge.
+
+    Then no code is found, and the column need not be tallied in full. All
+    copies of every value up to a low cut (and from a high cut) are taken,
+    the cuts being order statistics of an evenly spaced sample, so the edge
+    values' counts are exact; when too few distinct values fall beyond a cut
+    the answer is False and the full search decides.
+    """
+    step = max(1, x.size // EDGE_SAMPLE)
+    sample = np.sort(x[::step])
+    k = min(EDGE_ROWS // step + 1, sample.size - 1)
+    low_cut, high_cut = sample[k], sample[-1 - k]
+    if low_cut >= high_cut:
+        return False
+    needed = MAX_PER_SIDE + EDGE_VALUES + 1
+    for side_low, edge in ((True, x[x <= low_cut]), (False, x[x >= high_cut])):
+        distinct, counts = np.unique(edge, return_counts=True)
+        if distinct.size < needed:
+            return False
+        index = 0 if side_low else -1
+        rest = distinct[1:] if side_low else distinct[:-1]
+        if not _edge_rules_out(float(distinct[index]), int(counts[index]), rest, side_low, x.size, limits):
+            return False
+    return True
+
+
+def _edge_rules_out(value: float, count: int, rest: np.ndarray, low: bool, total: int, limits: SentinelLimits) -> bool:
+    """Whether :func:`_judge` rejects ``value`` on its share, its gap, or a shape and count no reason accepts."""
+    if count > MAX_CODE_SHARE * total:
+        return True
+    gap = abs(float(rest[0] if low else rest[-1]) - value)
+    spacing = _edge_spacing(rest, low)
+    if spacing <= 0 or gap < limits.gap_to_spacing * spacing:
+        return True
+    return not (code_shaped(value) or value == 0 or count >= MIN_REPEATS_PLAIN)
 
 
 def _judge(
