@@ -201,8 +201,11 @@ def main() -> None:
     parser.add_argument("--quick", action="store_true", help="only the two smaller sizes")
     parser.add_argument("--memory", action="store_true", help="also the 10,000,000 x 20 streaming peak-memory run")
     parser.add_argument("--repeats", type=int, default=3)
+    parser.add_argument("--only", metavar="ROWSxCOLUMNS", help="one size, e.g. 1000000x20")
     args = parser.parse_args()
     sizes = SIZES[:2] if args.quick else SIZES
+    if args.only:
+        sizes = tuple(size for size in SIZES if f"{size[0]}x{size[1]}" == args.only)
     report: dict[str, object] = {"startup_seconds": startup(5), "tables": measure(sizes, args.repeats)}
     if args.memory:
         report["streaming_peak"] = peak_memory_run()

@@ -192,12 +192,13 @@ def check_file(
 ) -> Report:
     """Check a table file with the chosen engine (``auto``, ``memory``, ``stream`` or ``dask``).
 
-    ``auto`` streams files larger than :data:`prefit.engines.AUTO_STREAM_BYTES`;
+    ``auto`` streams files larger than :data:`prefit.batches.AUTO_STREAM_BYTES`;
     ``scheduler`` is the address of an existing Dask scheduler (default: a
     local cluster); ``row_budget`` caps the rows the stream and Dask engines
     keep in memory for the rules.
     """
-    from .engines import StreamRunner, choose_engine, scaled_context
+    from .batches import choose_engine
+    from .engines import StreamRunner, scaled_context
 
     read = ReadOptions(sep=options.sep, encoding=options.encoding)
     chosen = choose_engine(engine, path)

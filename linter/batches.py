@@ -30,6 +30,8 @@ from .reading import (
     read_table,
 )
 
+ENGINES = ("memory", "stream", "dask")
+AUTO_STREAM_BYTES = 1 << 30
 BATCH_ROWS = 65_536
 CSV_BLOCK_BYTES = 1 << 24
 PARQUET_BUFFER = 1 << 20
@@ -183,3 +185,12 @@ def _arrow_source(path: str, options: ReadOptions) -> BatchSource:
 def file_bytes(path: str) -> int:
     """The size of a file on disk (0 for stdin)."""
     return os.path.getsize(path) if path != "-" and os.path.isfile(path) else 0
+
+
+def choose_engine(requested: str, path: str) -> str:
+    """The engine to use: as requested, or for ``auto`` streaming when the file is larger than ``AUTO_STREAM_BYTES``."""
+    if requested not in ("auto", *ENGINES):
+        raise UsageProblem(f"--engine {requested}", "is not an engine", f"use one of auto, {', '.join(ENGINES)}")
+    if requested != "auto":
+        return requested
+    return "stream" if file_bytes(path) > AUTO_STREAM_BYTES else "memory"

@@ -24,7 +24,7 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from .batches import BatchSource, file_bytes
+from .batches import BatchSource
 from .errors import UsageProblem
 from .options import CheckOptions
 from .passes import MeasureScreen, TableStatistics, first_pass, merge_all, merge_screens, second_pass
@@ -36,8 +36,6 @@ if TYPE_CHECKING:
 from .reading import TableInfo
 from .roles import apply_missing_codes
 
-ENGINES = ("memory", "stream", "dask")
-AUTO_STREAM_BYTES = 1 << 30
 SAMPLE_CELLS = 6_000_000
 FEW_VALUES = 1_000
 SAMPLE_SEED = 0x5EED_0F_1E1D
@@ -190,15 +188,6 @@ class EngineRun:
             out["rules_with_every_row_screened"] = list(self.screened)
             out["row_screens"] = {s.measure: s.to_dict() for s in self.screens}
         return out
-
-
-def choose_engine(requested: str, path: str) -> str:
-    """The engine to use: as requested, or for ``auto`` streaming when the file is larger than ``AUTO_STREAM_BYTES``."""
-    if requested not in ("auto", *ENGINES):
-        raise UsageProblem(f"--engine {requested}", "is not an engine", f"use one of auto, {', '.join(ENGINES)}")
-    if requested != "auto":
-        return requested
-    return "stream" if file_bytes(path) > AUTO_STREAM_BYTES else "memory"
 
 
 def conformed(batch: pa.Table, schema: pa.Schema, codes: Any) -> pa.Table:

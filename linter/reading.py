@@ -204,6 +204,20 @@ def _read_arrow(data: bytes, where: str) -> pa.Table:
         raise UsageProblem(where, f"is not a readable Arrow IPC/Feather file ({str(exc).splitlines()[0]})", "re-export it") from None
 
 
+def _read_arrow_file(path: str) -> pa.Table:
+    import pyarrow.ipc as ipc
+
+    try:
+        # The table's buffers point into the read-only map, which stays open while they live.
+        source = pa.memory_map(path, "r")
+        head = source.read(6)
+        source.seek(0)
+        reader = ipc.open_file(source) if head == ARROW_FILE_MAGIC else ipc.open_stream(source)
+        return reader.read_all()
+    except (pa.ArrowInvalid, OSError) as exc:
+        raise UsageProblem(path, f"is not a readable Arrow IPC/Feather file ({str(exc).splitlines()[0]})", "re-export it") from None
+
+
 def _load_bytes(path: str) -> bytes:
     if path == "-":
         return sys.stdin.buffer.read()
@@ -219,8 +233,31 @@ def _load_bytes(path: str) -> bytes:
         raise UsageProblem(path, f"cannot be opened ({exc.strerror})", "check the file's permissions") from None
 
 
+def _binary_format(path: str) -> str | None:
+    """``parquet`` or ``arrow`` when ``path`` is a regular file starting with that format's magic bytes."""
+    if path == "-" or not os.path.isfile(path):
+        return None
+    try:
+        with open(path, "rb") as handle:
+            head = handle.read(16)
+    except OSError:
+        return None
+    fmt, _ = _format_from_bytes(head)
+    return fmt if fmt in ("parquet", "arrow") else None
+
+
 def read_table(path: str, options: ReadOptions = ReadOptions()) -> tuple[pa.Table, TableInfo]:
-    """Read ``path`` (``-`` for CSV on stdin) read-only and return the table with its facts."""
+    """Read ``path`` (``-`` for CSV on stdin) read-only and return the table with its facts.
+
+    Parquet and Arrow files are read from the file itself (no copy of its bytes in memory); their digest is
+    computed by streaming the file.
+    """
+    binary = _binary_format(path)
+    if binary is not None:
+        with open(path, "rb") as handle:
+            digest = hashlib.file_digest(handle, "sha256").hexdigest()
+        table = _read_parquet(path, path) if binary == "parquet" else _read_arrow_file(path)
+        return _checked(table, path, binary, digest)
     raw = _load_bytes(path)
     if not raw:
         raise UsageProblem(path, "is empty", "give a table with a header row and data rows")
@@ -242,6 +279,10 @@ def read_table(path: str, options: ReadOptions = ReadOptions()) -> tuple[pa.Tabl
     else:
         data = _check_encoding(data, options.encoding, path)
         table = _read_jsonl(data, path) if fmt == "jsonl" else _read_csv(data, options, path)
+    return _checked(table, path, fmt, digest)
+
+
+def _checked(table: pa.Table, path: str, fmt: str, digest: str) -> tuple[pa.Table, TableInfo]:
     _check_header(list(table.column_names), path)
     table = decode_dictionaries(table)
     if table.num_columns == 0:

@@ -15,7 +15,6 @@ from prefit.stats.chance import chance_check, probability_text, t_tail
 from prefit.stats.robust import (
     MODIFIED_Z_FACTOR,
     RobustDistances,
-    median_and_mad,
     modified_z,
     robust_distances,
 )
@@ -216,8 +215,9 @@ def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
 def _robust_columns(ctx: RunContext) -> tuple[tuple[str, ...], np.ndarray, np.ndarray, np.ndarray]:
     """Numeric predictors over the complete cases without those whose MAD is zero, with each column's median and MAD.
 
-    When every table row is complete the medians and MADs are the shared
-    whole-column ones (:meth:`RunContext.median_and_mad`).
+    The medians and MADs are the shared whole-column ones
+    (:meth:`RunContext.median_and_mad`), so a row called unremarkable in every
+    single column is one that ``outliers.univariate`` does not flag.
     """
     design = ctx.design
     names = design.column_names
@@ -227,10 +227,7 @@ def _robust_columns(ctx: RunContext) -> tuple[tuple[str, ...], np.ndarray, np.nd
     indices = [names.index(c) for c in chosen]
     consecutive = indices == list(range(indices[0], indices[0] + len(indices)))
     data = design.X[:, indices[0] : indices[0] + len(indices)] if consecutive else design.X[:, indices]
-    every_row = design.n == design.table_rows
-    spread = np.array(
-        [ctx.median_and_mad(c) if every_row else median_and_mad(data[:, j]) for j, c in enumerate(chosen)]
-    ).reshape(-1, 2)
+    spread = np.array([ctx.median_and_mad(c) for c in chosen]).reshape(-1, 2)
     median, mad = spread[:, 0], spread[:, 1]
     keep = np.flatnonzero(np.isfinite(mad) & (mad > 0))
     kept = data if keep.size == len(chosen) else data[:, keep]
