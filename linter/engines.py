@@ -18,7 +18,7 @@ per batch or partition and merge their results:
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any, Callable, Iterator, Mapping, Protocol, Sequence
+from typing import TYPE_CHECKING, Any, Callable, Mapping, Protocol, Sequence
 
 import numpy as np
 import pyarrow as pa
@@ -30,6 +30,7 @@ from .options import CheckOptions
 from .passes import MeasureScreen, TableStatistics, first_pass, merge_all, merge_screens, second_pass
 from .roles import Kind
 from .stats.fit import PreliminaryFit
+from .stats.positions import position_hashes
 
 if TYPE_CHECKING:
     from .context import RunContext
@@ -39,25 +40,14 @@ from .roles import apply_missing_codes
 SAMPLE_CELLS = 6_000_000
 FEW_VALUES = 1_000
 SAMPLE_SEED = 0x5EED_0F_1E1D
-_MIX = (np.uint64(0x9E3779B97F4A7C15), np.uint64(0xBF58476D1CE4E5B9), np.uint64(0x94D049BB133111EB))
-
-
-def position_hashes(positions: np.ndarray) -> np.ndarray:
-    """A seeded 64-bit hash of 0-based table positions (the splitmix64 finaliser; Steele, Lea & Flood 2014).
-
-    Rows with the smallest hashes form the sample: uniform, the same in every
-    engine and for any batching, and independent of the rows' values.
-    """
-    with np.errstate(over="ignore"):
-        z = np.asarray(positions, dtype=np.uint64) + np.uint64(SAMPLE_SEED) * _MIX[0]
-        z = (z ^ (z >> np.uint64(30))) * _MIX[1]
-        z = (z ^ (z >> np.uint64(27))) * _MIX[2]
-        return z ^ (z >> np.uint64(31))
 
 
 @dataclass(frozen=True)
 class KeptRows:
     """Rows kept in memory for the rules: all rows while within ``limit`` rows, else the ``limit`` rows of smallest hash.
+
+    The hash is that of each row's position (:func:`prefit.stats.positions.position_hashes`),
+    so the sample is uniform and the same for any batching.
 
     Merging keeps table order; ``seen`` counts every row passed in.
     """
@@ -72,7 +62,7 @@ class KeptRows:
     def of(cls, batch: pa.Table, offset: int, limit: int) -> "KeptRows":
         """The rows of one batch whose first row is table row ``offset``."""
         positions = np.arange(offset, offset + batch.num_rows, dtype=np.int64)
-        return cls(batch, positions, position_hashes(positions), batch.num_rows, limit)._pruned()
+        return cls(batch, positions, position_hashes(positions, SAMPLE_SEED), batch.num_rows, limit)._pruned()
 
     @property
     def whole(self) -> bool:
@@ -204,12 +194,6 @@ def conformed(batch: pa.Table, schema: pa.Schema, codes: Any) -> pa.Table:
 def keep_rows(runner: PassRunner, limit: int) -> KeptRows:
     """Read the table once: every row while within ``limit`` rows, else the hashed sample."""
     return runner.map_merge(lambda batch, offset: KeptRows.of(batch, offset, limit), merge_all, "reading")
-
-
-def in_batches(table: pa.Table, rows: int) -> Iterator[pa.Table]:
-    """A table in one-chunk batches of at most ``rows`` rows."""
-    for batch in table.to_batches(max_chunksize=rows):
-        yield pa.Table.from_batches([batch], schema=table.schema)
 
 
 def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | None = None) -> tuple[RunContext, EngineRun]:

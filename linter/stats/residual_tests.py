@@ -15,6 +15,7 @@ from .auxiliary import AddedColumns, AddedFit, column_picker, lagged, regress_ad
 from .blas import one_blas_thread
 from .factor import DesignFactor
 from .mergeable import Moments
+from .positions import hashed_share
 
 RESET_POWERS = (2, 3)
 # Rows times squared auxiliary columns for one White test: a few tenths of a second on one core.
@@ -117,23 +118,9 @@ def white_columns(p: int) -> int:
 
 
 def hashed_rows(positions: np.ndarray, share: float, seed: int = ROW_SEED) -> np.ndarray:
-    """Indices of the rows kept in a deterministic sample of about ``share`` of them, chosen by their position.
-
-    Each table position is hashed with the SplitMix64 finaliser (seeded);
-    a row is kept when its hash falls below ``share`` of the hash range, so
-    the choice depends on the row alone, never on the batching or the order
-    in which rows arrive.
-
-    References
-    ----------
-    Steele, G. L., Lea, D., Flood, C. H. (2014). Fast splittable
-    pseudorandom number generators. OOPSLA 2014.
-    """
-    z = np.asarray(positions).astype(np.uint64) + np.uint64(seed * 0x9E3779B97F4A7C15 % 2**64)
-    z = (z ^ (z >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
-    z = (z ^ (z >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
-    z = z ^ (z >> np.uint64(31))
-    return np.flatnonzero(z < np.uint64(min(share, 1.0) * float(2**64 - 2**11)))
+    """Indices of the rows kept in a deterministic sample of about ``share`` of them, chosen by their position alone
+    (:func:`prefit.stats.positions.hashed_share`)."""
+    return hashed_share(positions, share, seed)
 
 
 @dataclass(frozen=True)
