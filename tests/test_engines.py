@@ -247,3 +247,20 @@ def test_pandas_categoricals_in_parquet_are_read_as_their_levels(tmp_path: Path,
     assert memory["parameters"] == 1 + 3 + frame["Species"].cat.categories.size - 1
     same_values(report_of(path, args, "stream"), memory)
     same_values(report_of(path, args, "dask", scheduler), memory)
+
+
+class _Terminal(io.StringIO):
+    def isatty(self) -> bool:
+        return True
+
+
+def test_a_terminal_gets_one_bar_per_pass_with_rows_and_rate() -> None:
+    stream = _Terminal()
+    make = pass_bars(stream)
+    assert make is not None
+    bar = make("pass 1", 1000)
+    for _ in range(4):
+        bar.advance(250)
+    bar.finish()
+    shown = stream.getvalue()
+    assert "pass 1" in shown and "1000/1000" in shown
