@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 import json
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field, fields, replace
 from functools import cached_property
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
+import numpy as np
 import pyarrow as pa
 
 from . import __version__
@@ -31,11 +33,13 @@ from .registry import Registry, discover
 from .roles import apply_missing_codes, distinct_labels, resolve_roles
 from .rule import RuleLike, RuleSettings
 from .scoring import check_declared_ranges, read_score_table
+from .stats.blas import one_blas_thread
 
 if TYPE_CHECKING:
     import pandas as pd
 
 TOOL_NAME = "prefit"
+RULE_THREADS = 2
 REPORT_SCHEMA_VERSION = 1
 
 
@@ -234,10 +238,16 @@ def report_for(
     if progress is not None:
         progress.start(info.path, len(selected))
     try:
-        for rule, settings in selected:
-            if progress is not None:
-                progress.advance(rule.id)
-            outcomes.append(run_rule(rule, settings, context, debug))
+        # Rules run on two threads (numpy releases the interpreter lock in its loops) with BLAS on one thread,
+        # so that every product sums in the same order on every run and every machine.
+        with one_blas_thread(), np.errstate(all="ignore"):
+            _shared_core(context)
+        with one_blas_thread(), ThreadPoolExecutor(max_workers=RULE_THREADS, thread_name_prefix="prefit-rule") as pool:
+            running = [pool.submit(run_rule, rule, settings, context, debug) for rule, settings in selected]
+            for (rule, _), future in zip(selected, running):
+                if progress is not None:
+                    progress.advance(rule.id)
+                outcomes.append(future.result())
     finally:
         if progress is not None:
             progress.finish()
@@ -268,6 +278,20 @@ def report_for(
         rules=tuple(registry),
         context=context,
     )
+
+
+def _shared_core(context: RunContext) -> None:
+    """Build the design and the fit before the rules run side by side, so that no two threads build them twice.
+
+    A failure here is left for the rules: each that needs the design meets it
+    again and reports it as its own error.
+    """
+    try:
+        context.design
+        if context.target_is_numeric:
+            context.fit
+    except Exception:  # noqa: BLE001  (reported by every rule that reads the design)
+        return
 
 
 def _as_table(source: "pa.Table | pd.DataFrame | str | Path", read: ReadOptions) -> tuple[pa.Table, TableInfo]:
