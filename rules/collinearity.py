@@ -41,8 +41,18 @@ PRECISION_SOURCE = (
 )
 
 
+TRUSTED_DIGITS = 10
+
+
 def _coefficient(c: float) -> str:
-    magnitude = abs(c)
+    """A relation's coefficient for the message, first rounded to 10 significant digits.
+
+    The coefficients of an exact dependency are often round numbers (a floor
+    area, a level's count) recovered with rounding noise in the last digits;
+    rounding that noise away first means a value such as 13,950 is printed
+    the same way whichever side of it the noise fell.
+    """
+    magnitude = float(f"{abs(c):.{TRUSTED_DIGITS}g}")
     return f"{magnitude:.2f}" if 0.01 <= magnitude < 1000 else f"{magnitude:.3g}"
 
 

@@ -264,3 +264,19 @@ def test_a_terminal_gets_one_bar_per_pass_with_rows_and_rate() -> None:
     bar.finish()
     shown = stream.getvalue()
     assert "pass 1" in shown and "1000/1000" in shown
+
+
+@pytest.mark.parametrize(
+    "name, args",
+    [
+        ("warehouse_humidity_codes.csv", ("--target", "energy_kwh", "--missing-codes", "humidity_pct=-999")),
+        ("warehouse_clean.csv", ("--target", "energy_kwh", "--no-intercept")),
+        ("warehouse_clean.csv", ("--target", "site_id")),
+        ("warehouse_text_kwh.csv", ("--target", "energy_kwh")),
+        ("warehouse_tiny.csv", ("--target", "energy_kwh", "--predictors", "outdoor_c,door_openings")),
+    ],
+)
+def test_stream_engine_honours_the_check_options_as_the_memory_engine_does(name: str, args: tuple[str, ...]) -> None:
+    path = SAMPLE_TABLES / name
+    same_values(report_of(path, args, "stream"), report_of(path, args, "memory"))
+    assert report_of(path, args, "stream", row_budget=200)["target"] == args[1]
