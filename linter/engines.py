@@ -27,10 +27,11 @@ import pyarrow.compute as pc
 from .batches import BatchSource
 from .errors import UsageProblem
 from .options import CheckOptions
-from .passes import MeasureScreen, TableStatistics, first_pass, merge_all, merge_screens, second_pass
+from .passes import MeasureScreen, RobustCentre, TableStatistics, first_pass, merge_all, merge_screens, second_pass
 from .roles import Kind
 from .stats.fit import PreliminaryFit
 from .stats.positions import position_hashes
+from .stats.robust import robust_distances
 
 if TYPE_CHECKING:
     from .context import RunContext
@@ -39,6 +40,7 @@ from .roles import apply_missing_codes
 
 SAMPLE_CELLS = 6_000_000
 FEW_VALUES = 1_000
+ROWS_PER_VARIABLE = 5
 SAMPLE_SEED = 0x5EED_0F_1E1D
 
 
@@ -225,12 +227,31 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
     fit = whole_fit(statistics, roles.kinds, intercept) if context.target_is_numeric else None
     if fit is not None and fit.rank > 0 and fit.df_resid > 1:
         terms = statistics.model.terms(roles.kinds)
+        robust = robust_centre(context)
 
         def pass_two(batch: pa.Table, offset: int) -> tuple[MeasureScreen, ...]:
-            return second_pass(conformed(batch, schema, codes), offset, roles, terms, fit)
+            return second_pass(conformed(batch, schema, codes), offset, roles, terms, fit, robust)
 
         screens = runner.map_merge(pass_two, merge_screens, "pass 2")
     return context, EngineRun(runner.name, kept.seen, kept.table.num_rows, statistics.model.rows, screens)
+
+
+def robust_centre(context: RunContext) -> RobustCentre | None:
+    """The MCD location and scatter of the sample's numeric predictors (those with a nonzero MAD), or None.
+
+    The same estimate ``outliers.multivariate`` makes on the sample; pass 2
+    then measures every complete row of the table against it.
+    """
+    design = context.design
+    names = [c for c in context.numeric_predictors if c in design.column_names and context.median_and_mad(c)[1] > 0]
+    if len(names) < 2 or design.n < ROWS_PER_VARIABLE * len(names):
+        return None
+    data = design.X[:, [design.column_names.index(c) for c in names]]
+    try:
+        estimate = robust_distances(data, tuple(names))
+    except np.linalg.LinAlgError:
+        return None
+    return RobustCentre(tuple(names), estimate.location, estimate.scatter)
 
 
 def few_values(sample: pa.Table) -> frozenset[str]:

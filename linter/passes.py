@@ -27,6 +27,7 @@ from .stats.fit import PreliminaryFit
 from .stats.influence import row_influence
 from .stats.mergeable import Moments, TriangularFactor, triangular
 from .stats.missingness import MissingPatterns
+from .stats.robust import squared_distances
 from .stats.summaries import DISTINCT_CAP, ColumnTally
 
 TOP_ROWS = 20
@@ -36,7 +37,9 @@ SCREENED_RULES = {
     "cooks_distance": "influence.cooks-distance",
     "dffits": "influence.dffits",
     "dfbetas": "influence.dfbetas",
+    "robust_distance": "outliers.multivariate",
 }
+ROBUST_QUANTILE = 0.975
 
 
 @dataclass(frozen=True)
@@ -245,11 +248,27 @@ def row_screens(fit: PreliminaryFit) -> dict[str, tuple[tuple[str, float], ...]]
     }
 
 
-def second_pass(batch: pa.Table, offset: int, roles: Roles, terms: Sequence[Term], fit: PreliminaryFit) -> tuple[MeasureScreen, ...]:
+@dataclass(frozen=True)
+class RobustCentre:
+    """A robust location and scatter of some numeric predictors (MCD on the sample), to measure every row against."""
+
+    columns: tuple[str, ...]
+    location: np.ndarray
+    scatter: np.ndarray
+
+    def cutoffs(self) -> tuple[tuple[str, float], ...]:
+        """The chi-square 0.975 quantile of the squared distance (Rousseeuw & van Zomeren 1990)."""
+        return (("chi-square 0.975", float(scipy.stats.chi2.ppf(ROBUST_QUANTILE, len(self.columns)))),)
+
+
+def second_pass(
+    batch: pa.Table, offset: int, roles: Roles, terms: Sequence[Term], fit: PreliminaryFit, robust: RobustCentre | None = None
+) -> tuple[MeasureScreen, ...]:
     """Pass 2 over one batch: every complete row's hat value and deletion measures against the whole-table fit.
 
     ``offset`` is the 0-based table position of the batch's first row;
-    measures are compared in absolute value.
+    measures are compared in absolute value. With ``robust``, each complete
+    row's squared robust distance from it is screened too.
     """
     columns = ModelColumns.of(batch, roles)
     dummies = {t.source: t.levels for t in terms if t.reference is not None}
@@ -262,8 +281,13 @@ def second_pass(batch: pa.Table, offset: int, roles: Roles, terms: Sequence[Term
         "dffits": np.abs(influence.dffits),
         "dfbetas": influence.dfbetas_largest,
     }
+    all_cutoffs = dict(row_screens(fit))
+    if robust is not None:
+        data = np.column_stack([columns.numeric[name][positions] for name in robust.columns])
+        measured["robust_distance"] = squared_distances(data, robust.location, robust.scatter)
+        all_cutoffs["robust_distance"] = robust.cutoffs()
     screens = []
-    for measure, cutoffs in row_screens(fit).items():
+    for measure, cutoffs in all_cutoffs.items():
         values = np.nan_to_num(measured[measure], nan=-np.inf)
         counted = tuple(Cutoff(name, value, int(np.count_nonzero(values > value))) for name, value in cutoffs)
         keep = np.lexsort((positions, -values))[:TOP_ROWS]

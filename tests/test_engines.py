@@ -280,3 +280,26 @@ def test_stream_engine_honours_the_check_options_as_the_memory_engine_does(name:
     path = SAMPLE_TABLES / name
     same_values(report_of(path, args, "stream"), report_of(path, args, "memory"))
     assert report_of(path, args, "stream", row_budget=200)["target"] == args[1]
+
+
+def test_pass_two_measures_every_row_against_the_samples_robust_centre() -> None:
+    # source: scipy.spatial.distance.cdist (Mahalanobis) and scipy.stats.chi2 for the cutoff
+    import pyarrow.csv as pacsv
+    import scipy.spatial.distance
+    import scipy.stats
+
+    from prefit.engines import robust_centre
+
+    path = SAMPLE_TABLES / "warehouse_meter_slip.csv"
+    options = run_cli_options(("--target", "energy_kwh"))
+    context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=600)
+    centre = robust_centre(context)
+    assert centre is not None
+    screen = {s.measure: s for s in run.screens}["robust_distance"]
+    table = pacsv.read_csv(path).to_pandas()
+    data = table[list(centre.columns) + ["energy_kwh"]].dropna()[list(centre.columns)].to_numpy(float)
+    squared = scipy.spatial.distance.cdist(data, centre.location[None, :], "mahalanobis", VI=np.linalg.inv(centre.scatter))[:, 0] ** 2
+    cutoff = scipy.stats.chi2.ppf(0.975, len(centre.columns))
+    assert screen.cutoffs[0].value == pytest.approx(cutoff)
+    assert screen.cutoffs[0].beyond == int(np.count_nonzero(squared > cutoff))
+    np.testing.assert_allclose(screen.top_values, np.sort(squared)[::-1][: screen.top_values.size], rtol=1e-9)
