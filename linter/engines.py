@@ -12,7 +12,8 @@ per batch or partition and merge their results:
 - pass 1 (:func:`prefit.passes.first_pass`), the whole table's column
   tallies, missing-value patterns and R factor;
 - pass 2 (:func:`prefit.passes.second_pass`), only when the rules ran on a
-  sample: every complete row scored against the whole table's fit.
+  sample: every complete row scored against the whole table's fit and
+  measured against the sample's robust centre.
 """
 
 from __future__ import annotations
@@ -28,15 +29,14 @@ from .batches import BatchSource
 from .errors import UsageProblem
 from .options import CheckOptions
 from .passes import MeasureScreen, RobustCentre, TableStatistics, first_pass, merge_all, merge_screens, second_pass
-from .roles import Kind
+from .reading import TableInfo
+from .roles import Kind, apply_missing_codes
 from .stats.fit import PreliminaryFit
 from .stats.positions import position_hashes
 from .stats.robust import robust_distances
 
 if TYPE_CHECKING:
     from .context import RunContext
-from .reading import TableInfo
-from .roles import apply_missing_codes
 
 SAMPLE_CELLS = 6_000_000
 FEW_VALUES = 1_000

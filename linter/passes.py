@@ -14,7 +14,7 @@ those of the whole table.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Mapping, Sequence
+from typing import Mapping, Protocol, Sequence, TypeVar
 
 import numpy as np
 import pyarrow as pa
@@ -187,7 +187,16 @@ def _missing(columns: ModelColumns, batch: pa.Table, name: str, roles: Roles) ->
     return columns.categories[name][0] < 0
 
 
-def merge_all(parts: Sequence[TableStatistics]) -> TableStatistics:
+class Mergeable(Protocol):
+    """A statistic of some rows that combines with the same statistic of the rows after them."""
+
+    def merge(self: MergeableT, other: MergeableT) -> MergeableT: ...
+
+
+MergeableT = TypeVar("MergeableT", bound=Mergeable)
+
+
+def merge_all(parts: Sequence[MergeableT]) -> MergeableT:
     """Merge batch statistics in order, pairwise as a balanced tree (the same tree a distributed reduction builds)."""
     level = list(parts)
     while len(level) > 1:
