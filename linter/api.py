@@ -218,8 +218,9 @@ def check_file(
         context, run = scaled_context(StreamRunner(open_batches(path, read), pass_bars()), options, row_budget)
     else:
         from .distributed import DaskRunner
+        from .progress import pass_bars
 
-        with DaskRunner(path, read, scheduler) as runner:
+        with DaskRunner(path, read, scheduler, pass_bars()) as runner:
             context, run = scaled_context(runner, options, row_budget)
     return report_for(context, registry, selected, run, debug, progress)
 

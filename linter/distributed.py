@@ -1,5 +1,7 @@
 """The Dask engine: the pass functions run per partition with ``map_partitions`` and merge as a tree on the cluster.
 
+On a terminal each pass shows a bar of rows done as partitions finish.
+
 Needs the ``prefit[dask]`` extra. Without ``--scheduler`` a local cluster of
 two single-threaded worker processes on the loopback interface is started
 for the run and closed after it.
@@ -64,6 +66,7 @@ class DaskRunner:
     path: str
     options: ReadOptions
     scheduler: str | None = None
+    progress: Callable[[str, int | None], Any] | None = None
     name: str = "dask"
     _client: Any = field(default=None, init=False, repr=False)
     _cluster: Any = field(default=None, init=False, repr=False)
@@ -107,12 +110,24 @@ class DaskRunner:
         """``task`` on every partition (with its first table position), merged pairwise up a tree on the cluster."""
         import pandas as pd
         from dask.delayed import delayed
+        from distributed import as_completed
 
         parts = self._frame.map_partitions(_run_partition, task, self._offsets, self._schema, meta=pd.Series(dtype=object))
-        level = [delayed(_first)(part) for part in parts.to_delayed()]
+        level = self._client.compute([delayed(_first)(part) for part in parts.to_delayed()])
+        if self.progress is not None:
+            bar = self.progress(label, self._offsets[-1])
+            rows = {future.key: self._offsets[i + 1] - self._offsets[i] for i, future in enumerate(level)}
+            try:
+                for done in as_completed(level):
+                    bar.advance(rows[done.key])
+            finally:
+                bar.finish()
         while len(level) > 1:
-            level = [delayed(_merge_two)(merge, level[i], level[i + 1]) if i + 1 < len(level) else level[i] for i in range(0, len(level), SPLIT_EVERY)]
-        return level[0].compute()
+            level = [
+                self._client.submit(_merge_two, merge, level[i], level[i + 1], pure=False) if i + 1 < len(level) else level[i]
+                for i in range(0, len(level), SPLIT_EVERY)
+            ]
+        return level[0].result()
 
     def info(self, rows: int, columns: int) -> TableInfo:
         assert self._source is not None

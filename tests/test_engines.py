@@ -303,3 +303,16 @@ def test_pass_two_measures_every_row_against_the_samples_robust_centre() -> None
     assert screen.cutoffs[0].value == pytest.approx(cutoff)
     assert screen.cutoffs[0].beyond == int(np.count_nonzero(squared > cutoff))
     np.testing.assert_allclose(screen.top_values, np.sort(squared)[::-1][: screen.top_values.size], rtol=1e-9)
+
+
+def test_dask_passes_show_rows_done_on_a_terminal(scheduler: str) -> None:
+    from prefit.distributed import DaskRunner
+    from prefit.reading import ReadOptions
+
+    stream = _Terminal()
+    path = SAMPLE_TABLES / "warehouse_holes.parquet"
+    with DaskRunner(str(path), ReadOptions(), scheduler, pass_bars(stream)) as runner:
+        context, run = scaled_context(runner, options_from(target="energy_kwh"))
+    shown = stream.getvalue()
+    assert "reading" in shown and "pass 1" in shown
+    assert f"{run.table_rows}/{run.table_rows}" in shown
