@@ -118,7 +118,7 @@ class DaskRunner:
             bar = self.progress(label, self._offsets[-1])
             rows = {future.key: self._offsets[i + 1] - self._offsets[i] for i, future in enumerate(level)}
             try:
-                for done in as_completed(level):
+                for done in as_completed(level):  # type: ignore[no-untyped-call]
                     bar.advance(rows[done.key])
             finally:
                 bar.finish()
