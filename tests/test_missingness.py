@@ -16,6 +16,7 @@ from numpy.testing import assert_allclose
 from statsmodels.stats.multitest import multipletests
 
 from prefit.rules.missingness import _holm
+from prefit.stats import missingness as missingness_stats
 from prefit.stats import sentinels
 from prefit.stats.missingness import (
     MissingPatterns,
@@ -510,6 +511,65 @@ def test_pattern_moments_over_many_blocks_match_numpy_per_pattern() -> None:
         assert group.count == observed.shape[0]
         assert_allclose(group.mean, observed.mean(axis=0), rtol=1e-12)
         assert_allclose(group.comoment, centred.T @ centred, rtol=1e-9, atol=1e-9 * np.abs(centred).max() ** 2)
+
+
+def _em_pattern_by_pattern(values: np.ndarray, tolerance: float) -> tuple[np.ndarray, np.ndarray, int, float]:
+    """EM that imputes each pattern's rows with numpy, one pattern at a time; its estimate, iterations and Little's statistic.
+
+    Starts from the available-case means and variances and stops when no parameter moves by more than ``tolerance``
+    relative to its size plus one, so that it takes the same steps as an EM on per-pattern moments.
+    """
+    observed = ~np.isnan(values)
+    keys, inverse = np.unique(observed, axis=0, return_inverse=True)
+    inverse = inverse.reshape(-1)
+    n, p = values.shape
+    mu, sigma = np.nanmean(values, axis=0), np.diag(np.nanvar(values, axis=0))
+    for iteration in range(1, 10_001):
+        total, cross = np.zeros(p), np.zeros((p, p))
+        for j, o in enumerate(keys):
+            filled = values[inverse == j].copy()
+            m = ~o
+            if m.any():
+                coef = sigma[np.ix_(m, o)] @ np.linalg.inv(sigma[np.ix_(o, o)])
+                filled[:, m] = mu[m] + (filled[:, o] - mu[o]) @ coef.T
+                cross[np.ix_(m, m)] += filled.shape[0] * (sigma[np.ix_(m, m)] - coef @ sigma[np.ix_(o, m)])
+            total += filled.sum(axis=0)
+            cross += filled.T @ filled
+        new_mu = total / n
+        new_sigma = cross / n - np.outer(new_mu, new_mu)
+        change = max(np.max(np.abs(new_mu - mu) / (np.abs(mu) + 1)), np.max(np.abs(new_sigma - sigma) / (np.abs(sigma) + 1)))
+        mu, sigma = new_mu, (new_sigma + new_sigma.T) / 2
+        if change < tolerance:
+            break
+    statistic = 0.0
+    for j, o in enumerate(keys):
+        difference = values[inverse == j][:, o].mean(axis=0) - mu[o]
+        statistic += np.count_nonzero(inverse == j) * difference @ np.linalg.solve(sigma[np.ix_(o, o)], difference)
+    return mu, sigma, iteration, float(statistic)
+
+
+@pytest.mark.parametrize("condition_limit", [missingness_stats.CONDITION_LIMIT, 1.0])
+def test_stacked_em_over_many_patterns_matches_pattern_by_pattern_em(
+    condition_limit: float, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    columns = ("carat", "depth", "table", "price", "x", "y", "z")
+    values = _diamonds()[list(columns)].to_numpy(dtype=float, copy=True)
+    values = (values - values.mean(axis=0)) / values.std(axis=0)
+    values[np.random.default_rng(23).random(values.shape) < [0.3, 0.1, 0.2, 0.15, 0.25, 0.05, 0.35]] = np.nan
+    values = values[~np.isnan(values).all(axis=1)]
+    monkeypatch.setattr(missingness_stats, "CONDITION_LIMIT", condition_limit)
+    moments = PatternMoments.of(columns, values)
+    assert len(moments.groups) > 100
+    estimate = normal_em(moments)
+    test = little_mcar(moments)
+    mu, sigma, iterations, statistic = _em_pattern_by_pattern(values, tolerance=1e-10)
+    # reference: EM imputing each pattern's rows with numpy, one pattern at a time (written above), same stopping rule
+    assert estimate.converged and estimate.iterations == iterations
+    assert_allclose(estimate.mean, mu, rtol=1e-10, atol=1e-12)
+    assert_allclose(estimate.covariance, sigma, rtol=1e-10, atol=1e-12)
+    assert test is not None
+    assert_allclose(test.statistic, statistic, rtol=1e-10)
+    assert (missingness_stats._precision(estimate.covariance) is None) == (condition_limit == 1.0)
 
 
 def test_standardizing_the_moments_equals_standardizing_the_values() -> None:

@@ -24,6 +24,7 @@ from .blas import one_blas_thread
 Pattern = tuple[bool, ...]
 TABLE_BITS = 20
 MOMENT_ROWS = 8_192
+CONDITION_LIMIT = 1e6
 
 
 def pattern_index(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -311,8 +312,10 @@ def normal_em(moments: PatternMoments, tolerance: float = 1e-10, max_iterations:
 
     The E-step of every row of a pattern depends on the rows only through the
     pattern's count, mean and co-moment, so each iteration costs
-    O(patterns x p^3), independent of the number of rows. Iteration stops when
-    no parameter moves by more than ``tolerance`` (relative to its size).
+    O(patterns x p^3), independent of the number of rows. Patterns with the
+    same number of observed columns are handled together, as stacks of
+    submatrices. Iteration stops when no parameter moves by more than
+    ``tolerance`` (relative to its size).
 
     References
     ----------
@@ -327,19 +330,17 @@ def normal_em(moments: PatternMoments, tolerance: float = 1e-10, max_iterations:
     mean, covariance = _start(groups, p)
     fixed_total = np.zeros(p)
     fixed_cross = np.zeros((p, p))
-    partial: list[_PartialPattern] = []
     for observed, group in groups:
         o = np.flatnonzero(observed)
-        outer = group.comoment + group.count * np.outer(group.mean, group.mean)
         fixed_total[o] += group.count * group.mean
-        fixed_cross[np.ix_(o, o)] += outer
-        if o.size < p:
-            partial.append(_PartialPattern(o, np.flatnonzero(~observed), group, outer))
+        fixed_cross[np.ix_(o, o)] += group.comoment + group.count * np.outer(group.mean, group.mean)
+    stacks = _PatternStack.split([(o, g) for o, g in groups if not o.all()], p)
     for iteration in range(1, max_iterations + 1):
         total = fixed_total.copy()
         cross = fixed_cross.copy()
-        for pattern in partial:
-            pattern.add_expected(mean, covariance, total, cross)
+        precision = _precision(covariance)
+        for stack in stacks:
+            stack.add_expected(mean, covariance, precision, total, cross)
         new_mean = total / n
         new_covariance = cross / n - np.outer(new_mean, new_mean)
         change = max(
@@ -360,49 +361,127 @@ def _start(groups: list[tuple[np.ndarray, PatternGroup]], p: int) -> tuple[np.nd
 
 
 def _available_case(groups: list[tuple[np.ndarray, PatternGroup]], p: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Per column, the count, mean and sum of squared deviations of its observed values, merged over patterns."""
-    count = np.zeros(p)
-    mean = np.zeros(p)
-    m2 = np.zeros(p)
-    for observed, group in groups:
-        index = np.flatnonzero(observed)
-        for k, j in enumerate(index):
-            n_a, n_b = count[j], group.count
-            delta = group.mean[k] - mean[j]
-            total = n_a + n_b
-            mean[j] += delta * n_b / total
-            m2[j] += group.comoment[k, k] + delta * delta * n_a * n_b / total
-            count[j] = total
+    """Per column, the count, mean and sum of squared deviations of its observed values, merged over patterns.
+
+    The pooled mean is the count-weighted mean of the pattern means; the
+    pooled sum of squares adds each pattern's own to its count times the
+    squared distance of its mean from the pooled one.
+    """
+    if not groups:
+        return np.zeros(p), np.zeros(p), np.zeros(p)
+    column = np.concatenate([np.flatnonzero(observed) for observed, _ in groups])
+    weight = np.concatenate([np.full(group.mean.size, float(group.count)) for _, group in groups])
+    group_mean = np.concatenate([group.mean for _, group in groups])
+    squares = np.concatenate([np.diagonal(group.comoment) for _, group in groups])
+    count = np.bincount(column, weights=weight, minlength=p)
+    mean = np.divide(np.bincount(column, weights=weight * group_mean, minlength=p), count, out=np.zeros(p), where=count > 0)
+    m2 = np.bincount(column, weights=squares + weight * (group_mean - mean[column]) ** 2, minlength=p)
     return count, mean, m2
 
 
-class _PartialPattern:
-    """A pattern with missing columns: its observed (``o``) and missing (``m``) column indices and moments."""
+class _PatternStack:
+    """Patterns observing the same number of columns, stacked.
 
-    __slots__ = ("o", "m", "group", "outer", "oo", "mo", "om", "mm")
+    ``o`` (patterns x observed) and ``m`` (patterns x missing) hold each
+    pattern's column indices; ``count``, ``mean`` and ``comoment`` its
+    moments; ``om`` and ``mm`` the flat positions of each pattern's
+    observed-by-missing and missing-by-missing cells in a p x p matrix.
+    """
 
-    def __init__(self, o: np.ndarray, m: np.ndarray, group: PatternGroup, outer: np.ndarray) -> None:
-        self.o, self.m, self.group, self.outer = o, m, group, outer
-        self.oo, self.mo, self.om, self.mm = np.ix_(o, o), np.ix_(m, o), np.ix_(o, m), np.ix_(m, m)
+    __slots__ = ("comoment", "count", "m", "mean", "mm", "o", "om", "p")
 
-    def add_expected(self, mean: np.ndarray, covariance: np.ndarray, total: np.ndarray, cross: np.ndarray) -> None:
+    def __init__(self, members: list[tuple[np.ndarray, PatternGroup]], p: int) -> None:
+        self.p = p
+        self.o = np.array([np.flatnonzero(observed) for observed, _ in members], dtype=np.intp)
+        self.m = np.array([np.flatnonzero(~observed) for observed, _ in members], dtype=np.intp)
+        self.count = np.array([g.count for _, g in members], dtype=np.float64)
+        self.mean = np.array([g.mean for _, g in members])
+        self.comoment = np.array([g.comoment for _, g in members])
+        self.om = (self.o[:, :, None] * p + self.m[:, None, :]).ravel()
+        self.mm = (self.m[:, :, None] * p + self.m[:, None, :]).ravel()
+
+    @classmethod
+    def split(cls, groups: list[tuple[np.ndarray, PatternGroup]], p: int) -> list[_PatternStack]:
+        """One stack per number of observed columns, fewest first, patterns in their given order within."""
+        by_size: dict[int, list[tuple[np.ndarray, PatternGroup]]] = {}
+        for observed, group in groups:
+            by_size.setdefault(int(observed.sum()), []).append((observed, group))
+        return [cls(by_size[size], p) for size in sorted(by_size)]
+
+    def blocks(self, covariance: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Every pattern's observed-by-observed and missing-by-observed blocks of ``covariance``."""
+        o, m = self.o, self.m
+        return covariance[o[:, :, None], o[:, None, :]], covariance[m[:, :, None], o[:, None, :]]
+
+    def regression(self, covariance: np.ndarray, precision: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
+        """Per pattern, the slopes ``B = Sigma_mo Sigma_oo^-1`` of missing on observed columns, and the residual covariance.
+
+        With the precision ``K = Sigma^-1`` at hand, ``B = -K_mm^-1 K_mo`` and
+        the residual covariance is ``K_mm^-1``: a solve of the size of the
+        missing columns instead of the observed ones (Whittaker 1990,
+        section 5.7). Without it, ``Sigma_oo`` is solved directly.
+
+        References
+        ----------
+        Whittaker, J. (1990). Graphical Models in Applied Multivariate
+        Statistics. Wiley.
+        """
+        o, m = self.o, self.m
+        if precision is not None:
+            residual_covariance = np.linalg.inv(precision[m[:, :, None], m[:, None, :]])
+            return -(residual_covariance @ precision[m[:, :, None], o[:, None, :]]), residual_covariance
+        sigma_oo, sigma_mo = self.blocks(covariance)
+        sigma_om = sigma_mo.transpose(0, 2, 1)
+        slope = _solve_symmetric_stack(sigma_oo, sigma_om).transpose(0, 2, 1)
+        return slope, covariance[m[:, :, None], m[:, None, :]] - slope @ sigma_om
+
+    def add_expected(
+        self, mean: np.ndarray, covariance: np.ndarray, precision: np.ndarray | None, total: np.ndarray, cross: np.ndarray
+    ) -> None:
         """E-step: add the expected sums of the missing values and of their products to ``total`` and ``cross``.
 
         Given the observed values, the missing ones are normal with mean
         ``mu_m + B (y_o - mu_o)``, ``B = Sigma_mo Sigma_oo^-1``, and covariance
         ``Sigma_mm - B Sigma_om`` (Little & Rubin 2019, section 11.2.1).
+        ``precision`` is ``Sigma^-1``, or None when it is not to be trusted.
         """
-        o, m, group = self.o, self.m, self.group
-        n = group.count
-        sigma_mo = covariance[self.mo]
-        slope = _solve_symmetric(covariance[self.oo], sigma_mo.T).T
-        residual_covariance = covariance[self.mm] - slope @ sigma_mo.T
-        missing_mean = mean[m] + slope @ (group.mean - mean[o])
-        cross_om = np.outer(n * group.mean, mean[m] - slope @ mean[o]) + self.outer @ slope.T
-        total[m] += n * missing_mean
-        cross[self.om] += cross_om
-        cross[self.mo] += cross_om.T
-        cross[self.mm] += n * residual_covariance + slope @ group.comoment @ slope.T + n * np.outer(missing_mean, missing_mean)
+        o, m, n, p = self.o, self.m, self.count, self.p
+        slope, residual_covariance = self.regression(covariance, precision)
+        slope_t = slope.transpose(0, 2, 1)
+        mean_o, mean_m = mean[o], mean[m]
+        slope_mean = (slope @ self.mean[:, :, None])[:, :, 0]
+        missing_mean = mean_m + slope_mean - (slope @ mean_o[:, :, None])[:, :, 0]
+        comoment_slope = self.comoment @ slope_t
+        weighted_mean = n[:, None] * self.mean
+        cross_om = weighted_mean[:, :, None] * missing_mean[:, None, :] + comoment_slope
+        cross_mm = (
+            n[:, None, None] * residual_covariance
+            + slope @ comoment_slope
+            + n[:, None, None] * (missing_mean[:, :, None] * missing_mean[:, None, :])
+        )
+        total += np.bincount(m.ravel(), weights=(n[:, None] * missing_mean).ravel(), minlength=p)
+        observed_missing = np.bincount(self.om, weights=cross_om.ravel(), minlength=p * p).reshape(p, p)
+        cross += observed_missing + observed_missing.T
+        cross += np.bincount(self.mm, weights=cross_mm.ravel(), minlength=p * p).reshape(p, p)
+
+
+def _precision(covariance: np.ndarray) -> np.ndarray | None:
+    """The inverse of a covariance matrix whose condition number is at most ``CONDITION_LIMIT``, else None.
+
+    Inverting loses about ``log10(condition)`` of the 16 digits (Golub & Van
+    Loan 2013, section 2.6.2); within the limit the EM estimate agrees with
+    direct solves of ``Sigma_oo`` to about 1e-10.
+
+    References
+    ----------
+    Golub, G. H., Van Loan, C. F. (2013). Matrix Computations, 4th ed. Johns
+    Hopkins University Press.
+    """
+    eigenvalues = np.linalg.eigvalsh(covariance)
+    if eigenvalues[0] <= eigenvalues[-1] / CONDITION_LIMIT:
+        return None
+    inverse = np.linalg.inv(covariance)
+    return (inverse + inverse.T) / 2
 
 
 def _solve_symmetric(a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -411,6 +490,14 @@ def _solve_symmetric(a: np.ndarray, b: np.ndarray) -> np.ndarray:
         return np.linalg.solve(a, b)
     except np.linalg.LinAlgError:
         return np.linalg.lstsq(a, b, rcond=None)[0]
+
+
+def _solve_symmetric_stack(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Solve ``a[i] x[i] = b[i]`` for a stack of symmetric positive semi-definite ``a`` (least squares for a singular one)."""
+    try:
+        return np.linalg.solve(a, b)
+    except np.linalg.LinAlgError:
+        return np.stack([_solve_symmetric(a_i, b_i) for a_i, b_i in zip(a, b)])
 
 
 @dataclass(frozen=True)
@@ -445,14 +532,12 @@ def little_mcar(moments: PatternMoments) -> LittleTest | None:
         return None
     estimate = normal_em(moments)
     statistic = 0.0
-    observed_total = 0
-    for observed, group in groups:
-        o = np.flatnonzero(observed)
-        difference = group.mean - estimate.mean[o]
-        sigma = estimate.covariance[np.ix_(o, o)]
-        statistic += group.count * float(difference @ _solve_symmetric(sigma, difference))
-        observed_total += o.size
-    df = observed_total - p
+    for stack in _PatternStack.split(groups, p):
+        difference = stack.mean - estimate.mean[stack.o]
+        sigma_oo, _ = stack.blocks(estimate.covariance)
+        solved = _solve_symmetric_stack(sigma_oo, difference[:, :, None])[:, :, 0]
+        statistic += float(stack.count @ np.einsum("ij,ij->i", difference, solved))
+    df = sum(int(observed.sum()) for observed, _ in groups) - p
     if df <= 0:
         return None
     p_value = float(scipy.stats.chi2.sf(statistic, df))
