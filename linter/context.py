@@ -12,9 +12,9 @@ import pyarrow as pa
 from .design import Design, build_design
 from .findings import MAX_LISTED_ROWS, RowLabel
 from .options import CheckOptions
-from .passes import TableStatistics
+from .passes import TableStatistics, row_labels
 from .reading import TableInfo
-from .roles import Kind, Roles, label_values, numeric_values
+from .roles import Kind, Roles, numeric_values
 from .rule import top_rows
 from .scoring import ScoredRows, ScoreTable, score_rows
 from .stats.blas import one_blas_thread
@@ -191,12 +191,7 @@ class RunContext:
 
     @cached_property
     def _labels(self) -> list[RowLabel] | None:
-        if self.roles.id is None:
-            return None
-        column = self.table.column(self.roles.id)
-        if pa.types.is_integer(column.type):
-            return [v if v is not None else "" for v in column.to_pylist()]
-        return [v if v is not None else "" for v in label_values(column)]
+        return row_labels(self.table, self.roles)
 
     def row_label(self, position: int) -> RowLabel:
         """The label of 0-based table row ``position``: its id value, or its 1-based data row number in the file."""
