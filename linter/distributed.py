@@ -68,6 +68,7 @@ class DaskRunner:
     scheduler: str | None = None
     progress: Callable[[str, int | None], Any] | None = None
     name: str = "dask"
+    reads_in_process: bool = False
     _client: Any = field(default=None, init=False, repr=False)
     _cluster: Any = field(default=None, init=False, repr=False)
     _frame: Any = field(default=None, init=False, repr=False)

@@ -25,7 +25,7 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from .batches import BatchSource
+from .batches import BATCH_ROWS, BatchSource
 from .errors import UsageProblem
 from .options import CheckOptions
 from .passes import MeasureScreen, RobustCentre, TableStatistics, first_pass, merge_all, merge_screens, second_pass
@@ -90,9 +90,15 @@ class KeptRows:
 
 
 class PassRunner(Protocol):
-    """Runs a function over every row batch of the table (with the batch's first table position) and merges the results."""
+    """Runs a function over every row batch of the table (with the batch's first table position) and merges the results.
+
+    ``reads_in_process`` is True when the batches are read in this process:
+    once every row is kept in memory, pass 1 then runs over the kept rows
+    instead of reading the file again (a cluster keeps its own partitions).
+    """
 
     name: str
+    reads_in_process: bool
 
     def map_merge(self, task: Callable[[pa.Table, int], Any], merge: Callable[[Sequence[Any]], Any], label: str) -> Any: ...
 
@@ -108,6 +114,7 @@ class StreamRunner:
     source: BatchSource
     progress: Callable[[str, int | None], Any] | None = None
     name: str = "stream"
+    reads_in_process: bool = True
 
     def map_merge(self, task: Callable[[pa.Table, int], Any], merge: Callable[[Sequence[Any]], Any], label: str) -> Any:
         results: list[Any] = []
@@ -218,7 +225,11 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
     def pass_one(batch: pa.Table, offset: int) -> TableStatistics:
         return first_pass(conformed(batch, schema, codes), roles, intercept, counted)
 
-    statistics: TableStatistics = runner.map_merge(pass_one, merge_all, "pass 1")
+    if kept.whole and runner.reads_in_process:
+        # Every row is already in memory: pass 1 runs over the kept rows' batches instead of reading the file again.
+        statistics = merge_all([first_pass(batch, roles, intercept, counted) for batch in _batches(context.table)])
+    else:
+        statistics = runner.map_merge(pass_one, merge_all, "pass 1")
     if kept.whole:
         context.statistics = statistics
         return context, EngineRun(runner.name, kept.seen, kept.seen, statistics.model.rows)
@@ -252,6 +263,10 @@ def robust_centre(context: RunContext) -> RobustCentre | None:
     except np.linalg.LinAlgError:
         return None
     return RobustCentre(tuple(names), estimate.location, estimate.scatter)
+
+
+def _batches(table: pa.Table) -> list[pa.Table]:
+    return [pa.Table.from_batches([batch], schema=table.schema) for batch in table.to_batches(max_chunksize=BATCH_ROWS)]
 
 
 def few_values(sample: pa.Table) -> frozenset[str]:
