@@ -25,7 +25,7 @@ from prefit.roles import resolve_roles
 from prefit.rule import RuleSettings
 
 FAMILIES = ("influence", "outliers")
-REPEATS = 2
+REPEATS = 5
 
 
 def timed(action: Callable[[], object], repeat: int = 1) -> float:

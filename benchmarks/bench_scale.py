@@ -6,6 +6,11 @@ Run ``python benchmarks/bench_scale.py`` (``--quick`` for the two smaller sizes,
 gross errors and one 5-level category; ``kwh`` is the target. Each route runs as a whole process; routes
 alternate within each repeat, and the table reports medians, the ratios, and peak resident memory (``wait4``).
 Results are printed and written to ``benchmarks/results/scale.json``.
+
+Every timed process runs with ``NUMPY_MADVISE_HUGEPAGE=0`` (``--numpy-hugepages`` keeps numpy's default). With
+transparent huge pages in ``madvise`` mode, numpy asks the kernel for huge pages and the kernel compacts memory
+to find them; how long that takes depends on the machine's memory state, not on the program (the floor alone
+moved between 0.9 and 2.3 s from run to run on the 2-core test machine).
 """
 
 from __future__ import annotations
@@ -117,10 +122,13 @@ print(len(vif), float(np.max(hat)), float(np.max(cooks)), float(np.max(np.abs(st
 """
 
 
+TIMED_ENVIRONMENT = {"NO_COLOR": "1", "NUMPY_MADVISE_HUGEPAGE": "0"}
+
+
 def run_process(command: list[str]) -> tuple[float, float]:
     """Wall time (s) and peak resident memory (MiB) of one whole process."""
     start = time.perf_counter()
-    child = subprocess.Popen(command, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, env={**os.environ, "NO_COLOR": "1"})
+    child = subprocess.Popen(command, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, env={**os.environ, **TIMED_ENVIRONMENT})
     _, status, usage = os.wait4(child.pid, 0)
     elapsed = time.perf_counter() - start
     stderr = child.stderr.read().decode() if child.stderr else ""
@@ -202,11 +210,14 @@ def main() -> None:
     parser.add_argument("--memory", action="store_true", help="also the 10,000,000 x 20 streaming peak-memory run")
     parser.add_argument("--repeats", type=int, default=3)
     parser.add_argument("--only", metavar="ROWSxCOLUMNS", help="one size, e.g. 1000000x20")
+    parser.add_argument("--numpy-hugepages", action="store_true", help="keep numpy's default huge-page advice in the timed processes")
     args = parser.parse_args()
+    if args.numpy_hugepages:
+        del TIMED_ENVIRONMENT["NUMPY_MADVISE_HUGEPAGE"]
     sizes = SIZES[:2] if args.quick else SIZES
     if args.only:
         sizes = tuple(size for size in SIZES if f"{size[0]}x{size[1]}" == args.only)
-    report: dict[str, object] = {"startup_seconds": startup(5), "tables": measure(sizes, args.repeats)}
+    report: dict[str, object] = {"environment": dict(TIMED_ENVIRONMENT), "startup_seconds": startup(5), "tables": measure(sizes, args.repeats)}
     if args.memory:
         report["streaming_peak"] = peak_memory_run()
     RESULTS.parent.mkdir(exist_ok=True)

@@ -27,6 +27,7 @@ from .errors import UsageProblem
 from .findings import GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade
 from .options import SETTINGS_BY_KEY, CheckOptions, parse_settings
 from .passes import SCREENED_RULES
+from .preload import imports_ready, warm_imports
 from .progress import RunProgress
 from .reading import ReadOptions, TableInfo, decode_dictionaries, read_table
 from .registry import Registry, discover
@@ -208,7 +209,10 @@ def check_file(
     chosen = choose_engine(engine, path)
     if chosen == "memory" or path == "-":
         table, info = read_table(path, read)
+        # Started after the read: the reader already keeps both cores busy.
+        warm_imports()
         return run_check(table, info, options, debug=debug, progress=progress)
+    warm_imports()
     registry = discover()
     selected = select_rules(registry, options)
     if chosen == "stream":
@@ -243,9 +247,11 @@ def report_for(
         # so that every product sums in the same order on every run and every machine.
         with one_blas_thread(), np.errstate(all="ignore"):
             _shared_core(context)
+        imports_ready()
         with one_blas_thread(), ThreadPoolExecutor(max_workers=RULE_THREADS, thread_name_prefix="prefit-rule") as pool:
-            running = [pool.submit(run_rule, rule, settings, context, debug) for rule, settings in selected]
-            for (rule, _), future in zip(selected, running):
+            submitted = {rule.id: pool.submit(run_rule, rule, settings, context, debug) for rule, settings in heavy_first(selected)}
+            for rule, _ in selected:
+                future = submitted[rule.id]
                 if progress is not None:
                     progress.advance(rule.id)
                 outcomes.append(future.result())
@@ -279,6 +285,11 @@ def report_for(
         rules=tuple(registry),
         context=context,
     )
+
+
+def heavy_first(selected: Sequence[tuple[RuleLike, RuleSettings]]) -> list[tuple[RuleLike, RuleSettings]]:
+    """The rules in the order they start: heavy rules first, each group in report order (a stable sort)."""
+    return sorted(selected, key=lambda chosen: not getattr(chosen[0], "heavy", False))
 
 
 def _shared_core(context: RunContext) -> None:

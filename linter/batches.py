@@ -9,7 +9,6 @@ are read whole and then cut into batches.
 
 from __future__ import annotations
 
-import hashlib
 import io
 import os
 from dataclasses import dataclass
@@ -26,6 +25,7 @@ from .reading import (
     _format_from_name,
     _sniff_sep,
     decode_dictionaries,
+    file_digest,
     is_readable_file,
     read_table,
 )
@@ -113,12 +113,6 @@ class BatchSource:
     def info(self, rows: int, columns: int) -> TableInfo:
         """The table facts, with the file's digest computed by streaming its bytes."""
         return TableInfo(path=self.path, format=self.format, rows=rows, columns=columns, sha256=file_digest(self.path))
-
-
-def file_digest(path: str) -> str:
-    """SHA-256 of the file's bytes, read in blocks."""
-    with open(path, "rb") as handle:
-        return hashlib.file_digest(handle, "sha256").hexdigest()
 
 
 def open_batches(path: str, options: ReadOptions = ReadOptions()) -> BatchSource:

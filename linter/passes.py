@@ -18,7 +18,6 @@ from typing import Mapping, Protocol, Sequence, TypeVar
 
 import numpy as np
 import pyarrow as pa
-import scipy.stats
 
 from .design import INTERCEPT, ModelColumns, Term, treatment_term
 from .roles import Kind, Roles, label_values
@@ -245,6 +244,7 @@ class MeasureScreen:
 
 def row_screens(fit: PreliminaryFit) -> dict[str, tuple[tuple[str, float], ...]]:
     """The cutoffs pass 2 counts, per measure (the influence and outlier rules' default thresholds)."""
+    import scipy.stats
     n, k = fit.n, fit.rank
     dof = fit.df_resid - 1
     bonferroni = float(scipy.stats.t.isf(0.05 / (2 * n), dof)) if dof > 0 else float("inf")
@@ -267,6 +267,7 @@ class RobustCentre:
 
     def cutoffs(self) -> tuple[tuple[str, float], ...]:
         """The chi-square 0.975 quantile of the squared distance (Rousseeuw & van Zomeren 1990)."""
+        import scipy.stats
         return (("chi-square 0.975", float(scipy.stats.chi2.ppf(ROBUST_QUANTILE, len(self.columns)))),)
 
 

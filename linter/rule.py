@@ -104,6 +104,10 @@ class Rule:
     ``needs`` names the shared statistics the rule reads (``rows`` when it
     must see every row, ``fit`` when it reads the preliminary fit); the
     engines use it to tell which rules ran on what.
+
+    ``heavy`` marks a rule that takes a large share of a run on a long table
+    (auxiliary regressions over every row, an iterative robust estimate):
+    heavy rules start first, so that the rule threads finish together.
     """
 
     id: str
@@ -114,6 +118,7 @@ class Rule:
     thresholds: tuple[Threshold, ...] = ()
     grades: tuple[Grade, ...] = ()
     needs: frozenset[str] = frozenset()
+    heavy: bool = False
 
     @property
     def family(self) -> str:

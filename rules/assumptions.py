@@ -376,6 +376,7 @@ RULES = [
         "spread pull the fit more than they deserve.",
         remedy="report heteroscedasticity-consistent (HC3) standard errors, stabilise the variance with a transform of the target, or fit weighted least squares",
         check=_heteroscedasticity,
+        heavy=True,
         thresholds=(
             ALPHA,
             Threshold(

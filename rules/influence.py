@@ -9,7 +9,6 @@ from __future__ import annotations
 from typing import Iterator
 
 import numpy as np
-import scipy.stats
 
 from prefit.context import RunContext
 from prefit.design import INTERCEPT
@@ -108,6 +107,7 @@ def _crossed(threshold: Threshold, values: np.ndarray) -> np.ndarray:
 
 
 def _cooks(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    import scipy.stats
     if not _usable(ctx):
         return
     fit, infl = ctx.fit, ctx.influence

@@ -9,7 +9,6 @@ from typing import Iterator
 import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
-import scipy.stats
 
 from prefit.context import RunContext
 from prefit.design import category_codes
@@ -414,6 +413,7 @@ def _compare(ctx: RunContext, other: str, holed: dict[str, np.ndarray]) -> dict[
     Mann, H. B., Whitney, D. R. (1947). Ann. Math. Stat. 18(1).
     Pearson, K. (1900). Philosophical Magazine 50(302).
     """
+    import scipy.stats
     kind = ctx.roles.kinds[other]
     if kind in (Kind.NUMERIC, Kind.DATETIME):
         return _compare_numeric(other, RankedColumn.of(ctx.values(other)), holed)
@@ -535,6 +535,7 @@ RULES = [
         "a small p-value says the incomplete rows differ systematically from the complete ones.",
         remedy="find which columns the holes depend on (missingness.informative) and impute using them",
         check=_mcar,
+        heavy=True,
         thresholds=(
             Threshold(
                 "weakens",
@@ -553,6 +554,7 @@ RULES = [
         "depends only on other predictors in the model, complete-case regression stays unbiased.",
         remedy="use multiple imputation with the associated columns, or model the missingness; do not delete rows",
         check=_informative,
+        heavy=True,
         thresholds=(Threshold("alpha", 0.05, "familywise error rate controlled by Holm (1979), Scand. J. Stat. 6"),),
         grades=(Grade.MISLEADS, Grade.NOTE),
     ),

@@ -5,7 +5,6 @@ from __future__ import annotations
 from typing import Any, Iterator
 
 import numpy as np
-import scipy.stats
 
 from prefit.context import RunContext
 from prefit.findings import MAX_LISTED_ROWS, Finding, Grade
@@ -53,6 +52,7 @@ def _p(p: float) -> str:
 
 
 def _studentized(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    import scipy.stats
     fit = ctx.fit
     if not ctx.target_is_numeric or fit.rank == 0 or fit.df_resid <= 1 or not fit.sigma > 0:
         return
@@ -144,6 +144,7 @@ def _slip(value: float, median: float, mad: float, limit: float, ordered: np.nda
 
 
 def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    import scipy.stats
     limit = settings.threshold("weakens")
     target = ctx.roles.target
     columns = ([target] if ctx.roles.kinds[target] is Kind.NUMERIC else []) + list(ctx.numeric_predictors)
@@ -243,6 +244,7 @@ def _label_groups(ctx: RunContext, positions: np.ndarray) -> str:
 
 
 def _multivariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    import scipy.stats
     columns, data, median, mad = _robust_columns(ctx)
     q, n = len(columns), data.shape[0]
     if q < 2 or n < settings.limit("rows_per_variable") * q:
@@ -326,6 +328,7 @@ RULES = [
         remedy="check the listed rows' predictor values together; correct entry errors, and fit with and without "
         "genuine but unusual rows",
         check=_multivariate,
+        heavy=True,
         thresholds=(
             Threshold("weakens", 0.975, MCD_SOURCE + " (value is the quantile's probability)", Grade.WEAKENS, ">"),
             Threshold("univariate", 3.5, MODIFIED_Z_SOURCE + " (to tell rows unusual only in combination)"),

@@ -128,6 +128,34 @@ def test_influence_plot_marks_the_most_influential_day() -> None:
     assert plot is not None and "Cook" in plot.caption and "<svg" in plot.svg
 
 
+def test_importing_prefit_and_its_rules_leaves_the_heavy_libraries_unloaded() -> None:
+    import subprocess
+    import sys
+
+    script = (
+        "import sys, prefit.api, prefit.cli\n"
+        "from prefit.registry import discover\n"
+        "discover()\n"
+        "print(sorted(m for m in ('scipy.stats', 'statsmodels', 'pandas', 'matplotlib', 'dask') if m in sys.modules))\n"
+    )
+    shown = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, check=True)
+    assert shown.stdout.strip() == "[]"
+
+
+def test_heavy_rules_start_first_and_the_report_keeps_rule_order() -> None:
+    from prefit.api import heavy_first
+    from prefit.registry import discover
+    from prefit.rule import RuleSettings
+
+    selected = [(rule, RuleSettings.defaults(rule)) for rule in discover()]
+    started = [rule.id for rule, _ in heavy_first(selected)]
+    heavy = [rule.id for rule, _ in selected if rule.heavy]
+    assert heavy and started[: len(heavy)] == heavy
+    assert started[len(heavy) :] == [rule.id for rule, _ in selected if not rule.heavy]
+    report = prefit.check(stackloss(), target="stack.loss")
+    assert [outcome.rule for outcome in report.outcomes] == [rule.id for rule, _ in selected]
+
+
 def test_matplotlib_is_imported_only_for_html(tmp_path: Path) -> None:
     import subprocess
     import sys

@@ -91,6 +91,21 @@ def test_sha256_is_of_the_file_bytes(tmp_path: Path) -> None:
     assert read_table(str(path))[1].sha256 == hashlib.sha256(path.read_bytes()).hexdigest()
 
 
+def test_parquet_digest_read_in_blocks_is_the_sha256_of_the_file(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    import hashlib
+
+    import numpy as np
+
+    import prefit.reading
+
+    path = tmp_path / "t.parquet"
+    pq.write_table(pa.table({"x": np.arange(5_000, dtype=float), "y": np.arange(5_000) % 7}), path)
+    monkeypatch.setattr(prefit.reading, "DIGEST_BLOCK", 1_000)  # many blocks and a short last one
+    assert path.stat().st_size % 1_000 != 0
+    # reference: hashlib's SHA-256 of the whole file at once
+    assert read_table(str(path))[1].sha256 == hashlib.sha256(path.read_bytes()).hexdigest()
+
+
 def test_stdin(monkeypatch: pytest.MonkeyPatch) -> None:
     import numpy as np
 

@@ -23,8 +23,6 @@ from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
-import scipy.special
-import scipy.stats
 
 EXPECTED_GRID = 20_000
 
@@ -76,6 +74,7 @@ def chance_check(crossed: np.ndarray, expected: float, crossed_tail: np.ndarray)
     crossed_tail
         For the rows that crossed, in order, the probability of a value at least as extreme as the row's own.
     """
+    import scipy.stats
     crossed = np.asarray(crossed, dtype=bool)
     count = int(crossed.sum())
     count_p = float(scipy.stats.poisson.sf(count - 1, expected)) if count else 1.0
@@ -106,6 +105,7 @@ def expected_count(values: np.ndarray, probability: Callable[[np.ndarray], np.nd
 
 def t_tail(value: np.ndarray | float, dof: float) -> np.ndarray:
     """Two-sided tail probability ``P(|T| >= value)`` of Student's t."""
+    import scipy.stats
     return 2.0 * scipy.stats.t.sf(np.abs(value), dof)
 
 
@@ -118,6 +118,7 @@ def cooks_tail(cooks: np.ndarray, hat: np.ndarray, rank: int, dof_resid: int) ->
     ----------
     Cook & Weisberg (1982), sec. 2.2.1 (distribution of the internally studentized residual).
     """
+    import scipy.special
     with np.errstate(divide="ignore", invalid="ignore"):
         share = np.asarray(cooks) * rank * (1.0 - hat) / (hat * dof_resid)
     share = np.clip(np.nan_to_num(share, nan=np.inf), 0.0, np.inf)
@@ -136,6 +137,7 @@ def hat_tail(hat: np.ndarray, n: int, rank: int, intercept: bool) -> np.ndarray:
     Belsley, Kuh & Welsch (1980), p. 17; Hoaglin, D. C., Welsch, R. E. (1978). The hat matrix in regression
     and ANOVA. The American Statistician 32(1), 17-22.
     """
+    import scipy.special
     hat = np.asarray(hat, dtype=float)
     if intercept:
         a, value = (rank - 1) / 2.0, (n * hat - 1.0) / (n - 1.0)

@@ -6,7 +6,6 @@ from dataclasses import dataclass
 from typing import Sequence
 
 import numpy as np
-from scipy import stats
 
 from ..design import Design
 from .auxiliary import AddedColumns, column_picker, each_added_alone
@@ -66,6 +65,7 @@ def curvature_checks(design: Design, factor: DesignFactor, residual: np.ndarray,
     Predictors whose square the design already spans (two distinct values)
     are left out.
     """
+    from scipy import stats
     fits = each_added_alone(factor, design.X, residual, square_columns(design, predictors))
     tested = [(name, fit) for name, fit in zip(predictors, fits) if fit.added_rank and fit.df_resid > 0 and np.isfinite(fit.f_statistic)]
     p_values = [float(stats.f.sf(fit.f_statistic, 1, fit.df_resid)) for _, fit in tested]

@@ -16,7 +16,6 @@ from typing import Callable, Mapping, Sequence
 import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
-import scipy.stats
 
 from ..roles import Kind, numeric_values
 from .blas import one_blas_thread
@@ -526,6 +525,7 @@ def little_mcar(moments: PatternMoments) -> LittleTest | None:
     Little, R. J. A. (1988). A test of missing completely at random for
     multivariate data with missing values. JASA 83(404), 1198-1202, eq. (5).
     """
+    import scipy.stats
     groups = moments.usable()
     p = len(moments.columns)
     if len(groups) < 2 or p == 0:

@@ -16,7 +16,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.special
 
 MAGNITUDE = np.int64(0x7FFF_FFFF_FFFF_FFFF)
 BLOCK = 65_536
@@ -97,6 +96,7 @@ def mann_whitney_p(rank_sum: float, n1: int, n2: int, tie_term: float) -> float:
     Lehmann, E. L. (1975). Nonparametrics: Statistical Methods Based on Ranks,
     ch. 1 (normal approximation with tie correction; from memory).
     """
+    import scipy.special
     u1 = np.float64(rank_sum) - n1 * (n1 + 1) / 2
     u2 = n1 * n2 - u1
     u = np.maximum(u1, u2)

@@ -9,7 +9,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
 
 from .auxiliary import AddedColumns, AddedFit, column_picker, lagged, regress_added
 from .blas import one_blas_thread
@@ -43,6 +42,7 @@ def _centred_total(values: np.ndarray) -> float:
 
 def _lagrange_multiplier(fit: AddedFit, total: float, df: int) -> ResidualTest:
     """``n R^2`` of an auxiliary regression with an intercept, with its F form."""
+    from scipy import stats
     r_squared = 1.0 - fit.rss / total if total > 0 else float("nan")
     statistic = fit.n * r_squared
     df_resid = fit.n - fit.rank
@@ -183,6 +183,7 @@ def reset(factor: DesignFactor, X: np.ndarray, residual: np.ndarray, fitted: np.
     Ramsey, J. B. (1969). Tests for specification errors in classical linear
     least-squares regression analysis. J. R. Stat. Soc. B 31(2).
     """
+    from scipy import stats
     spread = float(np.std(fitted)) or 1.0
     base = (fitted - fitted.mean()) / spread if intercept else fitted / spread
     powers = np.empty((base.size, len(RESET_POWERS)))
@@ -214,6 +215,7 @@ def jarque_bera(residual: np.ndarray) -> tuple[ResidualTest, float, float]:
     homoscedasticity and serial independence of regression residuals.
     Economics Letters 6(3).
     """
+    from scipy import stats
     residual = np.asarray(residual, dtype=np.float64)
     finite = np.abs(residual[np.isfinite(residual)])
     largest = float(finite.max()) if finite.size else 0.0
@@ -245,6 +247,7 @@ def breusch_godfrey(
     average error models when the regressors include lagged dependent
     variables. Econometrica 46(6).
     """
+    from scipy import stats
     n = X.shape[0]
     constant = _constant_unless(intercept, n)
     base = regress_added(factor, X, residual, constant, keep_residual=False)
