@@ -3,7 +3,7 @@
 Run ``python benchmarks/bench_influence.py`` (``--rows`` to change the large size, ``--large-only`` to skip the
 statsmodels comparison). Invented Gaussian data; every ratio is against a baseline timed in the same process. The
 large table's design and fit are built before the clock starts (every family shares them); the QR baseline and
-the families are each the best of two runs, the families on a fresh context each time.
+the families are each the best of five runs, the families on a fresh context each time.
 """
 
 from __future__ import annotations

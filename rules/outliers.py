@@ -10,11 +10,11 @@ from prefit.context import RunContext
 from prefit.findings import MAX_LISTED_ROWS, Finding, Grade
 from prefit.roles import Kind
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
-from prefit.stats.chance import chance_check, probability_text, t_tail
+from prefit.stats.chance import chance_check, chance_check_counts, probability_text, t_tail
 from prefit.stats.robust import (
     MODIFIED_Z_FACTOR,
     RobustDistances,
-    modified_z,
+    beyond_modified_z,
     robust_distances,
 )
 
@@ -152,29 +152,28 @@ def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     for column in columns:
         values = ctx.values(column)
         finite = np.isfinite(values)
-        if int(finite.sum()) < MIN_SPREAD_VALUES:
+        present = int(finite.sum())
+        if present < MIN_SPREAD_VALUES:
             continue
-        scores, median, mad = modified_z(values, ctx.median_and_mad(column))
+        median, mad = ctx.median_and_mad(column)
         if not np.isfinite(mad) or mad == 0:
             continue
-        size = np.abs(scores)
-        crossed = size > limit.value
-        if not crossed.any():
+        rows, row_scores = beyond_modified_z(values, median, mad, limit.value)
+        if rows.size == 0:
             continue
-        largest = np.nan_to_num(np.fmax.reduce(size))
-        check = chance_check(crossed[finite], int(finite.sum()) * normal_cross, 2.0 * scipy.stats.norm.sf(np.array([largest])))
+        size = np.abs(row_scores)
+        check = chance_check_counts(rows.size, present, present * normal_cross, 2.0 * scipy.stats.norm.sf(np.array([size.max()])))
         if not beyond_chance(settings, check):
             continue
-        rows = np.flatnonzero(crossed)
-        size = np.nan_to_num(size[rows])
         ordered = np.sort(values[finite])
         slips = {int(r): s for r in rows if (s := _slip(float(values[r]), median, mad, limit.value, ordered)) is not None}
-        labels, row_values, total = ctx.listed_rows(rows, scores[rows])
-        extreme = rows[np.argmax(size)]
+        labels, row_values, total = ctx.listed_rows(rows, row_scores)
+        strongest = int(np.argmax(size))
+        extreme = rows[strongest]
         text = (
             f"{column}: {total:,} value{'' if total == 1 else 's'}{_label_groups(ctx, rows)} with |modified z| above {limit.value:g} (median {fmt(median)}, MAD {fmt(mad)}; "
             f"most extreme {fmt(float(values[extreme]))}, {fmt(float(values[extreme] / median)) if median else 'n/a'}x the median, "
-            f"z = {fmt(float(scores[extreme]))}; {check.describe()})"
+            f"z = {fmt(float(row_scores[strongest]))}; {check.describe()})"
         )
         if slips:
             by_factor: dict[str, list[Any]] = {}

@@ -12,7 +12,7 @@ from statsmodels.robust.covariance import CovDetMCD, mahalanobis
 
 import prefit
 from prefit.findings import Grade
-from prefit.stats.robust import modified_z, robust_distances
+from prefit.stats.robust import beyond_modified_z, modified_z, robust_distances
 
 STACKLOSS_COLUMNS = ["Air.Flow", "Water.Temp", "Acid.Conc."]
 
@@ -78,6 +78,24 @@ def test_modified_z_equals_scipy_mad() -> None:
     # source: scipy.stats.median_abs_deviation (raw scale) and Iglewicz & Hoaglin (1993) eq. 3.1
     assert_allclose(mad, scipy.stats.median_abs_deviation(values), rtol=1e-12)
     assert_allclose(scores, 0.6745 * (values - np.median(values)) / mad, rtol=1e-12)
+
+
+def test_rows_beyond_the_modified_z_limit_are_those_of_scipy_mad_scores() -> None:
+    # Rows placed exactly on the limit and one ulp either side: the shortcut must agree to the last bit.
+    rng = np.random.default_rng(11)
+    values = rng.normal(50.0, 4.0, 20_001)
+    median = float(np.median(values))
+    mad = float(scipy.stats.median_abs_deviation(values))
+    reach = 3.5 * mad / 0.6745
+    values[:6] = [median + reach, np.nextafter(median + reach, np.inf), np.nextafter(median + reach, -np.inf), median - reach, 9e3, np.nan]
+    # reference: scipy.stats.median_abs_deviation (raw scale) and Iglewicz & Hoaglin (1993) eq. 3.1, per row
+    with np.errstate(invalid="ignore"):
+        reference = 0.6745 * (values - median) / mad
+        expected = np.flatnonzero(np.abs(reference) > 3.5)
+    rows, scores = beyond_modified_z(values, median, mad, 3.5)
+    np.testing.assert_array_equal(rows, expected)
+    np.testing.assert_array_equal(scores, modified_z(values, (median, mad))[0][expected])
+    assert 4 in rows and rows.size >= 1
 
 
 def test_bonferroni_outlier_test_equals_statsmodels() -> None:

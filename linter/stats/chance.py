@@ -74,13 +74,18 @@ def chance_check(crossed: np.ndarray, expected: float, crossed_tail: np.ndarray)
     crossed_tail
         For the rows that crossed, in order, the probability of a value at least as extreme as the row's own.
     """
-    import scipy.stats
     crossed = np.asarray(crossed, dtype=bool)
-    count = int(crossed.sum())
+    return chance_check_counts(int(crossed.sum()), crossed.size, expected, crossed_tail)
+
+
+def chance_check_counts(count: int, rows: int, expected: float, crossed_tail: np.ndarray) -> ChanceCheck:
+    """:func:`chance_check` from the number of rows that crossed, ``count``, out of ``rows``."""
+    import scipy.stats
+
     count_p = float(scipy.stats.poisson.sf(count - 1, expected)) if count else 1.0
     single = np.asarray(crossed_tail, dtype=float)
     single = single[np.isfinite(single)]
-    single_p = float(min(1.0, crossed.size * single.min())) if single.size else 1.0
+    single_p = float(min(1.0, rows * single.min())) if single.size else 1.0
     return ChanceCheck(count, float(expected), count_p, single_p)
 
 

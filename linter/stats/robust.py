@@ -98,6 +98,25 @@ def modified_z(values: np.ndarray, spread: tuple[float, float] | None = None) ->
     return scores, median, mad
 
 
+def beyond_modified_z(values: np.ndarray, median: float, mad: float, limit: float) -> tuple[np.ndarray, np.ndarray]:
+    """Positions of the values whose ``|modified z|`` exceeds ``limit``, and their scores (``mad`` positive).
+
+    The same rows and scores as thresholding :func:`modified_z`, without a
+    score for every row: candidates are the values farther than
+    ``limit * MAD / 0.6745`` from the median (less a margin for rounding),
+    and only they are scored, with the same arithmetic.
+    """
+    x = np.asarray(values, dtype=float)
+    deviation = np.subtract(x, median)
+    np.abs(deviation, out=deviation)
+    candidates = np.flatnonzero(deviation > limit * mad / MODIFIED_Z_FACTOR * (1.0 - 1e-9))
+    scores = np.subtract(x[candidates], median)
+    scores *= MODIFIED_Z_FACTOR
+    scores /= mad
+    beyond = np.abs(scores) > limit
+    return candidates[beyond], scores[beyond]
+
+
 @dataclass(frozen=True)
 class RobustDistances:
     """Squared robust Mahalanobis distances of rows from a reweighted MCD estimate.
