@@ -28,7 +28,17 @@ import pyarrow.compute as pc
 from .batches import BATCH_ROWS, BatchSource
 from .errors import UsageProblem
 from .options import CheckOptions
-from .passes import MeasureScreen, RobustCentre, TableStatistics, first_pass, merge_all, merge_screens, second_pass
+from .passes import (
+    FENCE_CONFIDENCE,
+    ColumnFences,
+    MeasureScreen,
+    RobustCentre,
+    TableStatistics,
+    first_pass,
+    merge_all,
+    merge_screens,
+    second_pass,
+)
 from .reading import TableInfo
 from .roles import Kind, apply_missing_codes
 from .stats.fit import PreliminaryFit
@@ -154,6 +164,7 @@ class EngineRun:
     screens: tuple[MeasureScreen, ...] = field(default=(), repr=False)
     on_sample: tuple[str, ...] = ()
     screened: tuple[str, ...] = ()
+    fences: ColumnFences | None = field(default=None, repr=False)
 
     @property
     def sampled(self) -> bool:
@@ -168,9 +179,18 @@ class EngineRun:
             f"the rules ran on a sample of {self.rules_rows:,} of {self.table_rows:,} rows "
             f"({self.name} engine; rows chosen by a seeded hash of their position; raise --row-budget to see more)"
         )
-        beyond = [f"{c.beyond:,} beyond {s.measure.replace('_', ' ')} {c.name}" for s in self.screens for c in s.cutoffs[-1:]]
+        beyond = [f"{c.beyond:,} beyond {s.measure.replace('_', ' ')} {c.name}" for s in self.screens if s.column is None for c in s.cutoffs[-1:]]
         if beyond:
             text += f"; all {self.complete_rows:,} complete rows were screened against the whole table's fit: " + ", ".join(beyond)
+        fenced = [s for s in self.screens if s.measure == "modified_z"]
+        if fenced and self.fences is not None:
+            values = sum(s.cutoffs[-1].beyond for s in fenced)
+            worst = max(self.fences.rank_error(s.column) for s in fenced if s.column is not None)
+            text += (
+                f"; every value of {len(fenced)} numeric column{'' if len(fenced) == 1 else 's'} was screened against the sample's median and MAD: "
+                f"{values:,} beyond |modified z| {self.fences.limit:g} (the sample's medians are within {worst:.2g} in rank of the whole "
+                f"table's with probability {FENCE_CONFIDENCE:g}, Dvoretzky-Kiefer-Wolfowitz)"
+            )
         return text
 
     def to_dict(self) -> dict[str, Any]:
@@ -185,7 +205,9 @@ class EngineRun:
             out["complete_rows"] = self.complete_rows
             out["rules_on_sample"] = list(self.on_sample)
             out["rules_with_every_row_screened"] = list(self.screened)
-            out["row_screens"] = {s.measure: s.to_dict() for s in self.screens}
+            out["row_screens"] = {s.key: s.to_dict() for s in self.screens}
+            if self.fences is not None:
+                out["fences"] = self.fences.to_dict()
         return out
 
 
@@ -236,15 +258,34 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
     context.file_positions = kept.positions
     screens: tuple[MeasureScreen, ...] = ()
     fit = whole_fit(statistics, roles.kinds, intercept) if context.target_is_numeric else None
-    if fit is not None and fit.rank > 0 and fit.df_resid > 1:
-        terms = statistics.model.terms(roles.kinds)
-        robust = robust_centre(context)
+    if fit is not None and not (fit.rank > 0 and fit.df_resid > 1):
+        fit = None
+    terms = statistics.model.terms(roles.kinds) if fit is not None else ()
+    robust = robust_centre(context) if fit is not None else None
+    fences = column_fences(context)
+    if fit is not None or fences is not None:
 
         def pass_two(batch: pa.Table, offset: int) -> tuple[MeasureScreen, ...]:
-            return second_pass(conformed(batch, schema, codes), offset, roles, terms, fit, robust)
+            return second_pass(conformed(batch, schema, codes), offset, roles, terms, fit, robust, fences)
 
         screens = runner.map_merge(pass_two, merge_screens, "pass 2")
-    return context, EngineRun(runner.name, kept.seen, kept.table.num_rows, statistics.model.rows, screens)
+    return context, EngineRun(runner.name, kept.seen, kept.table.num_rows, statistics.model.rows, screens, fences=fences)
+
+
+def column_fences(context: RunContext) -> ColumnFences | None:
+    """The sample's median and MAD of each column ``outliers.univariate`` measures (those with a nonzero MAD), or None."""
+    target = context.roles.target
+    names = ([target] if context.roles.kinds[target] is Kind.NUMERIC else []) + list(context.numeric_predictors)
+    spreads = [(name, *context.median_and_mad(name)) for name in names]
+    kept = [(name, median, mad) for name, median, mad in spreads if np.isfinite(mad) and mad > 0]
+    if not kept:
+        return None
+    return ColumnFences(
+        columns=tuple(name for name, _, _ in kept),
+        medians=tuple(median for _, median, _ in kept),
+        mads=tuple(mad for _, _, mad in kept),
+        sample_values=tuple(int(np.count_nonzero(np.isfinite(context.values(name)))) for name, _, _ in kept),
+    )
 
 
 def robust_centre(context: RunContext) -> RobustCentre | None:

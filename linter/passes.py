@@ -26,7 +26,7 @@ from .stats.fit import PreliminaryFit
 from .stats.influence import row_influence
 from .stats.mergeable import Moments, TriangularFactor, triangular
 from .stats.missingness import MissingPatterns
-from .stats.robust import squared_distances
+from .stats.robust import MODIFIED_Z_FACTOR, MODIFIED_Z_LIMIT, squared_distances
 from .stats.summaries import DISTINCT_CAP, ColumnTally
 
 TOP_ROWS = 20
@@ -37,8 +37,10 @@ SCREENED_RULES = {
     "dffits": "influence.dffits",
     "dfbetas": "influence.dfbetas",
     "robust_distance": "outliers.multivariate",
+    "modified_z": "outliers.univariate",
 }
 ROBUST_QUANTILE = 0.975
+FENCE_CONFIDENCE = 0.99
 
 
 @dataclass(frozen=True)
@@ -221,6 +223,12 @@ class MeasureScreen:
     top_values: np.ndarray = field(repr=False)
     top_positions: np.ndarray = field(repr=False)
     top_labels: tuple[str | int, ...] = ()
+    column: str | None = None
+
+    @property
+    def key(self) -> str:
+        """The measure, and the column for a per-column measure (``modified_z:kwh``)."""
+        return self.measure if self.column is None else f"{self.measure}:{self.column}"
 
     def merge(self, other: "MeasureScreen") -> "MeasureScreen":
         """Both batches: counts add, the most extreme rows of either stay (ties: earlier row first)."""
@@ -229,12 +237,13 @@ class MeasureScreen:
         positions = np.concatenate([self.top_positions, other.top_positions])
         labels = self.top_labels + other.top_labels
         keep = np.lexsort((positions, -values))[:TOP_ROWS]
-        return MeasureScreen(self.measure, cutoffs, values[keep], positions[keep], tuple(labels[i] for i in keep) if labels else ())
+        return MeasureScreen(self.measure, cutoffs, values[keep], positions[keep], tuple(labels[i] for i in keep) if labels else (), self.column)
 
     def to_dict(self) -> dict[str, object]:
         """Plain JSON types: cutoffs with counts, and the top rows (label or 1-based row number, value)."""
         shown = self.top_labels or tuple(int(p) + 1 for p in self.top_positions)
         return {
+            **({"column": self.column} if self.column is not None else {}),
             "cutoffs": [{"name": c.name, "value": c.value, "rows_beyond": c.beyond} for c in self.cutoffs],
             "top_rows": [
                 {"row": label, "row_number": int(p) + 1, "value": float(v)} for label, p, v in zip(shown, self.top_positions, self.top_values)
@@ -271,40 +280,118 @@ class RobustCentre:
         return (("chi-square 0.975", float(scipy.stats.chi2.ppf(ROBUST_QUANTILE, len(self.columns)))),)
 
 
+@dataclass(frozen=True)
+class ColumnFences:
+    """The median and MAD of numeric columns in the sample, to screen every value of the table against.
+
+    Beyond the row budget the sample the rules see is a uniform sample of
+    rows, and it is the quantile sketch: by the Dvoretzky-Kiefer-Wolfowitz
+    inequality with Massart's constant, a column's empirical distribution over
+    its ``m`` sample values is within ``rank_error`` of the whole table's at
+    every value, with probability :data:`FENCE_CONFIDENCE`. So the sample
+    median's rank in the whole table is within ``rank_error`` of one half,
+    and the table's share of values within median +- MAD within twice that of
+    one half (an interval is the difference of two distribution values).
+
+    References
+    ----------
+    Dvoretzky, A., Kiefer, J., Wolfowitz, J. (1956). Ann. Math. Stat. 27(3), 642-669.
+    Massart, P. (1990). The tight constant in the DKW inequality. Ann. Probab. 18(3), 1269-1283.
+    """
+
+    columns: tuple[str, ...]
+    medians: tuple[float, ...]
+    mads: tuple[float, ...]
+    sample_values: tuple[int, ...]
+    limit: float = MODIFIED_Z_LIMIT
+
+    def rank_error(self, column: str) -> float:
+        """The largest gap between the sample's and the table's distribution of ``column`` at confidence 0.99."""
+        return dkw_rank_error(self.sample_values[self.columns.index(column)], FENCE_CONFIDENCE)
+
+    def to_dict(self) -> dict[str, object]:
+        """Plain JSON types: per column, the sample's median and MAD, its values and the rank error bound."""
+        return {
+            "from": "the uniform sample of rows the rules ran on",
+            "confidence": FENCE_CONFIDENCE,
+            "bound": "Dvoretzky-Kiefer-Wolfowitz inequality with Massart's constant (1990): rank error sqrt(ln(2 / (1 - confidence)) / (2 m))",
+            "columns": {
+                name: {"median": median, "mad": mad, "sample_values": m, "rank_error": dkw_rank_error(m, FENCE_CONFIDENCE)}
+                for name, median, mad, m in zip(self.columns, self.medians, self.mads, self.sample_values)
+            },
+        }
+
+
+def dkw_rank_error(values: int, confidence: float) -> float:
+    """``eps`` with ``P(sup |F_m - F| > eps) <= 1 - confidence`` for ``m = values`` sampled values (Massart 1990)."""
+    return float(np.sqrt(np.log(2.0 / (1.0 - confidence)) / (2.0 * values))) if values > 0 else float("inf")
+
+
 def second_pass(
-    batch: pa.Table, offset: int, roles: Roles, terms: Sequence[Term], fit: PreliminaryFit, robust: RobustCentre | None = None
+    batch: pa.Table,
+    offset: int,
+    roles: Roles,
+    terms: Sequence[Term],
+    fit: PreliminaryFit | None,
+    robust: RobustCentre | None = None,
+    fences: ColumnFences | None = None,
 ) -> tuple[MeasureScreen, ...]:
     """Pass 2 over one batch: every complete row's hat value and deletion measures against the whole-table fit.
 
     ``offset`` is the 0-based table position of the batch's first row;
     measures are compared in absolute value. With ``robust``, each complete
-    row's squared robust distance from it is screened too.
+    row's squared robust distance from it is screened too; with ``fences``,
+    every value of each fenced column (complete row or not) by its modified
+    z-score from the sample's median and MAD.
     """
     columns = ModelColumns.of(batch, roles)
-    dummies = {t.source: t.levels for t in terms if t.reference is not None}
-    X, y, positions = columns.coded(roles, fit.has_intercept, dummies)
-    influence = row_influence(fit, X, y)
-    measured = {
-        "leverage": influence.hat,
-        "studentized_residual": np.abs(influence.studentized),
-        "cooks_distance": influence.cooks,
-        "dffits": np.abs(influence.dffits),
-        "dfbetas": influence.dfbetas_largest,
-    }
-    all_cutoffs = dict(row_screens(fit))
-    if robust is not None:
-        data = np.column_stack([columns.numeric[name][positions] for name in robust.columns])
-        measured["robust_distance"] = squared_distances(data, robust.location, robust.scatter)
-        all_cutoffs["robust_distance"] = robust.cutoffs()
-    screens = []
-    for measure, cutoffs in all_cutoffs.items():
-        values = np.nan_to_num(measured[measure], nan=-np.inf)
-        counted = tuple(Cutoff(name, value, int(np.count_nonzero(values > value))) for name, value in cutoffs)
-        keep = np.lexsort((positions, -values))[:TOP_ROWS]
-        keep = keep[np.isfinite(values[keep])]
-        labels = tuple(row_labels(batch.take(positions[keep]), roles) or ())
-        screens.append(MeasureScreen(measure, counted, values[keep], positions[keep] + offset, labels))
+    screens: list[MeasureScreen] = []
+    if fit is not None:
+        dummies = {t.source: t.levels for t in terms if t.reference is not None}
+        X, y, positions = columns.coded(roles, fit.has_intercept, dummies)
+        influence = row_influence(fit, X, y)
+        measured = {
+            "leverage": influence.hat,
+            "studentized_residual": np.abs(influence.studentized),
+            "cooks_distance": influence.cooks,
+            "dffits": np.abs(influence.dffits),
+            "dfbetas": influence.dfbetas_largest,
+        }
+        all_cutoffs = dict(row_screens(fit))
+        if robust is not None:
+            data = np.column_stack([columns.numeric[name][positions] for name in robust.columns])
+            measured["robust_distance"] = squared_distances(data, robust.location, robust.scatter)
+            all_cutoffs["robust_distance"] = robust.cutoffs()
+        screens = [_screen(batch, offset, roles, measure, cutoffs, measured[measure], positions) for measure, cutoffs in all_cutoffs.items()]
+    if fences is not None:
+        cutoff = ((f"{fences.limit:g}", fences.limit),)
+        for name, median, mad in zip(fences.columns, fences.medians, fences.mads):
+            values = columns.y if name == roles.target else columns.numeric[name]
+            present = np.flatnonzero(np.isfinite(values))
+            scores = np.subtract(values[present], median)
+            scores *= MODIFIED_Z_FACTOR
+            scores /= mad
+            screens.append(_screen(batch, offset, roles, "modified_z", cutoff, np.abs(scores), present, name))
     return tuple(screens)
+
+
+def _screen(
+    batch: pa.Table,
+    offset: int,
+    roles: Roles,
+    measure: str,
+    cutoffs: Sequence[tuple[str, float]],
+    measured: np.ndarray,
+    positions: np.ndarray,
+    column: str | None = None,
+) -> MeasureScreen:
+    """One batch's screen of a measure taken at the batch rows ``positions``: counts beyond each cutoff, the top rows."""
+    values = np.nan_to_num(measured, nan=-np.inf)
+    counted = tuple(Cutoff(name, value, int(np.count_nonzero(values > value))) for name, value in cutoffs)
+    keep = np.lexsort((positions, -values))[:TOP_ROWS]
+    keep = keep[np.isfinite(values[keep])]
+    labels = tuple(row_labels(batch.take(positions[keep]), roles) or ())
+    return MeasureScreen(measure, counted, values[keep], positions[keep] + offset, labels, column)
 
 
 def merge_screens(parts: Sequence[tuple[MeasureScreen, ...]]) -> tuple[MeasureScreen, ...]:

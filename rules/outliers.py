@@ -13,6 +13,7 @@ from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.chance import chance_check, chance_check_counts, probability_text, t_tail
 from prefit.stats.robust import (
     MODIFIED_Z_FACTOR,
+    MODIFIED_Z_LIMIT,
     RobustDistances,
     beyond_modified_z,
     robust_distances,
@@ -315,7 +316,7 @@ RULES = [
         remedy="check the listed values at the source; correct unit or decimal slips and entry errors; keep genuine "
         "extremes and check their influence",
         check=_univariate,
-        thresholds=(Threshold("weakens", 3.5, MODIFIED_Z_SOURCE, Grade.WEAKENS, ">"), CHANCE),
+        thresholds=(Threshold("weakens", MODIFIED_Z_LIMIT, MODIFIED_Z_SOURCE, Grade.WEAKENS, ">"), CHANCE),
         needs=frozenset({"rows"}),
     ),
     Rule(
@@ -330,7 +331,7 @@ RULES = [
         heavy=True,
         thresholds=(
             Threshold("weakens", 0.975, MCD_SOURCE + " (value is the quantile's probability)", Grade.WEAKENS, ">"),
-            Threshold("univariate", 3.5, MODIFIED_Z_SOURCE + " (to tell rows unusual only in combination)"),
+            Threshold("univariate", MODIFIED_Z_LIMIT, MODIFIED_Z_SOURCE + " (to tell rows unusual only in combination)"),
             Threshold(
                 "rows_per_variable",
                 5,

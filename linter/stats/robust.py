@@ -19,6 +19,7 @@ import scipy.linalg
 from .blas import one_blas_thread
 
 MODIFIED_Z_FACTOR = 0.6745
+MODIFIED_Z_LIMIT = 3.5
 MCD_SAMPLE_ROWS = 1_000
 MCD_SAMPLE_SEED = 20_260_601
 ROW_BLOCK = 16_384
