@@ -3,7 +3,8 @@
 Run ``python benchmarks/bench_influence.py`` (``--rows`` to change the large size, ``--large-only`` to skip the
 statsmodels comparison). Invented Gaussian data; every ratio is against a baseline timed in the same process. The
 large table's design and fit are built before the clock starts (every family shares them); the QR baseline and
-the families are each the best of five runs, the families on a fresh context each time.
+the families are each the best of five runs, the families on a fresh context each time. Both run with one BLAS
+thread, as the rules do in a check (``api.report_for``), whatever the machine's thread settings.
 """
 
 from __future__ import annotations
@@ -23,6 +24,7 @@ from prefit.reading import TableInfo
 from prefit.registry import discover
 from prefit.roles import resolve_roles
 from prefit.rule import RuleSettings
+from prefit.stats.blas import one_blas_thread
 
 FAMILIES = ("influence", "outliers")
 REPEATS = 5
@@ -143,7 +145,8 @@ def main() -> None:
     parser.add_argument("--predictors", type=int, default=20)
     parser.add_argument("--large-only", action="store_true", help="skip the statsmodels OLSInfluence comparison")
     args = parser.parse_args()
-    large(args.rows, args.predictors)
+    with one_blas_thread():
+        large(args.rows, args.predictors)
     if not args.large_only:
         for rows in (2_000, 10_000):
             small(rows, 10)
