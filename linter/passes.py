@@ -254,6 +254,7 @@ class MeasureScreen:
 def row_screens(fit: PreliminaryFit) -> dict[str, tuple[tuple[str, float], ...]]:
     """The cutoffs pass 2 counts, per measure (the influence and outlier rules' default thresholds)."""
     import scipy.stats
+
     n, k = fit.n, fit.rank
     dof = fit.df_resid - 1
     bonferroni = float(scipy.stats.t.isf(0.05 / (2 * n), dof)) if dof > 0 else float("inf")
@@ -277,6 +278,7 @@ class RobustCentre:
     def cutoffs(self) -> tuple[tuple[str, float], ...]:
         """The chi-square 0.975 quantile of the squared distance (Rousseeuw & van Zomeren 1990)."""
         import scipy.stats
+
         return (("chi-square 0.975", float(scipy.stats.chi2.ppf(ROBUST_QUANTILE, len(self.columns)))),)
 
 

@@ -108,6 +108,7 @@ def _crossed(threshold: Threshold, values: np.ndarray) -> np.ndarray:
 
 def _cooks(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     import scipy.stats
+
     if not _usable(ctx):
         return
     fit, infl = ctx.fit, ctx.influence

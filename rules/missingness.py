@@ -414,6 +414,7 @@ def _compare(ctx: RunContext, other: str, holed: dict[str, np.ndarray]) -> dict[
     Pearson, K. (1900). Philosophical Magazine 50(302).
     """
     import scipy.stats
+
     kind = ctx.roles.kinds[other]
     if kind in (Kind.NUMERIC, Kind.DATETIME):
         return _compare_numeric(other, RankedColumn.of(ctx.values(other)), holed)

@@ -54,6 +54,7 @@ def _p(p: float) -> str:
 
 def _studentized(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     import scipy.stats
+
     fit = ctx.fit
     if not ctx.target_is_numeric or fit.rank == 0 or fit.df_resid <= 1 or not fit.sigma > 0:
         return
@@ -146,6 +147,7 @@ def _slip(value: float, median: float, mad: float, limit: float, ordered: np.nda
 
 def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     import scipy.stats
+
     limit = settings.threshold("weakens")
     target = ctx.roles.target
     columns = ([target] if ctx.roles.kinds[target] is Kind.NUMERIC else []) + list(ctx.numeric_predictors)
@@ -245,6 +247,7 @@ def _label_groups(ctx: RunContext, positions: np.ndarray) -> str:
 
 def _multivariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     import scipy.stats
+
     columns, data, median, mad = _robust_columns(ctx)
     q, n = len(columns), data.shape[0]
     if q < 2 or n < settings.limit("rows_per_variable") * q:

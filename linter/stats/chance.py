@@ -111,6 +111,7 @@ def expected_count(values: np.ndarray, probability: Callable[[np.ndarray], np.nd
 def t_tail(value: np.ndarray | float, dof: float) -> np.ndarray:
     """Two-sided tail probability ``P(|T| >= value)`` of Student's t."""
     import scipy.stats
+
     return 2.0 * scipy.stats.t.sf(np.abs(value), dof)
 
 
@@ -124,6 +125,7 @@ def cooks_tail(cooks: np.ndarray, hat: np.ndarray, rank: int, dof_resid: int) ->
     Cook & Weisberg (1982), sec. 2.2.1 (distribution of the internally studentized residual).
     """
     import scipy.special
+
     with np.errstate(divide="ignore", invalid="ignore"):
         share = np.asarray(cooks) * rank * (1.0 - hat) / (hat * dof_resid)
     share = np.clip(np.nan_to_num(share, nan=np.inf), 0.0, np.inf)
@@ -143,6 +145,7 @@ def hat_tail(hat: np.ndarray, n: int, rank: int, intercept: bool) -> np.ndarray:
     and ANOVA. The American Statistician 32(1), 17-22.
     """
     import scipy.special
+
     hat = np.asarray(hat, dtype=float)
     if intercept:
         a, value = (rank - 1) / 2.0, (n * hat - 1.0) / (n - 1.0)

@@ -66,6 +66,7 @@ def curvature_checks(design: Design, factor: DesignFactor, residual: np.ndarray,
     are left out.
     """
     from scipy import stats
+
     fits = each_added_alone(factor, design.X, residual, square_columns(design, predictors))
     tested = [(name, fit) for name, fit in zip(predictors, fits) if fit.added_rank and fit.df_resid > 0 and np.isfinite(fit.f_statistic)]
     p_values = [float(stats.f.sf(fit.f_statistic, 1, fit.df_resid)) for _, fit in tested]

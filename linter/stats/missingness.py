@@ -526,6 +526,7 @@ def little_mcar(moments: PatternMoments) -> LittleTest | None:
     multivariate data with missing values. JASA 83(404), 1198-1202, eq. (5).
     """
     import scipy.stats
+
     groups = moments.usable()
     p = len(moments.columns)
     if len(groups) < 2 or p == 0:

@@ -106,6 +106,7 @@ def sd_margin(df: int, level: float = 0.95) -> float:
     confidence interval for sigma and sigma itself.
     """
     import scipy.stats
+
     tail = (1.0 - level) / 2.0
     upper = math.sqrt(df / scipy.stats.chi2.ppf(tail, df))
     lower = math.sqrt(scipy.stats.chi2.ppf(1.0 - tail, df) / df)
@@ -133,6 +134,7 @@ def mean_margin(n: int, p: int, r2_adjusted: float, mean: float, sd: float, leve
     confidence interval of the intercept with centred predictors.
     """
     import scipy.stats
+
     df = n - p - 1
     if df < 1:
         return float("inf")
@@ -169,6 +171,7 @@ def f_test_power(f2: float, u: int, v: int, alpha: float = 0.05) -> float:
     Cohen (1988), chapter 9, eq. 9.3.5.
     """
     import scipy.stats
+
     if u < 1 or v < 1:
         return float("nan")
     critical = scipy.stats.f.isf(alpha, u, v)
@@ -181,6 +184,7 @@ def f_test_power(f2: float, u: int, v: int, alpha: float = 0.05) -> float:
 def detectable_f_squared(u: int, v: int, power: float = 0.8, alpha: float = 0.05) -> float:
     """The smallest f^2 the F test of u parameters with v error degrees of freedom detects with ``power``."""
     import scipy.optimize
+
     if u < 1 or v < 1:
         return float("nan")
     high = 0.01

@@ -97,6 +97,7 @@ def mann_whitney_p(rank_sum: float, n1: int, n2: int, tie_term: float) -> float:
     ch. 1 (normal approximation with tie correction; from memory).
     """
     import scipy.special
+
     u1 = np.float64(rank_sum) - n1 * (n1 + 1) / 2
     u2 = n1 * n2 - u1
     u = np.maximum(u1, u2)

@@ -43,6 +43,7 @@ def _centred_total(values: np.ndarray) -> float:
 def _lagrange_multiplier(fit: AddedFit, total: float, df: int) -> ResidualTest:
     """``n R^2`` of an auxiliary regression with an intercept, with its F form."""
     from scipy import stats
+
     r_squared = 1.0 - fit.rss / total if total > 0 else float("nan")
     statistic = fit.n * r_squared
     df_resid = fit.n - fit.rank
@@ -184,6 +185,7 @@ def reset(factor: DesignFactor, X: np.ndarray, residual: np.ndarray, fitted: np.
     least-squares regression analysis. J. R. Stat. Soc. B 31(2).
     """
     from scipy import stats
+
     spread = float(np.std(fitted)) or 1.0
     base = (fitted - fitted.mean()) / spread if intercept else fitted / spread
     powers = np.empty((base.size, len(RESET_POWERS)))
@@ -216,6 +218,7 @@ def jarque_bera(residual: np.ndarray) -> tuple[ResidualTest, float, float]:
     Economics Letters 6(3).
     """
     from scipy import stats
+
     residual = np.asarray(residual, dtype=np.float64)
     finite = np.abs(residual[np.isfinite(residual)])
     largest = float(finite.max()) if finite.size else 0.0
@@ -248,6 +251,7 @@ def breusch_godfrey(
     variables. Econometrica 46(6).
     """
     from scipy import stats
+
     n = X.shape[0]
     constant = _constant_unless(intercept, n)
     base = regress_added(factor, X, residual, constant, keep_residual=False)
