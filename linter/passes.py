@@ -26,7 +26,7 @@ from .stats.fit import PreliminaryFit
 from .stats.influence import row_influence
 from .stats.mergeable import Moments, TriangularFactor, triangular
 from .stats.missingness import MissingPatterns
-from .stats.robust import MODIFIED_Z_FACTOR, MODIFIED_Z_LIMIT, squared_distances
+from .stats.robust import MODIFIED_Z_LIMIT, modified_z, squared_distances
 from .stats.summaries import DISTINCT_CAP, ColumnTally
 
 TOP_ROWS = 20
@@ -370,9 +370,7 @@ def second_pass(
         for name, median, mad in zip(fences.columns, fences.medians, fences.mads):
             values = columns.y if name == roles.target else columns.numeric[name]
             present = np.flatnonzero(np.isfinite(values))
-            scores = np.subtract(values[present], median)
-            scores *= MODIFIED_Z_FACTOR
-            scores /= mad
+            scores, _, _ = modified_z(values[present], (median, mad))
             screens.append(_screen(batch, offset, roles, "modified_z", cutoff, np.abs(scores), present, name))
     return tuple(screens)
 

@@ -111,9 +111,7 @@ def beyond_modified_z(values: np.ndarray, median: float, mad: float, limit: floa
     deviation = np.subtract(x, median)
     np.abs(deviation, out=deviation)
     candidates = np.flatnonzero(deviation > limit * mad / MODIFIED_Z_FACTOR * (1.0 - 1e-9))
-    scores = np.subtract(x[candidates], median)
-    scores *= MODIFIED_Z_FACTOR
-    scores /= mad
+    scores, _, _ = modified_z(x[candidates], (median, mad))
     beyond = np.abs(scores) > limit
     return candidates[beyond], scores[beyond]
 
