@@ -10,8 +10,7 @@ from prefit.context import RunContext
 from prefit.findings import Finding, Grade
 from prefit.roles import Kind
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold
-
-SPOT_ROWS = 4_096
+from prefit.stats.spot import finite_spot
 
 
 def _excluded(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
@@ -57,8 +56,7 @@ def _spot_check_fails(values: np.ndarray, most: float) -> bool:
     Either rules a column out on its own, so most measured columns are
     dismissed from a few thousand rows without counting distinct values.
     """
-    spot = values[:: max(values.size // SPOT_ROWS, 1)]
-    spot = spot[np.isfinite(spot)]
+    spot = finite_spot(values)
     return bool(np.any(spot != np.round(spot))) or np.unique(spot).size > most
 
 

@@ -15,6 +15,7 @@ from prefit.findings import Finding, Grade
 from prefit.roles import Kind, numeric_values
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.rowmatch import ColumnBits, candidate_rows, value_bits
+from prefit.stats.spot import evenly_spaced, finite_spot, spot_step
 from prefit.stats.textnumbers import is_text_type, mostly_number_like
 
 SQUARE_SAFE = float(np.sqrt(np.finfo(np.float64).max))
@@ -24,7 +25,6 @@ COUNTER_RUN_RATIO = 3.0
 TIME_NAME = re.compile(r"(^|[_\W])(t|year|yr|quarter|month|week|day|date|time|hour|period|trend)s?($|[_\W])", re.IGNORECASE)
 MANY_DUMMIES = 100
 EXACT_CORRELATION = 1e-12
-SPOT_ROWS = 4_096
 SCALE_ALLOWANCE = 1e-9
 SCREEN_ALLOWANCE = 1e-6
 
@@ -242,8 +242,7 @@ def _identifier(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
 
 
 def _numeric_identifier(values: np.ndarray) -> str | None:
-    spot = values[:: max(values.size // SPOT_ROWS, 1)]
-    spot = spot[np.isfinite(spot)]
+    spot = finite_spot(values)
     if np.any(spot != np.round(spot)):
         return None
     present = values[np.isfinite(values)]
@@ -270,7 +269,7 @@ def _numeric_identifier(values: np.ndarray) -> str | None:
 
 def _label_identifier(ctx: RunContext, column: str) -> str | None:
     values = ctx.table.column(column)
-    spot = values.take(np.arange(0, len(values), max(len(values) // SPOT_ROWS, 1))).drop_null()
+    spot = values.take(np.arange(0, len(values), spot_step(len(values)))).drop_null()
     if len(pc.unique(spot)) < len(spot):
         return None
     summary = ctx.summary(column)
@@ -504,7 +503,7 @@ def _may_differ_in_scale(ctx: RunContext, limit: Threshold) -> bool:
 def _median_floor(values: np.ndarray) -> float | None:
     """A positive value at most the median absolute non-zero value, or None if evenly spaced rows suggest none."""
     magnitude = np.abs(values)
-    spot = magnitude[:: max(magnitude.size // SPOT_ROWS, 1)]
+    spot = evenly_spaced(magnitude)
     spot = np.sort(spot[spot > 0])
     if spot.size == 0:
         return None

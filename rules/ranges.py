@@ -14,6 +14,7 @@ from prefit.findings import Finding, Grade
 from prefit.roles import Kind
 from prefit.rule import COMMON_PRACTICE, NotApplicable, Rule, RuleSettings, Threshold, fmt, top_rows
 from prefit.scoring import ScoredRows
+from prefit.stats.spot import evenly_spaced
 
 SE_SOURCE = "Var(b) = sigma^2 / (s_x^2 (n - 1)) for a slope (Montgomery, Peck & Vining 2012, Introduction to Linear Regression Analysis, 5th ed., sec. 2.3)"
 LEVERAGE_SOURCE = (
@@ -21,7 +22,6 @@ LEVERAGE_SOURCE = (
     "(Montgomery, Peck & Vining 2012, Introduction to Linear Regression Analysis, 5th ed., sec. 3.8)"
 )
 SIGNIFICANT_DIGITS = 12
-SPOT_ROWS = 4_096
 ROUNDING_ALLOWANCE = 1e-9
 
 
@@ -75,7 +75,7 @@ def _plainly_varied(column: np.ndarray, share_limit: Threshold, min_distinct: fl
     smaller side bound from below the rows that differ from the most frequent
     value, without counting values.
     """
-    spot = column[:: max(column.size // SPOT_ROWS, 1)]
+    spot = evenly_spaced(column)
     if np.unique(spot).size < min_distinct:
         return False
     pivot = np.sort(spot)[spot.size // 2]
@@ -263,7 +263,7 @@ def _may_span_few_steps(column: np.ndarray, low: float, high: float, min_steps: 
     if not 0.0 < scale < np.inf:
         return True
     decimals = SIGNIFICANT_DIGITS - 1 - math.floor(math.log10(scale))
-    spot = np.unique(np.round(column[:: max(column.size // SPOT_ROWS, 1)], decimals))
+    spot = np.unique(np.round(evenly_spaced(column), decimals))
     if spot.size < 2:
         return True
     widest_step = float(np.round(np.min(np.diff(spot)) * (1.0 + ROUNDING_ALLOWANCE), decimals))

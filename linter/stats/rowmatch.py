@@ -11,11 +11,12 @@ from collections.abc import Callable, Iterable
 
 import numpy as np
 
+from .spot import evenly_spaced
+
 ColumnBits = Callable[[np.ndarray | None], np.ndarray]
 """A column's bits (uint64, a fresh array the caller may overwrite) at the given row positions, or at every row for None."""
 
 GOLDEN = 0x9E3779B97F4A7C15
-SPOT_ROWS = 4_096
 FEW_VALUES = 8
 LOOKUP_SHARE = 64
 KEEP_SHARE = 0.75
@@ -69,7 +70,7 @@ def repeated_entries(hashes: np.ndarray, most: float = 1.0) -> np.ndarray | None
 
 def _mostly_repeats(hashes: np.ndarray) -> bool:
     """Whether evenly spaced entries show so few distinct values that hardly any entry can be unique."""
-    spot = hashes[:: max(hashes.size // SPOT_ROWS, 1)]
+    spot = evenly_spaced(hashes)
     return np.unique(spot).size < (1.0 - KEEP_SHARE) * spot.size
 
 
