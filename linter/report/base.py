@@ -88,6 +88,14 @@ def drive(writer: ReportWriter, reports: Sequence["Report"]) -> str:
     return writer.end_run()
 
 
+def labels_not_unique(report: "Report") -> str | None:
+    """``not unique: 6 values for 120 rows`` when the id column has fewer distinct values than the table has rows."""
+    values = report.design.get("id_values")
+    if values is None or values >= report.info.rows:
+        return None
+    return f"not unique: {values:,} values for {report.info.rows:,} rows"
+
+
 def row_groups(finding: Finding, limit: int) -> tuple[list[str], int]:
     """The first ``limit`` distinct labels of the rows a finding lists, and how many named rows are not shown.
 

@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING, Any
 
 from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, count_by_grade
 from ..rule import fmt
-from .base import ReportWriter, RunFacts, row_groups
+from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -70,12 +70,11 @@ def _verdict(report: "Report") -> tuple[str, str]:
 
 def _label_source(report: "Report") -> str:
     """The id column, and whether its labels name single rows."""
-    name, values = report.design.get("id"), report.design.get("id_values")
+    name = report.design.get("id")
     if not name:
         return "data row numbers"
-    if values is None or values >= report.info.rows:
-        return name
-    return f"{name} (not unique: {values:,} values for {report.info.rows:,} rows)"
+    shared = labels_not_unique(report)
+    return name if shared is None else f"{name} ({shared})"
 
 
 def _facts(report: "Report") -> str:

@@ -18,7 +18,7 @@ from ..findings import (
     Grade,
     count_by_grade,
 )
-from .base import ReportWriter, RunFacts, row_groups
+from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -84,10 +84,8 @@ def _design_line(report: "Report") -> Text:
 
 def _shared_labels(report: "Report") -> str:
     """Why a label may name several rows: the id column has fewer distinct values than the table has rows."""
-    values = report.design.get("id_values")
-    if values is None or values >= report.info.rows:
-        return ""
-    return f" (not unique: {values:,} values for {report.info.rows:,} rows, so a label names every row carrying it)"
+    shared = labels_not_unique(report)
+    return "" if shared is None else f" ({shared}, so a label names every row carrying it)"
 
 
 INDENT_HEAD, INDENT_BODY = 2, 5
