@@ -25,7 +25,7 @@ from .stats.fit import PreliminaryFit, RowScores
 from .stats.influence import RowInfluence, row_influence
 from .stats.mergeable import Moments
 from .stats.missingness import Holes
-from .stats.robust import median_and_mad
+from .stats.robust import RobustColumns, RobustDistances, median_and_mad, robust_distances
 from .stats.summaries import ColumnSummary, ColumnTally, summarise
 from .stats.textnumbers import TextNumbers
 
@@ -76,8 +76,7 @@ class RunContext:
         """Least squares on the complete cases, from :attr:`factor`."""
         y = self.design.y
         if self.statistics is not None:
-            moments = self.statistics.model.target
-            tss = moments.m2 if self.options.intercept else moments.m2 + moments.count * moments.mean**2
+            tss = self.statistics.model.total_sum_of_squares(self.options.intercept)
         else:
             tss = Moments.of(y).m2 if self.options.intercept else float(np.dot(y, y))
         return PreliminaryFit(self.factor, tss, self.options.intercept, self.design.X, y)
@@ -101,6 +100,43 @@ class RunContext:
     def influence(self) -> RowInfluence:
         """Studentized residuals, Cook's distance, DFFITS and DFBETAS of every complete case; O(n p^2)."""
         return row_influence(self.fit, self.design.X, self.design.y, self.row_scores)
+
+    @cached_property
+    def robust_columns(self) -> RobustColumns:
+        """The numeric predictors over the complete cases, without those whose MAD is zero, with each one's median and MAD.
+
+        The medians and MADs are the shared whole-column ones
+        (:meth:`median_and_mad`), so a row called unremarkable in every single
+        column is one that ``outliers.univariate`` does not flag.
+        """
+        design = self.design
+        names = design.column_names
+        chosen = [c for c in self.numeric_predictors if c in names]
+        if not chosen:
+            return RobustColumns((), np.empty((design.n, 0)), np.empty(0), np.empty(0))
+        indices = [names.index(c) for c in chosen]
+        consecutive = indices == list(range(indices[0], indices[0] + len(indices)))
+        data = design.X[:, indices[0] : indices[0] + len(indices)] if consecutive else design.X[:, indices]
+        spread = np.array([self.median_and_mad(c) for c in chosen]).reshape(-1, 2)
+        median, mad = spread[:, 0], spread[:, 1]
+        keep = np.flatnonzero(np.isfinite(mad) & (mad > 0))
+        kept = data if keep.size == len(chosen) else data[:, keep]
+        return RobustColumns(tuple(chosen[j] for j in keep), kept, median[keep], mad[keep])
+
+    @cached_property
+    def robust(self) -> RobustDistances | None:
+        """Every complete case's robust distance from the MCD estimate of :attr:`robust_columns` (None when it fails).
+
+        Computed once: ``outliers.multivariate`` reads it, and beyond the row
+        budget pass 2 measures every row of the table against its estimate.
+        """
+        columns = self.robust_columns
+        if len(columns.names) < 2:
+            return None
+        try:
+            return robust_distances(columns.data, columns.names)
+        except np.linalg.LinAlgError:
+            return None
 
     @cached_property
     def scoring(self) -> ScoredRows | None:

@@ -9,8 +9,8 @@ per batch or partition and merge their results:
   the fit taken from the merged batch factors; beyond the budget, a sample
   of rows chosen by a seeded hash of their position, on which every rule
   runs (the report says so and how large);
-- pass 1 (:func:`prefit.passes.first_pass`), the whole table's column
-  tallies, missing-value patterns and R factor;
+- pass 1 (:func:`prefit.passes.first_pass`), the whole table's R factor,
+  and its column tallies when the rules see every row;
 - pass 2 (:func:`prefit.passes.second_pass`), only when the rules ran on a
   sample: every complete row scored against the whole table's fit and
   measured against the sample's robust centre.
@@ -23,7 +23,6 @@ from typing import TYPE_CHECKING, Any, Callable, Mapping, Protocol, Sequence
 
 import numpy as np
 import pyarrow as pa
-import pyarrow.compute as pc
 
 from .batches import BATCH_ROWS, BatchSource
 from .errors import UsageProblem
@@ -43,13 +42,11 @@ from .reading import TableInfo
 from .roles import Kind, apply_missing_codes
 from .stats.fit import PreliminaryFit
 from .stats.positions import position_hashes
-from .stats.robust import robust_distances
 
 if TYPE_CHECKING:
     from .context import RunContext
 
 SAMPLE_CELLS = 6_000_000
-FEW_VALUES = 1_000
 ROWS_PER_VARIABLE = 5
 SAMPLE_SEED = 0x5EED_0F_1E1D
 
@@ -242,14 +239,13 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
     info = runner.info(kept.seen, kept.table.num_columns)
     context = build_context(kept.table, info, options)
     roles, intercept, schema, codes = context.roles, options.intercept, context.table.schema, options.missing_codes
-    counted = frozenset() if kept.whole else few_values(kept.table)
 
     def pass_one(batch: pa.Table, offset: int) -> TableStatistics:
-        return first_pass(conformed(batch, schema, codes), roles, intercept, counted)
+        return first_pass(conformed(batch, schema, codes), roles, intercept, tallies=kept.whole)
 
     if kept.whole and runner.reads_in_process:
         # Every row is already in memory: pass 1 runs over the kept rows' batches instead of reading the file again.
-        statistics = merge_all([first_pass(batch, roles, intercept, counted) for batch in _batches(context.table)])
+        statistics = merge_all([first_pass(batch, roles, intercept) for batch in _batches(context.table)])
     else:
         statistics = runner.map_merge(pass_one, merge_all, "pass 1")
     if kept.whole:
@@ -289,39 +285,25 @@ def column_fences(context: RunContext) -> ColumnFences | None:
 
 
 def robust_centre(context: RunContext) -> RobustCentre | None:
-    """The MCD location and scatter of the sample's numeric predictors (those with a nonzero MAD), or None.
+    """The sample's MCD location and scatter (:attr:`RunContext.robust`, the estimate ``outliers.multivariate`` reads), or None.
 
-    The same estimate ``outliers.multivariate`` makes on the sample; pass 2
-    then measures every complete row of the table against it.
+    Pass 2 then measures every complete row of the table against it.
     """
-    design = context.design
-    names = [c for c in context.numeric_predictors if c in design.column_names and context.median_and_mad(c)[1] > 0]
-    if len(names) < 2 or design.n < ROWS_PER_VARIABLE * len(names):
+    names = context.robust_columns.names
+    if len(names) < 2 or context.design.n < ROWS_PER_VARIABLE * len(names):
         return None
-    data = design.X[:, [design.column_names.index(c) for c in names]]
-    try:
-        estimate = robust_distances(data, tuple(names))
-    except np.linalg.LinAlgError:
+    estimate = context.robust
+    if estimate is None:
         return None
-    return RobustCentre(tuple(names), estimate.location, estimate.scatter)
+    return RobustCentre(names, estimate.location, estimate.scatter)
 
 
 def _batches(table: pa.Table) -> list[pa.Table]:
     return [pa.Table.from_batches([batch], schema=table.schema) for batch in table.to_batches(max_chunksize=BATCH_ROWS)]
 
 
-def few_values(sample: pa.Table) -> frozenset[str]:
-    """Columns whose distinct values pass 1 counts over the whole table: those with few distinct values in the sample.
-
-    Within the row budget nothing is counted: the kept rows are the whole
-    table and give the exact distinct count and mode directly.
-    """
-    return frozenset(name for name in sample.column_names if pc.count_distinct(sample.column(name)).as_py() <= FEW_VALUES)
-
-
 def whole_fit(statistics: TableStatistics, kinds: Mapping[str, Kind], intercept: bool) -> PreliminaryFit:
     """The least-squares fit of the whole table from its merged pass-1 factor."""
     factor = statistics.model.design_factor(statistics.model.terms(kinds))
-    moments = statistics.model.target
-    tss = moments.m2 if intercept else moments.m2 + moments.count * moments.mean**2
+    tss = statistics.model.total_sum_of_squares(intercept)
     return PreliminaryFit(factor, tss, intercept)

@@ -25,9 +25,8 @@ from .stats.factor import DesignFactor
 from .stats.fit import PreliminaryFit
 from .stats.influence import row_influence
 from .stats.mergeable import Moments, TriangularFactor, triangular
-from .stats.missingness import MissingPatterns
 from .stats.robust import MODIFIED_Z_LIMIT, modified_z, squared_distances
-from .stats.summaries import DISTINCT_CAP, ColumnTally
+from .stats.summaries import ColumnTally
 
 TOP_ROWS = 20
 SCREENED_RULES = {
@@ -108,6 +107,11 @@ class IndicatorFactor:
         """Complete rows counted."""
         return self.factor.rows
 
+    def total_sum_of_squares(self, intercept: bool) -> float:
+        """The target's sum of squares over complete rows: about its mean with an intercept, about zero without."""
+        moments = self.target
+        return moments.m2 if intercept else moments.m2 + moments.count * moments.mean**2
+
     def terms(self, kinds: Mapping[str, Kind]) -> tuple[Term, ...]:
         """The design terms, treatment-coded exactly as :func:`prefit.design.build_design` codes them."""
         terms: list[Term] = [Term(INTERCEPT, None, (INTERCEPT,))] if self.intercept else []
@@ -153,11 +157,10 @@ def _add_counts(first: Mapping[str, int], second: Mapping[str, int]) -> dict[str
 
 @dataclass(frozen=True)
 class TableStatistics:
-    """What pass 1 learns about a table: rows, a tally per column, missing-value patterns and the indicator factor."""
+    """What pass 1 learns about a table: rows, a tally per column (when asked for) and the indicator factor."""
 
     rows: int
     tallies: Mapping[str, ColumnTally]
-    patterns: MissingPatterns
     model: IndicatorFactor
 
     def merge(self, other: "TableStatistics") -> "TableStatistics":
@@ -165,27 +168,18 @@ class TableStatistics:
         return TableStatistics(
             self.rows + other.rows,
             {name: tally.merge(other.tallies[name]) for name, tally in self.tallies.items()},
-            self.patterns.merge(other.patterns),
             self.model.merge(other.model),
         )
 
 
-def first_pass(batch: pa.Table, roles: Roles, intercept: bool, counted: frozenset[str] = frozenset()) -> TableStatistics:
-    """Pass 1 over one batch of table rows; the distinct values of the ``counted`` columns are counted too."""
-    columns = ModelColumns.of(batch, roles)
-    tallies = {name: ColumnTally.of(batch.column(name), roles.kinds[name], cap=DISTINCT_CAP if name in counted else 0) for name in batch.column_names}
-    model_columns = (roles.target, *roles.predictors)
-    mask = np.column_stack([_missing(columns, batch, name, roles) for name in model_columns]) if batch.num_rows else np.zeros((0, len(model_columns)), dtype=bool)
-    patterns = MissingPatterns.of(model_columns, mask)
-    return TableStatistics(batch.num_rows, tallies, patterns, IndicatorFactor.of(columns, roles, intercept))
+def first_pass(batch: pa.Table, roles: Roles, intercept: bool, tallies: bool = True) -> TableStatistics:
+    """Pass 1 over one batch of table rows: the indicator factor, and with ``tallies`` each column's counts and moments.
 
-
-def _missing(columns: ModelColumns, batch: pa.Table, name: str, roles: Roles) -> np.ndarray:
-    if name == roles.target:
-        return np.isnan(columns.y) if roles.kinds[name] in (Kind.NUMERIC, Kind.BOOLEAN) else batch.column(name).is_null().to_numpy(zero_copy_only=False)
-    if name in columns.numeric:
-        return np.isnan(columns.numeric[name])
-    return columns.categories[name][0] < 0
+    Beyond the row budget the rules read the sample's column summaries and
+    only the factor of the whole table, so the engines leave the tallies out.
+    """
+    counts = {name: ColumnTally.of(batch.column(name), roles.kinds[name], cap=0) for name in batch.column_names} if tallies else {}
+    return TableStatistics(batch.num_rows, counts, IndicatorFactor.of(ModelColumns.of(batch, roles), roles, intercept))
 
 
 class Mergeable(Protocol):

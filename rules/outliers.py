@@ -14,9 +14,7 @@ from prefit.stats.chance import chance_check, chance_check_counts, probability_t
 from prefit.stats.robust import (
     MODIFIED_Z_FACTOR,
     MODIFIED_Z_LIMIT,
-    RobustDistances,
     beyond_modified_z,
-    robust_distances,
 )
 
 from ._rowfindings import (
@@ -215,28 +213,6 @@ def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
 # ---------------------------------------------------------------- multivariate
 
 
-def _robust_columns(ctx: RunContext) -> tuple[tuple[str, ...], np.ndarray, np.ndarray, np.ndarray]:
-    """Numeric predictors over the complete cases without those whose MAD is zero, with each column's median and MAD.
-
-    The medians and MADs are the shared whole-column ones
-    (:meth:`RunContext.median_and_mad`), so a row called unremarkable in every
-    single column is one that ``outliers.univariate`` does not flag.
-    """
-    design = ctx.design
-    names = design.column_names
-    chosen = [c for c in ctx.numeric_predictors if c in names]
-    if not chosen:
-        return (), np.empty((design.n, 0)), np.empty(0), np.empty(0)
-    indices = [names.index(c) for c in chosen]
-    consecutive = indices == list(range(indices[0], indices[0] + len(indices)))
-    data = design.X[:, indices[0] : indices[0] + len(indices)] if consecutive else design.X[:, indices]
-    spread = np.array([ctx.median_and_mad(c) for c in chosen]).reshape(-1, 2)
-    median, mad = spread[:, 0], spread[:, 1]
-    keep = np.flatnonzero(np.isfinite(mad) & (mad > 0))
-    kept = data if keep.size == len(chosen) else data[:, keep]
-    return tuple(chosen[j] for j in keep), kept, median[keep], mad[keep]
-
-
 def _label_groups(ctx: RunContext, positions: np.ndarray) -> str:
     """`` (from 6 site_id values)`` when the rows share few labels: whole groups of rows, not single rows."""
     if ctx.roles.id is None:
@@ -248,13 +224,13 @@ def _label_groups(ctx: RunContext, positions: np.ndarray) -> str:
 def _multivariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     import scipy.stats
 
-    columns, data, median, mad = _robust_columns(ctx)
+    chosen = ctx.robust_columns
+    columns, data, median, mad = chosen.names, chosen.data, chosen.median, chosen.mad
     q, n = len(columns), data.shape[0]
     if q < 2 or n < settings.limit("rows_per_variable") * q:
         return
-    try:
-        robust: RobustDistances = robust_distances(data, columns)
-    except np.linalg.LinAlgError:
+    robust = ctx.robust
+    if robust is None:
         return
     limit = settings.threshold("weakens")
     cutoff = float(scipy.stats.chi2.ppf(limit.value, q))

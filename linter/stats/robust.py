@@ -117,6 +117,16 @@ def beyond_modified_z(values: np.ndarray, median: float, mad: float, limit: floa
 
 
 @dataclass(frozen=True)
+class RobustColumns:
+    """Columns for a robust distance: their names, values over the complete cases (rows x columns), medians and MADs."""
+
+    names: tuple[str, ...]
+    data: np.ndarray
+    median: np.ndarray
+    mad: np.ndarray
+
+
+@dataclass(frozen=True)
 class RobustDistances:
     """Squared robust Mahalanobis distances of rows from a reweighted MCD estimate.
 
