@@ -18,7 +18,7 @@ import numpy as np
 import scipy.linalg
 
 from .blas import one_blas_thread
-from .factor import EPS, DesignFactor
+from .factor import EPS, DesignFactor, leading_clear_pivots
 from .fit import PreliminaryFit
 from .mergeable import triangular
 
@@ -178,17 +178,6 @@ def _as_added(Z: np.ndarray | AddedColumns, n: int) -> AddedColumns:
     return Z if isinstance(Z, AddedColumns) else AddedColumns.of(np.asarray(Z, dtype=np.float64).reshape(n, -1))
 
 
-def _leading_independent(diagonal: np.ndarray) -> int:
-    """How many leading pivots of a column-pivoted R stand clear of dependence.
-
-    Pivots decrease in size, so the independent columns come first; counting
-    only the leading run keeps an overflowed (NaN or infinite) pivot from
-    letting a zero one through.
-    """
-    clear = np.abs(diagonal) > DEPENDENT_SHARE
-    return int(diagonal.size if clear.all() else np.argmin(clear))
-
-
 def _absorbed(r: np.ndarray, block: np.ndarray) -> np.ndarray:
     """The R factor of ``r`` stacked on ``block``: one more batch merged into a tall-skinny QR in one factorisation."""
     stacked = np.empty((r.shape[0] + block.shape[0], block.shape[1]), order="F")
@@ -237,7 +226,7 @@ def _regress_added(
         return AddedFit(rss_base, rss_base, factor.rank, 0, coef, n, 0.0, residual)
     q2, r2, perm = scipy.linalg.qr(merged[:m, :m], pivoting=True, check_finite=False)
     qty = q2.T @ merged[:m, m]
-    kept = _leading_independent(np.diag(r2))
+    kept = leading_clear_pivots(np.diag(r2), DEPENDENT_SHARE)
     rss = float(merged[m, m] ** 2 + np.sum(qty[kept:] ** 2))
     on_unit = np.zeros(m)
     if kept:
@@ -319,16 +308,16 @@ def hc3_standard_errors(fit: PreliminaryFit, X: np.ndarray, residual: np.ndarray
     if k == 0:
         return out
     cols = factor.perm[:k]
-    r = factor.r[:k, :k]
     room = 1.0 - hat
     weights = np.divide(residual**2, room**2, out=np.zeros_like(residual), where=room > EPS * 16)
+    leverage_map = fit.leverage_map
     meat = np.zeros((k, k))
     with one_blas_thread():
         for start in range(0, X.shape[0], BATCH_ROWS):
-            scaled = X[start : start + BATCH_ROWS, cols] / factor.scales[cols]
-            q_rows = scipy.linalg.solve_triangular(r, scaled.T, trans="T", check_finite=False)
-            meat += (q_rows * weights[start : start + BATCH_ROWS]) @ q_rows.T
-    r_inverse = scipy.linalg.solve_triangular(r, np.eye(k), check_finite=False)
+            # Rows of Q for this block: the scaled estimable columns times R^-1.
+            q_rows = X[start : start + BATCH_ROWS] @ leverage_map
+            meat += (q_rows.T * weights[start : start + BATCH_ROWS]) @ q_rows
+    r_inverse = fit.r11_inverse
     cov = r_inverse @ meat @ r_inverse.T
     out[cols] = np.sqrt(np.diag(cov)) / factor.scales[cols]
     return out

@@ -53,6 +53,24 @@ def augmented_factor(X: np.ndarray, y: np.ndarray, scales: np.ndarray) -> Triang
     return TriangularFactor.of(np.column_stack([X / scales, y]))
 
 
+def leading_clear_pivots(diagonal: np.ndarray, tolerance: float) -> int:
+    """How many leading pivots of a column-pivoted R have magnitude above ``tolerance``.
+
+    Pivots decrease in size, so the independent columns come first; counting
+    only the leading run keeps an overflowed (NaN or infinite) pivot from
+    letting a zero one through.
+    """
+    clear = np.abs(diagonal) > tolerance
+    return int(clear.size if clear.all() else np.argmin(clear))
+
+
+def condition_number(values: np.ndarray) -> float:
+    """2-norm condition number from singular values, largest first: 1 for none, infinite when the last is zero."""
+    if values.size == 0:
+        return 1.0
+    return float(values[0] / values[-1]) if values[-1] > 0 else float("inf")
+
+
 TIE = 1e-8
 
 
@@ -162,9 +180,7 @@ class DesignFactor:
         """Numerical rank of the design."""
         if self.p == 0 or self.n == 0:
             return 0
-        # Pivots decrease in size: count the leading run, so a NaN pivot (overflow) cannot admit a zero one.
-        clear = np.abs(np.diag(self.r)) > self.tolerance
-        return int(clear.size if clear.all() else np.argmin(clear))
+        return leading_clear_pivots(np.diag(self.r), self.tolerance)
 
     @cached_property
     def singular_values_scaled(self) -> np.ndarray:
@@ -180,21 +196,15 @@ class DesignFactor:
         undo[: self.p] = self.scales[self.perm]
         return scipy.linalg.svdvals(self.r * undo[None, :])
 
-    @staticmethod
-    def _condition(values: np.ndarray) -> float:
-        if values.size == 0:
-            return 1.0
-        return float(values[0] / values[-1]) if values[-1] > 0 else float("inf")
-
     @property
     def condition_scaled(self) -> float:
         """2-norm condition number of the unit-length-scaled design."""
-        return self._condition(self.singular_values_scaled)
+        return condition_number(self.singular_values_scaled)
 
     @property
     def condition_raw(self) -> float:
         """2-norm condition number of the design as given."""
-        return self._condition(self.singular_values_raw)
+        return condition_number(self.singular_values_raw)
 
     def relations(self) -> list[Relation]:
         """Each column beyond the rank written as a combination of the independent ones (original units)."""

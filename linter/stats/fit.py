@@ -10,7 +10,7 @@ import scipy.linalg
 
 from .accuracy import Digits, Refined, perturbation_digits, refine
 from .blas import one_blas_thread
-from .factor import DesignFactor
+from .factor import DesignFactor, condition_number
 
 SCORE_ROWS = 8_192
 REFINE_ABOVE = 1e-9
@@ -61,7 +61,8 @@ class PreliminaryFit:
         return self.n - self.rank
 
     @cached_property
-    def _r11_inverse(self) -> np.ndarray:
+    def r11_inverse(self) -> np.ndarray:
+        """``R11^-1`` (rank x rank), the inverse of the estimable block of the pivoted, scaled R factor."""
         k = self.rank
         return scipy.linalg.solve_triangular(self.factor.r[:k, :k], np.eye(k)) if k else np.zeros((0, 0))
 
@@ -72,8 +73,13 @@ class PreliminaryFit:
             return None
         z = scipy.linalg.solve_triangular(f.r[:k, :k], f.qty[:k], check_finite=False)
         if self.forward_error_bound <= REFINE_ABOVE:
-            return Refined(z, float(f.rss_outside + np.sum(f.qty[k:] ** 2)), self.forward_error_bound, 0)
+            return Refined(z, self.qr_rss, self.forward_error_bound, 0)
         return refine(f, self.X, self.y, z)
+
+    @cached_property
+    def qr_rss(self) -> float:
+        """Residual sum of squares of the plain QR solution (before any refinement)."""
+        return float(self.factor.rss_outside + np.sum(self.factor.qty[self.rank :] ** 2))
 
     @cached_property
     def forward_error_bound(self) -> float:
@@ -90,10 +96,9 @@ class PreliminaryFit:
         Golub, G. H., Van Loan, C. F. (2013). Matrix Computations, 4th ed., sec. 5.3.8.
         """
         f, k = self.factor, self.rank
-        values = scipy.linalg.svdvals(f.r[:k, :k]) if k else np.ones(1)
-        kappa = float(values[0] / values[-1]) if values[-1] > 0 else float("inf")
+        kappa = condition_number(scipy.linalg.svdvals(f.r[:k, :k]) if k else np.zeros(0))
         fitted = float(np.linalg.norm(f.qty[:k]))
-        residual = float(np.sqrt(f.rss_outside + np.sum(f.qty[k:] ** 2)))
+        residual = float(np.sqrt(self.qr_rss))
         tangent = residual / fitted if fitted > 0 else float("inf")
         return float(k * EPS * kappa * (2.0 + kappa * tangent))
 
@@ -114,7 +119,7 @@ class PreliminaryFit:
         refined = self._refined
         if refined is not None:
             return refined.rss
-        return float(self.factor.rss_outside + np.sum(self.factor.qty[self.rank :] ** 2))
+        return self.qr_rss
 
     @cached_property
     def digits(self) -> Digits | None:
@@ -157,7 +162,7 @@ class PreliminaryFit:
         f, k = self.factor, self.rank
         out = np.full((f.p, f.p), np.nan)
         if k:
-            inv = self._r11_inverse
+            inv = self.r11_inverse
             cols = f.perm[:k]
             scale = f.scales[cols]
             out[np.ix_(cols, cols)] = (inv @ inv.T) / np.outer(scale, scale)
@@ -193,7 +198,7 @@ class PreliminaryFit:
         out = np.zeros((f.p, k))
         if k:
             cols = f.perm[:k]
-            out[cols] = self._r11_inverse / f.scales[cols][:, None]
+            out[cols] = self.r11_inverse / f.scales[cols][:, None]
         return out
 
     def score_rows(self, X: np.ndarray, y: np.ndarray) -> RowScores:
