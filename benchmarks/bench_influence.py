@@ -11,12 +11,11 @@ from __future__ import annotations
 
 import argparse
 import gc
-import time
 import tracemalloc
-from collections.abc import Callable
 
 import numpy as np
 import pyarrow as pa
+from timing import best_of
 
 from prefit.context import RunContext
 from prefit.options import CheckOptions
@@ -28,15 +27,6 @@ from prefit.stats.blas import one_blas_thread
 
 FAMILIES = ("influence", "outliers")
 REPEATS = 5
-
-
-def timed(action: Callable[[], object], repeat: int = 1) -> float:
-    best = float("inf")
-    for _ in range(repeat):
-        start = time.perf_counter()
-        action()
-        best = min(best, time.perf_counter() - start)
-    return best
 
 
 def invented(rows: int, predictors: int, seed: int = 1) -> tuple[np.ndarray, np.ndarray]:
@@ -71,11 +61,11 @@ def prepared(X: np.ndarray, y: np.ndarray) -> RunContext:
 def family_parts(ctx: RunContext) -> dict[str, float]:
     """Seconds spent on the shared row statistics and on each family's rules, in the order a run needs them."""
     parts = {
-        "shared hat values and residuals (RunContext.row_scores)": timed(lambda: ctx.row_scores),
-        "shared influence measures (RunContext.influence)": timed(lambda: ctx.influence),
+        "shared hat values and residuals (RunContext.row_scores)": best_of(lambda: ctx.row_scores, 1),
+        "shared influence measures (RunContext.influence)": best_of(lambda: ctx.influence, 1),
     }
     for family in FAMILIES:
-        parts[f"{family} rules"] = timed(lambda chosen=family: run_family(ctx, (chosen,)))
+        parts[f"{family} rules"] = best_of(lambda chosen=family: run_family(ctx, (chosen,)), 1)
     return parts
 
 
@@ -96,7 +86,7 @@ def family_peak(X: np.ndarray, y: np.ndarray) -> tuple[int, int]:
 
 def large(rows: int, predictors: int) -> None:
     X, y = invented(rows, predictors)
-    qr = timed(lambda: np.linalg.qr(X, mode="r"), repeat=REPEATS)
+    qr = best_of(lambda: np.linalg.qr(X, mode="r"), REPEATS)
     print(f"{rows:,} x {predictors} predictors: one thin QR of the design {qr:.2f} s (baseline, best of {REPEATS})")
     best: dict[str, float] | None = None
     for _ in range(REPEATS):
@@ -133,8 +123,8 @@ def small(rows: int, predictors: int) -> None:
         fresh = context(X, y)
         _ = fresh.influence
 
-    ours = timed(closed_form, repeat=3)
-    theirs = timed(by_hand)
+    ours = best_of(closed_form, 3)
+    theirs = best_of(by_hand, 1)
     print(f"{rows:,} x {predictors}: statsmodels OLSInfluence {theirs:.2f} s, closed forms (with the fit) {ours:.4f} s, ratio {theirs / ours:,.0f}")
     del ctx
 

@@ -570,8 +570,11 @@ def _sum_of_products(a: np.ndarray, b: np.ndarray) -> float:
 def _plainly_below(limit: Threshold, x: np.ndarray, y: np.ndarray, y_root: float) -> bool:
     """Whether the squared correlation of centred ``x`` and ``y`` is clearly below ``limit``.
 
-    A single-threaded screen: the multi-threaded BLAS dot products of the
-    exact computation are then run only for the rare predictor near the limit.
+    A cheap screen: two passes over the rows with no temporary array, where
+    the exact computation in :func:`_target_leak` takes the norm of ``x``, a
+    normalised copy of it and a dot product; that is then needed only for the
+    rare predictor near the limit. ``SCREEN_ALLOWANCE`` absorbs the rounding
+    differences between the two routes.
     """
     xx = _sum_of_products(x, x)
     if not (0.0 < xx < np.inf and 0.0 < y_root < np.inf):

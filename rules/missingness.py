@@ -470,6 +470,8 @@ def _holm(p_values: list[float]) -> list[float]:
     return adjusted.tolist()
 
 
+_SENTINEL_DEFAULTS = SentinelLimits()
+
 RULES = [
     Rule(
         id="missingness.column-rate",
@@ -521,11 +523,11 @@ RULES = [
         check=_disguised_codes,
         grades=(Grade.MISLEADS, Grade.WEAKENS),
         thresholds=(
-            Threshold("gap-to-spacing", 10.0, f"{COMMON_PRACTICE}: gap to the rest, in spacings of the rest's edge values"),
-            Threshold("code-distance", 3.0, f"{COMMON_PRACTICE}: robust SDs (Rousseeuw & Croux 1993) from the median for a code-shaped value"),
-            Threshold("plain-distance", 5.0, f"{COMMON_PRACTICE}: robust SDs from the median for a repeated value of any shape"),
-            Threshold("repeat-contrast", 3.0, f"{COMMON_PRACTICE}: times as often as a typical value repeats (a site attribute repeated per day is no code)"),
-            Threshold("zero-share", 0.05, f"{COMMON_PRACTICE}: largest share of rows at zero for zero to count as a code"),
+            Threshold("gap-to-spacing", _SENTINEL_DEFAULTS.gap_to_spacing, f"{COMMON_PRACTICE}: gap to the rest, in spacings of the rest's edge values"),
+            Threshold("code-distance", _SENTINEL_DEFAULTS.code_distance, f"{COMMON_PRACTICE}: robust SDs (Rousseeuw & Croux 1993) from the median for a code-shaped value"),
+            Threshold("plain-distance", _SENTINEL_DEFAULTS.plain_distance, f"{COMMON_PRACTICE}: robust SDs from the median for a repeated value of any shape"),
+            Threshold("repeat-contrast", _SENTINEL_DEFAULTS.repeat_contrast, f"{COMMON_PRACTICE}: times as often as a typical value repeats (a site attribute repeated per day is no code)"),
+            Threshold("zero-share", _SENTINEL_DEFAULTS.zero_share, f"{COMMON_PRACTICE}: largest share of rows at zero for zero to count as a code"),
         ),
     ),
     Rule(

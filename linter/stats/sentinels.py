@@ -183,23 +183,24 @@ def _edge_rules_out(value: float, count: int, rest: np.ndarray, low: bool, total
     """Whether :func:`_judge` rejects ``value`` on its share, its gap, or a shape and count no reason accepts."""
     if count > MAX_CODE_SHARE * total:
         return True
-    gap = abs(float(rest[0] if low else rest[-1]) - value)
-    spacing = _edge_spacing(rest, low)
+    gap, spacing = _gap_and_spacing(value, rest, low)
     if spacing <= 0 or gap < limits.gap_to_spacing * spacing:
         return True
     return not (code_shaped(value) or value == 0 or count >= MIN_REPEATS_PLAIN)
 
 
+def _gap_and_spacing(value: float, rest: np.ndarray, low: bool) -> tuple[float, float]:
+    """The gap from ``value`` to the nearest of the rest, and the spacing of the rest's values at that edge."""
+    return abs(float(rest[0] if low else rest[-1]) - value), _edge_spacing(rest, low)
+
+
 def _judge(
     value: float, count: int, rest: np.ndarray, rest_counts: np.ndarray, low: bool, total: int, limits: SentinelLimits
 ) -> Sentinel | None:
-    if count > MAX_CODE_SHARE * total:
+    value = float(value)
+    if _edge_rules_out(value, count, rest, low, total, limits):
         return None
-    nearest = rest[0] if low else rest[-1]
-    gap = abs(float(nearest) - float(value))
-    spacing = _edge_spacing(rest, low)
-    if spacing <= 0 or gap < limits.gap_to_spacing * spacing:
-        return None
+    gap, spacing = _gap_and_spacing(value, rest, low)
     expanded = np.repeat(rest, rest_counts)
     scale = _robust_scale(expanded)
     if scale <= 0:
