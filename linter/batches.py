@@ -9,7 +9,6 @@ are read whole and then cut into batches.
 
 from __future__ import annotations
 
-import io
 import os
 from dataclasses import dataclass
 from typing import Generator, Iterator
@@ -18,24 +17,28 @@ import pyarrow as pa
 
 from .errors import UsageProblem
 from .reading import (
+    SNIFF_BYTES,
+    UTF8_BOM,
     ReadOptions,
     TableInfo,
     _check_header,
     _format_from_bytes,
     _format_from_name,
-    _sniff_sep,
+    csv_options,
     decode_dictionaries,
     file_digest,
+    is_arrow_file,
     is_readable_file,
+    is_utf8,
+    open_arrow,
     read_table,
+    resolve_sep,
 )
 
 ENGINES = ("memory", "stream", "dask")
 AUTO_STREAM_BYTES = 1 << 30
 BATCH_ROWS = 65_536
-CSV_BLOCK_BYTES = 1 << 24
 PARQUET_BUFFER = 1 << 20
-SNIFF_BYTES = 64 * 1024
 
 
 @dataclass(frozen=True)
@@ -72,10 +75,9 @@ class BatchSource:
         import pyarrow.ipc as ipc
 
         with pa.memory_map(self.path, "r") as source:
-            head = source.read(6)
-            source.seek(0)
-            reader = ipc.open_file(source) if head == b"ARROW1" else ipc.open_stream(source)
-            batches = (reader.get_batch(i) for i in range(reader.num_record_batches)) if head == b"ARROW1" else iter(reader)
+            reader = open_arrow(source)
+            is_file = isinstance(reader, ipc.RecordBatchFileReader)
+            batches = (reader.get_batch(i) for i in range(reader.num_record_batches)) if is_file else iter(reader)
             for batch in batches:
                 for start in range(0, batch.num_rows, batch_rows):
                     yield decode_dictionaries(pa.Table.from_batches([batch.slice(start, batch_rows)]))
@@ -84,12 +86,7 @@ class BatchSource:
         import pyarrow.csv as pacsv
 
         stream = pa.input_stream(self.path, compression=self.compression)
-        reader = pacsv.open_csv(
-            stream,
-            read_options=pacsv.ReadOptions(block_size=CSV_BLOCK_BYTES),
-            parse_options=pacsv.ParseOptions(delimiter=self.sep or ","),
-            convert_options=pacsv.ConvertOptions(null_values=[""], strings_can_be_null=True, quoted_strings_can_be_null=True),
-        )
+        reader = pacsv.open_csv(stream, **csv_options(self.sep or ","))
         try:
             for batch in reader:
                 for start in range(0, batch.num_rows, batch_rows):
@@ -132,19 +129,12 @@ def open_batches(path: str, options: ReadOptions = ReadOptions()) -> BatchSource
         return _parquet_source(path, options)
     if fmt == "arrow":
         return _arrow_source(path, options)
-    if fmt in (None, "csv") and options.encoding.lower().replace("_", "-") in ("utf-8", "utf8", "utf-8-sig") and codec in (None, "gzip", "bz2", "zstd"):
+    if fmt in (None, "csv") and is_utf8(options.encoding) and codec in (None, "gzip", "bz2", "zstd"):
         text = pa.input_stream(path, compression=codec).read(SNIFF_BYTES) if codec else head
-        if text.startswith(b"\xef\xbb\xbf") or _format_from_bytes(text[:16])[0] is not None:
-            return BatchSource(path, _format_from_bytes(text[:16])[0] or "csv", None, options, None, streamed=False)
-        decoded = text.decode("utf-8", errors="ignore")
-        sep = options.sep if options.sep is not None else _sniff_sep(decoded, path)
-        sep = "\t" if sep == "\\t" else sep
-        if len(sep) != 1:
-            raise UsageProblem("--sep", f"must be one character, got {sep!r}", "use e.g. --sep ';' or --sep '\\t'")
-        import csv
-
-        header = next(csv.reader(io.StringIO(decoded), delimiter=sep), [])
-        _check_header(header, path)
+        content_fmt, _ = _format_from_bytes(text[:16])
+        if text.startswith(UTF8_BOM) or content_fmt is not None:
+            return BatchSource(path, content_fmt or "csv", None, options, None, streamed=False)
+        sep, _ = resolve_sep(options.sep, text.decode("utf-8", errors="ignore"), path)
         return BatchSource(path, "csv", codec, options, None, sep)
     return BatchSource(path, fmt or "csv", None, options, None, streamed=False)
 
@@ -166,12 +156,12 @@ def _arrow_source(path: str, options: ReadOptions) -> BatchSource:
 
     try:
         with pa.memory_map(path, "r") as source:
-            if source.read(6) == b"ARROW1":
-                source.seek(0)
-                reader = ipc.open_file(source)
-                rows = sum(reader.get_batch(i).num_rows for i in range(reader.num_record_batches))
-                return BatchSource(path, "arrow", None, options, rows)
-            return BatchSource(path, "arrow", None, options, None)
+            if not is_arrow_file(source):
+                # An IPC stream has no footer: its row count is known only once it is read.
+                return BatchSource(path, "arrow", None, options, None)
+            reader = ipc.open_file(source)
+            rows = sum(reader.get_batch(i).num_rows for i in range(reader.num_record_batches))
+            return BatchSource(path, "arrow", None, options, rows)
     except (pa.ArrowInvalid, OSError) as exc:
         raise UsageProblem(path, f"is not a readable Arrow IPC/Feather file ({str(exc).splitlines()[0]})", "re-export it") from None
 

@@ -11,13 +11,15 @@ import os
 import sys
 from dataclasses import dataclass
 from pathlib import Path
-from typing import BinaryIO
+from typing import Any, BinaryIO
 
 import pyarrow as pa
 
 from .errors import UsageProblem
 
 SNIFF_BYTES = 64 * 1024
+CSV_BLOCK_BYTES = 1 << 24
+UTF8_BOM = b"\xef\xbb\xbf"
 GZIP_MAGIC = b"\x1f\x8b"
 BZ2_MAGIC = b"BZh"
 ZSTD_MAGIC = b"\x28\xb5\x2f\xfd"
@@ -99,10 +101,59 @@ def _sniff_sep(text_head: str, where: str) -> str:
         return ","
 
 
+def is_utf8(encoding: str) -> bool:
+    """Whether ``encoding`` names UTF-8 (with or without BOM), which the readers take without transcoding."""
+    return encoding.lower().replace("_", "-") in ("utf-8", "utf8", "utf-8-sig")
+
+
+def resolve_sep(sep: str | None, text_head: str, where: str) -> tuple[str, list[str]]:
+    """The delimiter (``sep``, or sniffed from ``text_head``) and the header row it splits, checked.
+
+    Shared by the in-memory and streaming readers so that both accept and reject the same files.
+    """
+    if sep is None:
+        sep = _sniff_sep(text_head, where)
+    if sep == "\\t":
+        sep = "\t"
+    if len(sep) != 1:
+        raise UsageProblem("--sep", f"must be one character, got {sep!r}", "use e.g. --sep ';' or --sep '\\t'")
+    header = next(csv.reader(io.StringIO(text_head), delimiter=sep), [])
+    _check_header(header, where)
+    return sep, header
+
+
+def csv_options(sep: str) -> dict[str, Any]:
+    """pyarrow's read, parse and convert options (as keyword arguments) for delimited text.
+
+    One definition, so that the in-memory and streaming readers infer the same types and missing values.
+    """
+    import pyarrow.csv as pacsv
+
+    return {
+        "read_options": pacsv.ReadOptions(block_size=CSV_BLOCK_BYTES),
+        "parse_options": pacsv.ParseOptions(delimiter=sep),
+        "convert_options": pacsv.ConvertOptions(null_values=[""], strings_can_be_null=True, quoted_strings_can_be_null=True),
+    }
+
+
+def is_arrow_file(source: pa.NativeFile) -> bool:
+    """Whether ``source`` starts with the Arrow IPC file magic (else it is an IPC stream); leaves it at the start."""
+    head = source.read(len(ARROW_FILE_MAGIC))
+    source.seek(0)
+    return bool(head == ARROW_FILE_MAGIC)
+
+
+def open_arrow(source: pa.NativeFile) -> Any:
+    """An IPC file or stream reader for ``source``, chosen by its magic bytes (Feather v2 is the IPC file format)."""
+    import pyarrow.ipc as ipc
+
+    return ipc.open_file(source) if is_arrow_file(source) else ipc.open_stream(source)
+
+
 def _check_encoding(data: bytes, encoding: str, where: str) -> bytes:
     """Return UTF-8 bytes (without BOM); any other encoding is transcoded when declared."""
-    if encoding.lower().replace("_", "-") in ("utf-8", "utf8", "utf-8-sig"):
-        if data.startswith(b"\xef\xbb\xbf"):
+    if is_utf8(encoding):
+        if data.startswith(UTF8_BOM):
             data = data[3:]
         try:
             data.decode("utf-8")
@@ -128,20 +179,9 @@ def _read_csv(data: bytes, options: ReadOptions, where: str) -> pa.Table:
     if not data.strip():
         raise UsageProblem(where, "is empty", "give a table with a header row and data rows")
     text_head = data[:SNIFF_BYTES].decode("utf-8", errors="ignore")
-    sep = options.sep if options.sep is not None else _sniff_sep(text_head, where)
-    if sep == "\\t":
-        sep = "\t"
-    if len(sep) != 1:
-        raise UsageProblem("--sep", f"must be one character, got {sep!r}", "use e.g. --sep ';' or --sep '\\t'")
-    header = next(csv.reader(io.StringIO(text_head), delimiter=sep), [])
-    _check_header(header, where)
+    sep, header = resolve_sep(options.sep, text_head, where)
     try:
-        table = pacsv.read_csv(
-            io.BytesIO(data),
-            read_options=pacsv.ReadOptions(block_size=1 << 24),
-            parse_options=pacsv.ParseOptions(delimiter=sep),
-            convert_options=pacsv.ConvertOptions(null_values=[""], strings_can_be_null=True, quoted_strings_can_be_null=True),
-        )
+        table = pacsv.read_csv(io.BytesIO(data), **csv_options(sep))
     except pa.ArrowInvalid as exc:
         text = str(exc)
         if "Expected" in text and "columns" in text:
@@ -194,26 +234,16 @@ def _read_parquet(source: BinaryIO | str, where: str) -> pa.Table:
 
 
 def _read_arrow(data: bytes, where: str) -> pa.Table:
-    import pyarrow.ipc as ipc
-
     try:
-        if data.startswith(ARROW_FILE_MAGIC):
-            return ipc.open_file(pa.py_buffer(data)).read_all()
-        return ipc.open_stream(pa.py_buffer(data)).read_all()
+        return open_arrow(pa.BufferReader(data)).read_all()
     except (pa.ArrowInvalid, OSError) as exc:
         raise UsageProblem(where, f"is not a readable Arrow IPC/Feather file ({str(exc).splitlines()[0]})", "re-export it") from None
 
 
 def _read_arrow_file(path: str) -> pa.Table:
-    import pyarrow.ipc as ipc
-
     try:
         # The table's buffers point into the read-only map, which stays open while they live.
-        source = pa.memory_map(path, "r")
-        head = source.read(6)
-        source.seek(0)
-        reader = ipc.open_file(source) if head == ARROW_FILE_MAGIC else ipc.open_stream(source)
-        return reader.read_all()
+        return open_arrow(pa.memory_map(path, "r")).read_all()
     except (pa.ArrowInvalid, OSError) as exc:
         raise UsageProblem(path, f"is not a readable Arrow IPC/Feather file ({str(exc).splitlines()[0]})", "re-export it") from None
 
