@@ -152,7 +152,8 @@ class RunContext:
             if self.statistics is not None:
                 self._summaries[column] = self.statistics.tallies[column].summary(column, kind, self.table.column(column))
             else:
-                self._summaries[column] = summarise(column, self.table.column(column), kind)
+                values = self.values(column) if kind in (Kind.NUMERIC, Kind.BOOLEAN) else None
+                self._summaries[column] = summarise(column, self.table.column(column), kind, values)
         return self._summaries[column]
 
     def tally(self, column: str) -> ColumnTally:
@@ -164,10 +165,7 @@ class RunContext:
         if self.statistics is not None:
             return self.statistics.tallies[column]
         if column not in self._tallies:
-            values = self.values(column)
-            missing = self.table.column(column).null_count
-            nonfinite = int(values.size - np.count_nonzero(np.isfinite(values))) - missing
-            self._tallies[column] = ColumnTally(values.size, missing, nonfinite, Moments.of(values), None)
+            self._tallies[column] = ColumnTally.of(self.table.column(column), self.roles.kinds[column], cap=0, values=self.values(column))
         return self._tallies[column]
 
     def design_column(self, name: str) -> np.ndarray:

@@ -57,14 +57,20 @@ class ColumnTally:
     counts: Mapping[object, int] | None
 
     @classmethod
-    def of(cls, column: pa.ChunkedArray | pa.Array, kind: Kind, cap: int | None = DISTINCT_CAP) -> "ColumnTally":
-        """Tally one column (or one batch of it); ``cap=None`` counts every distinct value, ``cap=0`` none."""
+    def of(
+        cls, column: pa.ChunkedArray | pa.Array, kind: Kind, cap: int | None = DISTINCT_CAP, values: np.ndarray | None = None
+    ) -> "ColumnTally":
+        """Tally one column (or one batch of it); ``cap=None`` counts every distinct value, ``cap=0`` none.
+
+        ``values`` is the column already converted to float64, when the caller has it.
+        """
         rows = len(column)
         missing = column.null_count
         moments = Moments.empty()
         nonfinite = 0
         if kind in (Kind.NUMERIC, Kind.BOOLEAN) or (kind is Kind.CATEGORICAL and _is_number_type(column.type)):
-            values = numeric_values(column if isinstance(column, pa.ChunkedArray) else pa.chunked_array([column]))
+            if values is None:
+                values = numeric_values(column if isinstance(column, pa.ChunkedArray) else pa.chunked_array([column]))
             finite = np.isfinite(values)
             nonfinite = int(np.count_nonzero(~finite)) - missing
             moments = Moments.of(values[finite])
@@ -90,9 +96,9 @@ class ColumnTally:
         return ColumnSummary(name, kind, self.rows, self.missing, self.nonfinite, distinct, mode, mode_count, self.moments)
 
 
-def summarise(name: str, column: pa.ChunkedArray, kind: Kind) -> ColumnSummary:
-    """Summarise one whole column in one pass of Arrow kernels."""
-    tally = ColumnTally.of(column, kind, cap=0)
+def summarise(name: str, column: pa.ChunkedArray, kind: Kind, values: np.ndarray | None = None) -> ColumnSummary:
+    """Summarise one whole column in one pass of Arrow kernels (``values``: the column as float64, when known)."""
+    tally = ColumnTally.of(column, kind, cap=0, values=values)
     distinct, mode, mode_count = _arrow_mode(column)
     return ColumnSummary(name, kind, tally.rows, tally.missing, tally.nonfinite, distinct, mode, mode_count, tally.moments)
 
