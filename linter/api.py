@@ -20,6 +20,7 @@ from .accepted import (
     load_accepted,
     save_accepted,
 )
+from .causes import find_causes
 from .context import RunContext
 from .engine import RuleOutcome, error_finding, run_rule, select_rules
 from .engines import EngineRun
@@ -51,7 +52,10 @@ class Report:
     ``accepted`` holds findings matched by an accepted-findings file: they are
     reported as a count and never reach the gate. ``rules`` are the rules the
     run knew and ``context`` the run's statistics (for plots and fingerprints);
-    neither is part of the JSON report.
+    neither is part of the JSON report. Each finding carries its ``key`` (the
+    digest of its fingerprint, computed once here) and the keys of the
+    findings that explain it; ``fix_first`` lists the keys of the root
+    findings at ``weakens`` or above, most damaging first (:mod:`prefit.causes`).
     """
 
     info: TableInfo
@@ -64,6 +68,8 @@ class Report:
     gate: Grade
     accepted: tuple[Finding, ...] = ()
     engine: EngineRun | None = None
+    fix_first: tuple[str, ...] = ()
+    keyed: Mapping[str, Fingerprint] = field(default_factory=dict, compare=False, repr=False)
     rules: tuple[RuleLike, ...] = field(default=(), compare=False, repr=False)
     context: RunContext | None = field(default=None, compare=False, repr=False)
 
@@ -92,6 +98,8 @@ class Report:
     @cached_property
     def fingerprints(self) -> tuple[Fingerprint, ...]:
         """The fingerprint of each finding, in report order (rule, grade, columns, digest of the flagged rows)."""
+        if all(f.key in self.keyed for f in self.findings):
+            return tuple(self.keyed[f.key] for f in self.findings)
         return fingerprints(self.findings, self.context)
 
     def accepting(self, accepted: AcceptedSet) -> "Report":
@@ -99,7 +107,8 @@ class Report:
         keys = self.fingerprints
         kept = tuple(f for f, k in zip(self.findings, keys) if k not in accepted or f.rule == "engine.rule-error")
         matched = tuple(f for f, k in zip(self.findings, keys) if k in accepted and f.rule != "engine.rule-error")
-        return replace(self, findings=kept, accepted=self.accepted + matched)
+        left = {f.key for f in kept}
+        return replace(self, findings=kept, accepted=self.accepted + matched, fix_first=tuple(k for k in self.fix_first if k in left))
 
     def to_dict(self) -> dict[str, Any]:
         """The report as plain JSON types, in the documented schema."""
@@ -116,6 +125,7 @@ class Report:
             "rules_run": [o.rule for o in self.outcomes],
             "rules_not_applicable": {o.rule: o.not_applicable for o in self.outcomes if o.not_applicable is not None},
             "findings": [f.to_dict() for f in self.findings],
+            "fix_first": list(self.fix_first),
             "summary": count_by_grade(self.findings),
             "accepted": len(self.accepted),
             **({"engine": self.engine.to_dict()} if self.engine is not None else {}),
@@ -264,6 +274,11 @@ def report_for(
         screened = tuple(rule.id for rule, _ in selected if rule.id in measured)
         engine = replace(engine, on_sample=tuple(o.rule for o in outcomes), screened=screened)
     design = context.design
+    ordered = sorted(findings, key=Finding.sort_key)
+    prints = fingerprints(ordered, context)
+    keys = [p.digest for p in prints]
+    causes = find_causes(context, selected, ordered)
+    linked = tuple(replace(f, key=key, explained_by=tuple(keys[i] for i in causes.explained_by[j])) for j, (f, key) in enumerate(zip(ordered, keys)))
     description = design.describe()
     description["kinds"] = {name: str(kind) for name, kind in roles.kinds.items()}
     description["left_out"] = dict(roles.left_out)
@@ -278,10 +293,12 @@ def report_for(
         parameters=design.p,
         complete_cases=design.n,
         design=description,
-        findings=tuple(sorted(findings, key=Finding.sort_key)),
+        findings=linked,
         outcomes=tuple(outcomes),
         gate=context.options.gate,
         engine=engine,
+        fix_first=tuple(keys[i] for i in causes.fix_first),
+        keyed=dict(zip(keys, prints)),
         rules=tuple(registry),
         context=context,
     )

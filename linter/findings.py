@@ -95,6 +95,8 @@ class Finding:
     source: str = ""
     remedy: str = ""
     details: Mapping[str, Any] = field(default_factory=dict)
+    key: str = ""
+    explained_by: tuple[str, ...] = ()
 
     def sort_key(self) -> tuple[Any, ...]:
         """Strongest grade first, then rule, columns and rows, for a stable report order."""
@@ -121,6 +123,8 @@ class Finding:
             "remedy": self.remedy,
             "source": self.source,
             "details": plain_json(self.details),
+            "key": self.key,
+            "explained_by": list(self.explained_by),
         }
 
     @classmethod
@@ -143,6 +147,8 @@ class Finding:
             source=data.get("source", ""),
             remedy=data.get("remedy", ""),
             details=dict(data.get("details", {})),
+            key=str(data.get("key", "")),
+            explained_by=tuple(data.get("explained_by", ())),
         )
 
 

@@ -20,7 +20,10 @@ import numpy as np
 from .findings import MAX_LISTED_ROWS, Finding, Grade, RowLabel
 
 if TYPE_CHECKING:
+    import pyarrow as pa
+
     from .context import RunContext
+    from .options import CheckOptions
 
 COMMON_PRACTICE = "common practice"
 
@@ -73,6 +76,29 @@ class Threshold:
 CheckFunction = Callable[["RunContext", "RuleSettings"], Iterable[Finding]]
 
 
+@dataclass(frozen=True)
+class Repair:
+    """A root finding fixed hypothetically, so that the findings it causes can be re-checked.
+
+    Either ``table`` (with ``options``, when the repair changes them) is the
+    table as it would be once the problem is fixed, with the same rows in the
+    same order, and the affected rules run again on it; ``added`` names
+    columns the repair adds (a curve term), which are ignored when findings
+    are compared. Or ``settles`` judges a finding directly, for a root whose
+    fix cannot be written as a table (more rows): it says whether the root
+    alone accounts for the finding.
+    """
+
+    description: str
+    table: "pa.Table | None" = None
+    options: "CheckOptions | None" = None
+    added: tuple[str, ...] = ()
+    settles: Callable[[Finding], bool] | None = None
+
+
+RepairHook = Callable[["RunContext", Finding], "Repair | None"]
+
+
 @runtime_checkable
 class RuleLike(Protocol):
     """What the engine needs of a rule, built-in or from a plugin (read-only attributes)."""
@@ -108,6 +134,10 @@ class Rule:
     ``heavy`` marks a rule that takes a large share of a run on a long table
     (auxiliary regressions over every row, an iterative robust estimate):
     heavy rules start first, so that the rule threads finish together.
+
+    ``repair`` declares the rule's findings candidate roots: given one of its
+    findings, it returns the :class:`Repair` that would fix it (or None), and
+    :mod:`prefit.causes` re-checks which other findings that repair removes.
     """
 
     id: str
@@ -119,6 +149,7 @@ class Rule:
     grades: tuple[Grade, ...] = ()
     needs: frozenset[str] = frozenset()
     heavy: bool = False
+    repair: RepairHook | None = None
 
     @property
     def family(self) -> str:

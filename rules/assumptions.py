@@ -26,7 +26,7 @@ from prefit.context import RunContext
 from prefit.design import INTERCEPT
 from prefit.findings import Finding, Grade
 from prefit.roles import Kind
-from prefit.rule import NotApplicable, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import NotApplicable, Repair, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.auxiliary import (
     autocorrelations,
     durbin_watson,
@@ -52,6 +52,13 @@ ALPHA = Threshold("alpha", 0.01, "common practice: 1% significance level, as eac
 WHITE_MAX_PRODUCTS = 500
 SMALL_EFFECT = 0.02
 COHEN_SMALL = "Cohen (1988), Statistical Power Analysis for the Behavioral Sciences, 2nd ed., sec. 9.2.2: f^2 = 0.02 is a small effect"
+MEDIUM_EFFECT = 0.15
+COHEN_MEDIUM = "Cohen (1988), sec. 9.2.2: f^2 = 0.15 is a medium effect; a bend that large decides the fit"
+MISS_LIMIT_SD = 2.0
+MISS_SOURCE = (
+    "common practice: a straight line that misses the curve by two residual standard deviations or more "
+    "misplaces predictions there by more than a 95% prediction interval allows (misleads)"
+)
 
 
 def _fit_ready(ctx: RunContext) -> bool:
@@ -211,11 +218,16 @@ def _nonlinearity(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     if graded is None:
         return
     grade, limit = graded
+    residual_sd = float(np.sqrt(ctx.fit.rss / ctx.fit.df_resid))
+    misses = {c.predictor: c.largest_shift / residual_sd if residual_sd > 0 else float("inf") for c in bends}
+    miss_limit = settings.threshold("misses-sd")
+    if grade < Grade.MISLEADS and any(miss_limit.crossed(m) for m in misses.values()):
+        grade, limit = Grade.MISLEADS, miss_limit
     target = ctx.roles.target
     parts = [
         f"{c.predictor} bends {'upward (its slope grows' if c.t > 0 else 'downward (its slope shrinks'} as it rises; "
         f"square term t = {fmt(c.t)}, {_p(c.p_holm, 'Holm p')}, f^2 = {fmt(c.f_squared, 2)}; "
-        f"a straight line misses by up to {fmt(c.largest_shift)} {target})"
+        f"a straight line misses by up to {fmt(c.largest_shift)} {target}, {fmt(misses[c.predictor], 2)} residual SD)"
         for c in bends
     ]
     where = "; ".join(parts) if parts else "no single predictor bends on its own: look for interactions or a transformed target"
@@ -225,15 +237,40 @@ def _nonlinearity(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         f"the straight-line form does not fit: RESET Wald = {fmt(model.statistic)} (df {model.df}, {_p(model.p_value)}, "
         f"f^2 = {fmt(model.effect, 2)}); {where}",
         columns=names,
-        value=effect,
+        value=effect if limit is not miss_limit else max(misses.values()),
         threshold=limit,
         remedy=(
             f"add a curved term for {', '.join(names)} (a square, a spline, or a piecewise line with a break) and plot residuals against it"
             if names
             else "add interactions between the strongest predictors or model a transformed target, then re-check the residuals"
         ),
-        details={"reset": _test_details(model) | {"f_squared": model.effect}, "curvature": [asdict(c) for c in ctx.curvature], "alpha": alpha},
+        details={"reset": _test_details(model) | {"f_squared": model.effect}, "curvature": [asdict(c) for c in ctx.curvature], "alpha": alpha,
+                 "f_squared": effect, "misses_in_residual_sd": misses},
     )
+
+
+def _bend_allowed_for(ctx: RunContext, finding: Finding) -> Repair | None:
+    """The table with the target replaced, on the complete rows, by the straight-line fitted values plus the residuals of the fit with a square per bending predictor.
+
+    A least-squares fit of the repaired target on the unchanged design has
+    exactly the curved fit's residuals (Frisch-Waugh-Lovell), so the row
+    diagnostics re-run on it see the fit with the bend allowed for, on the
+    same design columns and leverage.
+    """
+    import pyarrow as pa
+
+    design = ctx.design
+    bent = [column for column in finding.columns if column in design.column_names]
+    if not bent or not _fit_ready(ctx):
+        return None
+    residual = ctx.row_scores.residual
+    curved = regress_added(ctx.factor, design.X, residual, square_columns(design, bent))
+    assert curved.residual is not None
+    target = ctx.roles.target
+    repaired = np.array(ctx.values(target), dtype=float)
+    repaired[design.positions] = design.y - residual + curved.residual
+    table = ctx.table.set_column(ctx.table.column_names.index(target), target, pa.array(repaired, from_pandas=True))
+    return Repair(f"a square term for {', '.join(bent)}", table=table)
 
 
 def _residual_normality(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
@@ -397,8 +434,14 @@ RULES = [
         "predictions at the extremes (a heat wave) are biased.",
         remedy="add a curved term (square, spline, piecewise line) for the predictor that bends, or transform it",
         check=_nonlinearity,
-        thresholds=(ALPHA, Threshold("weakens", SMALL_EFFECT, COHEN_SMALL, Grade.WEAKENS)),
+        thresholds=(
+            ALPHA,
+            Threshold("weakens", SMALL_EFFECT, COHEN_SMALL, Grade.WEAKENS),
+            Threshold("misleads", MEDIUM_EFFECT, COHEN_MEDIUM, Grade.MISLEADS),
+            Threshold("misses-sd", MISS_LIMIT_SD, MISS_SOURCE),
+        ),
         needs=frozenset({"fit", "rows"}),
+        repair=_bend_allowed_for,
     ),
     Rule(
         id="assumptions.residual-normality",

@@ -8,6 +8,7 @@ reported twice.
 
 from __future__ import annotations
 
+from dataclasses import dataclass, replace
 from typing import Iterator
 
 import numpy as np
@@ -15,7 +16,7 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.design import INTERCEPT, Design
 from prefit.findings import Finding, Grade
-from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import COMMON_PRACTICE, Repair, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.collinearity import NearDependency, TermInflation
 from prefit.stats.factor import EPS, DesignFactor, Relation
 
@@ -131,6 +132,21 @@ def _exact(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         )
 
 
+def _dependency_dropped(ctx: RunContext, finding: Finding) -> Repair | None:
+    """The table with the relation's left-hand column (the total, or the column carrying most weight) left out."""
+    left = finding.details.get("left")
+    design = ctx.design
+    if left not in design.column_names:
+        return None
+    source = design.column_sources[design.column_names.index(left)]
+    options = ctx.options
+    if options.predictors is not None:
+        options = replace(options, predictors=tuple(c for c in options.predictors if c != source))
+    else:
+        options = replace(options, exclude=(*options.exclude, source))
+    return Repair(f"{source} left out", table=ctx.table, options=options)
+
+
 def _ready(ctx: RunContext) -> bool:
     return ctx.design.n >= 2 and ctx.design.p > 0
 
@@ -172,7 +188,10 @@ def _vif(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     if not _ready(ctx):
         return
     diagnostics = ctx.collinearity
+    grouped = _grouped_terms(ctx)
     for term in diagnostics.terms:
+        if term.term in grouped:
+            continue
         graded = settings.grade_of(term.vif_scale)
         if graded is None:
             continue
@@ -230,10 +249,17 @@ def _settings_as_run(ctx: RunContext, rule: Rule) -> RuleSettings | None:
 
 
 def _pairs_reported_by_vif(ctx: RunContext) -> set[frozenset[str]]:
+    """Pairs of predictors a VIF finding or a near-dependency finding already names together."""
+    covered: set[frozenset[str]] = set()
+    condition = _settings_as_run(ctx, CONDITION_RULE)
+    if condition is not None:
+        source_of = _sources(ctx)
+        for group in dependency_groups(ctx, condition):
+            sources = sorted({source_of[name] for name in group.members})
+            covered.update(frozenset((a, b)) for i, a in enumerate(sources) for b in sources[i + 1 :])
     settings = _settings_as_run(ctx, VIF_RULE)
     if settings is None:
-        return set()
-    covered: set[frozenset[str]] = set()
+        return covered
     for finding in _vif(ctx, settings):
         if settings.exempt.intersection(finding.columns):
             continue
@@ -281,51 +307,88 @@ def _sources(ctx: RunContext) -> dict[str, str]:
     return dict(zip(ctx.design.column_names, ctx.design.column_sources))
 
 
-def _condition(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
-    if not _ready(ctx):
-        return
+@dataclass(frozen=True)
+class DependencyGroup:
+    """One near dependency to report: its condition index, the design columns it involves and its grade."""
+
+    dependency: NearDependency
+    grade: Grade
+    limit: Threshold
+    members: tuple[str, ...]
+
+
+def dependency_groups(ctx: RunContext, settings: RuleSettings) -> list[DependencyGroup]:
+    """The near dependencies to report, one per variance-decomposition group, strongest first.
+
+    A group is a condition index at or above the weakest index limit with two
+    or more predictors (the intercept aside) whose variance proportions exceed
+    the proportion limit (Belsley, Kuh & Welsch 1980, sec. 3.3). One below the
+    strongest index limit is kept only when it inflates some member's variance
+    to the ``weak-vif`` level. ``collinearity.vif`` leaves the members of these
+    groups to this finding, which names their VIFs.
+    """
     diagnostics = ctx.collinearity
     graded_thresholds = [t for t in settings.thresholds if t.grade is not None]
     strongest = max(t.grade for t in graded_thresholds if t.grade is not None)
     inflation = {column: term.vif_scale for term in diagnostics.terms for column in term.columns}
-    reported: list[tuple[NearDependency, Grade, Threshold]] = []
+    groups: list[DependencyGroup] = []
     for dependency in diagnostics.near_dependencies(min(t.value for t in graded_thresholds), settings.limit("proportion")):
-        predictors = [name for name, _ in dependency.proportions if name != INTERCEPT]
+        predictors = tuple(name for name, _ in dependency.proportions if name != INTERCEPT)
         graded = settings.grade_of(dependency.index)
         if graded is None or len(predictors) < 2:
             continue
         grade, limit = graded
         if grade < strongest and max(inflation.get(name, 1.0) for name in predictors) < settings.limit("weak-vif"):
             continue
-        reported.append((dependency, grade, limit))
-    if not reported:
+        groups.append(DependencyGroup(dependency, grade, limit, predictors))
+    return groups
+
+
+def _grouped_terms(ctx: RunContext) -> set[str]:
+    """Terms whose every design column belongs to a near-dependency group that ``collinearity.condition`` reports."""
+    settings = _settings_as_run(ctx, CONDITION_RULE)
+    if settings is None or not _ready(ctx):
+        return set()
+    members = {name for group in dependency_groups(ctx, settings) for name in group.members}
+    return {term.term for term in ctx.collinearity.terms if set(term.columns) <= members}
+
+
+def _condition(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    if not _ready(ctx):
         return
-    worst = max(reported, key=lambda item: (item[1], item[0].index))
+    diagnostics = ctx.collinearity
     source_of = _sources(ctx)
-    involved = {name for dependency, _, _ in reported for name, _ in dependency.proportions if name != INTERCEPT}
-    columns = list(dict.fromkeys(source_of[name] for name in ctx.design.column_names if name in involved))
-    parts = [
-        f"index {fmt(dependency.index)} among " + ", ".join(f"{name} ({share:.2f})" for name, share in dependency.proportions)
-        for dependency, _, _ in reported
-    ]
-    yield settings.finding(
-        worst[1],
-        f"the design (columns scaled to unit length, intercept kept) has condition number {fmt(diagnostics.condition_number)}; "
-        f"near dependencies, with each column's share of its coefficient variance: {'; '.join(parts)}",
-        columns=columns,
-        value=diagnostics.condition_number,
-        threshold=worst[2],
-        remedy=f"the columns of each dependency move together: drop or combine some of {_names(columns)}; centre variables "
-        "before forming powers or products of them; collect rows that break the dependence; if the model is for "
-        "prediction only, use a penalised (ridge) or component-based fit",
-        details={
-            "condition_number": diagnostics.condition_number,
-            "dependencies": [
-                {"index": dependency.index, "proportions": dict(dependency.proportions)} for dependency, _, _ in reported
-            ],
-            "condition_indices": [float(v) for v in diagnostics.condition_indices],
-        },
-    )
+    vif_settings = _settings_as_run(ctx, VIF_RULE)
+    inflation = {column: term for term in diagnostics.terms for column in term.columns}
+    for group in dependency_groups(ctx, settings):
+        dependency = group.dependency
+        columns = list(dict.fromkeys(source_of[name] for name in ctx.design.column_names if name in group.members))
+        vifs = {name: inflation[name].gvif for name in group.members if name in inflation}
+        grade, limit = group.grade, group.limit
+        if vif_settings is not None:
+            vif_grades = [g for g, _ in filter(None, (vif_settings.grade_of(inflation[name].vif_scale) for name in vifs))]
+            grade = max([grade, *vif_grades])
+        shares = ", ".join(f"{name} ({share:.2f})" for name, share in dependency.proportions)
+        named_vifs = ", ".join(f"{name} {fmt(value)}" for name, value in vifs.items())
+        yield settings.finding(
+            grade,
+            f"near dependency among {_names(columns)}: condition index {fmt(dependency.index)} of the design (columns scaled "
+            f"to unit length, intercept kept; condition number {fmt(diagnostics.condition_number)}); share of each "
+            f"coefficient's variance in this direction: {shares}; VIFs: {named_vifs or 'none estimable'}",
+            columns=columns,
+            value=dependency.index,
+            threshold=limit,
+            remedy=f"these columns move together: drop or combine some of {_names(columns)}; centre variables "
+            "before forming powers or products of them; collect rows that break the dependence; if the model is for "
+            "prediction only, use a penalised (ridge) or component-based fit",
+            details={
+                "condition_index": dependency.index,
+                "proportions": dict(dependency.proportions),
+                "vifs": vifs,
+                "condition_number": diagnostics.condition_number,
+                "condition_indices": [float(v) for v in diagnostics.condition_indices],
+            },
+        )
 
 
 def _trust_phrase(coef_digits: float, se_digits: float) -> str:
@@ -403,6 +466,32 @@ VIF_RULE = Rule(
 )
 
 
+CONDITION_RULE = Rule(
+    id="collinearity.condition",
+    summary="One finding per near dependency (condition index and variance-decomposition group): its columns and their VIFs.",
+    why="A near dependency among several columns makes the design close to singular: the coefficients of the columns "
+    "involved share a direction the data barely determine, so their variances balloon together and their "
+    "estimates can change sign with a few rows. Condition indices find every such direction and the variance-"
+    "decomposition proportions name the columns caught in it, which pairwise correlations and single VIFs can miss.",
+    remedy="drop or combine variables of the dependency, centre before forming powers or products, collect data "
+    "that breaks the dependence, or use a penalised or component-based fit for prediction only",
+    check=_condition,
+    thresholds=(
+        Threshold("weakens", 10.0, CONDITION_SOURCE, Grade.WEAKENS),
+        Threshold("misleads", 30.0, CONDITION_SOURCE, Grade.MISLEADS),
+        Threshold("proportion", 0.5, CONDITION_SOURCE),
+        Threshold(
+            "weak-vif",
+            5.0,
+            "prefit: a dependency below the strongest index limit is reported only when it inflates some "
+            "involved predictor's variance to the VIF weakens level; one between the intercept and a single "
+            "predictor is never reported (centring removes it without changing a slope: Marquardt 1980, "
+            "JASA 75, 87-91; from memory)",
+        ),
+    ),
+)
+
+
 RULES = [
     Rule(
         id="collinearity.exact",
@@ -413,32 +502,10 @@ RULES = [
         remedy="drop one of the columns in the relation, or replace a total by its parts (or the reverse)",
         check=_exact,
         grades=(Grade.BLOCKS,),
+        repair=_dependency_dropped,
     ),
     VIF_RULE,
-    Rule(
-        id="collinearity.condition",
-        summary="Condition indices of the unit-length-scaled design (intercept kept) and the variables in each near dependency.",
-        why="A near dependency among several columns makes the design close to singular: the coefficients of the columns "
-        "involved share a direction the data barely determine, so their variances balloon together and their "
-        "estimates can change sign with a few rows. Condition indices find every such direction and the variance-"
-        "decomposition proportions name the columns caught in it, which pairwise correlations and single VIFs can miss.",
-        remedy="drop or combine variables of the dependency, centre before forming powers or products, collect data "
-        "that breaks the dependence, or use a penalised or component-based fit for prediction only",
-        check=_condition,
-        thresholds=(
-            Threshold("weakens", 10.0, CONDITION_SOURCE, Grade.WEAKENS),
-            Threshold("misleads", 30.0, CONDITION_SOURCE, Grade.MISLEADS),
-            Threshold("proportion", 0.5, CONDITION_SOURCE),
-            Threshold(
-                "weak-vif",
-                5.0,
-                "prefit: a dependency below the strongest index limit is reported only when it inflates some "
-                "involved predictor's variance to the VIF weakens level; one between the intercept and a single "
-                "predictor is never reported (centring removes it without changing a slope: Marquardt 1980, "
-                "JASA 75, 87-91; from memory)",
-            ),
-        ),
-    ),
+    CONDITION_RULE,
     Rule(
         id="collinearity.pairwise",
         summary="Pairs of predictors with a very high correlation that the VIF findings do not already name.",

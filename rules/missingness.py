@@ -13,8 +13,8 @@ import pyarrow.compute as pc
 from prefit.context import RunContext
 from prefit.design import category_codes
 from prefit.findings import Finding, Grade
-from prefit.roles import Kind
-from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.roles import Kind, apply_missing_codes
+from prefit.rule import COMMON_PRACTICE, Repair, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.blas import one_blas_thread
 from prefit.stats.missingness import PatternMoments, little_mcar, pattern_index
 from prefit.stats.ranks import RankedColumn
@@ -282,6 +282,16 @@ def _codes_finding(
     )
 
 
+def _codes_set_missing(ctx: RunContext, finding: Finding) -> Repair | None:
+    """The table with the finding's codes set missing, as ``--missing-codes`` would declare them."""
+    (column,) = finding.columns
+    codes = tuple(_code_label(code["value"]) for code in finding.details.get("codes", ())) + tuple(finding.details.get("tokens", {}))
+    if not codes:
+        return None
+    table, _ = apply_missing_codes(ctx.table, {column: codes})
+    return Repair(f"{column} with {', '.join(codes)} set missing", table=table)
+
+
 # ---------------------------------------------------------------- mcar
 
 
@@ -529,6 +539,7 @@ RULES = [
             Threshold("repeat-contrast", _SENTINEL_DEFAULTS.repeat_contrast, f"{COMMON_PRACTICE}: times as often as a typical value repeats (a site attribute repeated per day is no code)"),
             Threshold("zero-share", _SENTINEL_DEFAULTS.zero_share, f"{COMMON_PRACTICE}: largest share of rows at zero for zero to count as a code"),
         ),
+        repair=_codes_set_missing,
     ),
     Rule(
         id="missingness.mcar",

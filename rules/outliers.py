@@ -9,7 +9,7 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.findings import MAX_LISTED_ROWS, Finding, Grade
 from prefit.roles import Kind
-from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import COMMON_PRACTICE, Repair, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.chance import chance_check, chance_check_counts, probability_text, t_tail
 from prefit.stats.robust import (
     MODIFIED_Z_FACTOR,
@@ -143,6 +143,39 @@ def _slip(value: float, median: float, mad: float, limit: float, ordered: np.nda
     return None
 
 
+def _suspected_slips(values: np.ndarray, rows: np.ndarray, median: float, mad: float, limit: float) -> dict[int, str]:
+    """The flagged rows whose value looks like a unit or decimal slip, with the factor named (``10x``, ``1/100``)."""
+    ordered = np.sort(values[np.isfinite(values)])
+    return {int(r): s for r in rows if (s := _slip(float(values[r]), median, mad, limit, ordered)) is not None}
+
+
+def _slip_factor(name: str) -> float:
+    """What a slip's value must be multiplied by to undo it: 1/10 for ``10x``, 100 for ``1/100``."""
+    if name.startswith("1/"):
+        return float(name[2:].replace(",", ""))
+    return 1.0 / float(name.rstrip("x").replace(",", ""))
+
+
+def _slips_scaled_back(ctx: RunContext, finding: Finding) -> Repair | None:
+    """The table with the finding's suspected slips divided (or multiplied) back by their power of ten."""
+    if not finding.details.get("suspected_slips") or finding.threshold is None:
+        return None
+    (column,) = finding.columns
+    values = ctx.values(column)
+    median, mad = ctx.median_and_mad(column)
+    rows, _ = beyond_modified_z(values, median, mad, finding.threshold)
+    slips = _suspected_slips(values, rows, median, mad, finding.threshold)
+    if not slips:
+        return None
+    import pyarrow as pa
+
+    repaired = values.copy()
+    for row, name in slips.items():
+        repaired[row] *= _slip_factor(name)
+    table = ctx.table.set_column(ctx.table.column_names.index(column), column, pa.array(repaired, from_pandas=True))
+    return Repair(f"{len(slips):,} {column} value(s) scaled back", table=table)
+
+
 def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     import scipy.stats
 
@@ -166,8 +199,7 @@ def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         check = chance_check_counts(rows.size, present, present * normal_cross, 2.0 * scipy.stats.norm.sf(np.array([size.max()])))
         if not beyond_chance(settings, check):
             continue
-        ordered = np.sort(values[finite])
-        slips = {int(r): s for r in rows if (s := _slip(float(values[r]), median, mad, limit.value, ordered)) is not None}
+        slips = _suspected_slips(values, rows, median, mad, limit.value)
         labels, row_values, total = ctx.listed_rows(rows, row_scores)
         strongest = int(np.argmax(size))
         extreme = rows[strongest]
@@ -297,6 +329,7 @@ RULES = [
         check=_univariate,
         thresholds=(Threshold("weakens", MODIFIED_Z_LIMIT, MODIFIED_Z_SOURCE, Grade.WEAKENS, ">"), CHANCE),
         needs=frozenset({"rows"}),
+        repair=_slips_scaled_back,
     ),
     Rule(
         id="outliers.multivariate",

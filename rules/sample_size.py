@@ -11,7 +11,7 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.design import Design
 from prefit.findings import Finding, Grade
-from prefit.rule import Rule, RuleSettings, Threshold, fmt
+from prefit.rule import Repair, Rule, RuleSettings, Threshold, fmt
 from prefit.stats import planning
 
 RILEY_SOURCE = (
@@ -251,6 +251,42 @@ def _cohen_size(f2: float) -> str:
     return "large or more"
 
 
+CHANCE_INFLATION_ALPHA = 0.01
+
+
+def _inflation_by_chance(ctx: RunContext, finding: Finding) -> Repair | None:
+    """Variance inflation that predictors unrelated to each other would show by chance with this few rows per parameter.
+
+    With ``q`` other predictor columns and ``n`` rows, the auxiliary R-squared
+    of a predictor independent of the others (normal, with an intercept) is
+    Beta(q/2, (n-q-1)/2); a VIF whose auxiliary R-squared this distribution
+    reaches with probability 1% or more (Bonferroni over the q + 1 predictor
+    columns) is explained by the sample size, not by a dependency among the
+    columns. Findings report the R-squared in
+    ``details`` (``auxiliary_r_squared``, or ``vifs`` per column).
+
+    References
+    ----------
+    Kendall & Stuart (1979), The Advanced Theory of Statistics, vol. 2, sec. 27.29 (null distribution of the
+    squared multiple correlation; from memory).
+    """
+    import scipy.stats
+
+    n, p = ctx.design.n, ctx.design.p
+    others = p - 1 - int(ctx.design.intercept)
+    if others < 1 or n - others - 1 <= 0:
+        return None
+    null = scipy.stats.beta(others / 2, (n - others - 1) / 2)
+
+    def settles(other: Finding) -> bool:
+        shares = [1.0 - 1.0 / v for v in other.details.get("vifs", {}).values() if v and v > 0]
+        if "auxiliary_r_squared" in other.details and other.details.get("df", 1) == 1:
+            shares.append(float(other.details["auxiliary_r_squared"]))
+        return bool(shares) and all(float(null.sf(share)) * (others + 1) >= CHANCE_INFLATION_ALPHA for share in shares)
+
+    return Repair(f"{n:,} rows for {p:,} parameters", settles=settles)
+
+
 RULES = [
     Rule(
         id="sample-size.per-parameter",
@@ -265,6 +301,7 @@ RULES = [
             Threshold("misleads", 10, PER_PARAMETER_SOURCE, Grade.MISLEADS, "<"),
             Threshold("weakens", 20, PER_PARAMETER_SOURCE, Grade.WEAKENS, "<"),
         ),
+        repair=_inflation_by_chance,
     ),
     Rule(
         id="sample-size.minimum",

@@ -108,3 +108,33 @@ def row_groups(finding: Finding, limit: int) -> tuple[list[str], int]:
     shown = list(counts.items())[:limit]
     items = [label if n == 1 else f"{label} ({n} rows)" for label, n in shown]
     return items, finding.row_count - sum(n for _, n in shown)
+
+
+def folded(report: "Report") -> list[tuple[Finding, list[Finding]]]:
+    """Each finding without a cause (the fix-first list first, then report order) with the findings folded under it.
+
+    A finding explained by others folds under the root its first cause leads
+    to; one whose causes are not in the report (accepted) stands as a root.
+    """
+    from ..causes import root_of
+
+    findings = report.findings
+    position = {f.key: i for i, f in enumerate(findings) if f.key}
+    causes = [tuple(position[k] for k in f.explained_by if k in position) for f in findings]
+    under: dict[int, list[Finding]] = {}
+    roots: list[int] = []
+    for i in range(len(findings)):
+        root = root_of(i, causes)
+        if root == i:
+            roots.append(i)
+        else:
+            under.setdefault(root, []).append(findings[i])
+    rank = {key: n for n, key in enumerate(report.fix_first)}
+    roots.sort(key=lambda i: (rank.get(findings[i].key, len(rank)), i))
+    return [(findings[i], under.get(i, [])) for i in roots]
+
+
+def fix_first(report: "Report") -> list[tuple[Finding, int]]:
+    """The roots to fix first (most damaging first), each with the number of findings folded under it."""
+    by_key = {root.key: (root, len(effects)) for root, effects in folded(report)}
+    return [by_key[key] for key in report.fix_first if key in by_key]

@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING, Any
 
 from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, count_by_grade
 from ..rule import fmt
-from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
+from .base import ReportWriter, RunFacts, fix_first, folded, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -49,6 +49,8 @@ STYLE = """
 .prefit-report .columns{font-style:italic}
 .prefit-report .label{color:#5b7083}
 .prefit-report .remedy{color:#1e5a1e}
+.prefit-report .explained{margin-left:1.5rem}
+.prefit-report ol.fix-first li{margin:.2rem 0}
 .prefit-report figure{margin:1rem 0}
 .prefit-report figure svg.plot{max-width:100%;height:auto}
 .prefit-report figcaption{color:#5b7083;font-size:.9rem}
@@ -151,15 +153,32 @@ def table_section(report: "Report", findings: list[Finding], run: RunFacts, plot
     sampled = report.engine.sentence() if report.engine is not None else None
     if sampled is not None:
         out.append(f"<p>{esc(sampled)}</p>")
+    first = fix_first(report)
+    if first:
+        items = "".join(
+            f'<li><span class="tag grade-{root.grade.word}">{esc(root.grade.word)}</span> <span class="rule">{esc(root.rule)}</span>'
+            + (f' <span class="columns">{esc(", ".join(root.columns))}</span>' if root.columns else "")
+            + (f' <span class="label">explains {explained} finding{"" if explained == 1 else "s"}</span>' if explained else "")
+            + "</li>"
+            for root, explained in first
+        )
+        out.append(f'<h2>Fix first</h2><ol class="fix-first">{items}</ol>')
     out.append("<h2>Findings</h2>")
     out.append(_counts(report, findings))
     if not findings:
         out.append("<p>No findings.</p>")
+    shown = {f.key for f in findings}
+    roots = [(root, effects) for root, effects in folded(report) if root.key in shown]
     for grade in GRADES_STRONGEST_FIRST:
-        group = [f for f in findings if f.grade is grade]
+        group = [(root, effects) for root, effects in roots if root.grade is grade]
         if group:
             out.append(f'<h3><span class="tag grade-{grade.word}">{esc(grade.word)}</span> {len(group)}: {esc(GRADE_MEANINGS[grade])}</h3>')
-            out.extend(_finding(f, run.why(f.rule)) for f in group)
+            for root, effects in group:
+                out.append(_finding(root, run.why(root.rule)))
+                if effects:
+                    out.append('<div class="explained"><p class="label">explained by the finding above (gone once it is fixed):</p>')
+                    out.extend(_finding(f, run.why(f.rule)) for f in effects)
+                    out.append("</div>")
     out.append(_design(report))
     if plots:
         from .plots import draw_all

@@ -32,7 +32,8 @@ def _finding_text(finding: Finding) -> str:
     columns = f" [{', '.join(finding.columns)}]" if finding.columns else ""
     rows = f" rows: {', '.join(str(r) for r in finding.rows[:10])}" + (f" (+{finding.row_count - 10} more)" if finding.row_count > 10 else "") if finding.rows else ""
     remedy = f"\n  fix: {finding.remedy}" if finding.remedy else ""
-    return xml_text(f"{finding.grade.word}: {finding.rule}{columns}: {finding.message}{rows}{remedy}")
+    causes = f"\n  explained by: {', '.join(finding.explained_by)}" if finding.explained_by else ""
+    return xml_text(f"{finding.grade.word}: {finding.rule}{columns}: {finding.message}{rows}{remedy}{causes}")
 
 
 class JunitWriter(ReportWriter):
@@ -59,6 +60,7 @@ class JunitWriter(ReportWriter):
             ("parameters", str(report.parameters)),
             ("gate", report.gate.word),
             ("accepted", str(len(report.accepted))),
+            ("fix_first", " ".join(report.fix_first)),
         ):
             ET.SubElement(properties, "property", {"name": name, "value": xml_text(value)})
         counts = {"tests": 0, "failures": 0, "errors": 0, "skipped": 0}

@@ -13,7 +13,7 @@ import re
 from typing import TYPE_CHECKING
 
 from ..findings import GRADES_STRONGEST_FIRST, Finding, count_by_grade
-from .base import ReportWriter, RunFacts, row_groups
+from .base import ReportWriter, RunFacts, fix_first, folded, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -75,12 +75,25 @@ class MarkdownWriter(ReportWriter):
         lines.append("|" + "---:|" * (len(words) + 1))
         lines.append("| " + " | ".join(str(counts[w]) for w in words) + f" | {len(report.accepted)} |")
         lines.append("")
+        first = fix_first(report)
+        if first:
+            lines += ["**Fix first**", ""]
+            for number, (root, explained) in enumerate(first, 1):
+                columns = f" ({', '.join(md_text(c) for c in root.columns)})" if root.columns else ""
+                also = f": explains {explained} finding{'' if explained == 1 else 's'}" if explained else ""
+                lines.append(f"{number}. {root.grade.word} `{root.rule}`{columns}{also}")
+            lines.append("")
         if self.findings:
             lines.append("| grade | rule | columns | finding |")
             lines.append("|---|---|---|---|")
-            for f in self.findings:
-                columns = ", ".join(md_text(c) for c in f.columns) or "-"
-                lines.append(f"| {f.grade.word} | `{f.rule}` | {columns} | {md_text(f.message)}{_rows(f)} |")
+            shown = {f.key for f in self.findings}
+            for root, effects in folded(report):
+                if root.key not in shown:
+                    continue
+                for f in [root, *effects]:
+                    columns = ", ".join(md_text(c) for c in f.columns) or "-"
+                    grade = f.grade.word if f is root else f"&#8627; {f.grade.word}"
+                    lines.append(f"| {grade} | `{f.rule}` | {columns} | {md_text(f.message)}{_rows(f)} |")
             lines.append("")
             remedies: list[str] = []
             seen: set[tuple[str, str]] = set()

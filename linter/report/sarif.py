@@ -138,6 +138,7 @@ class SarifWriter(ReportWriter):
                 "threshold": json_number(finding.threshold),
                 "thresholdSource": finding.source,
                 "remedy": finding.remedy,
+                "explainedBy": list(finding.explained_by),
             },
         }
         related = [dict(self._location(finding, label, with_columns=False), id=i + 1) for i, label in enumerate(rows[1:])]

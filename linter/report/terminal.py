@@ -18,7 +18,7 @@ from ..findings import (
     Grade,
     count_by_grade,
 )
-from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
+from .base import ReportWriter, RunFacts, fix_first, folded, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -143,8 +143,22 @@ def render_terminal(report: "Report", colour: bool, width: int | None = None, ex
         console.print(Padding(Text(sampled), (0, 0, 0, INDENT_HEAD)))
     counts = count_by_grade(report.findings)
     told: set[tuple[str, str]] = set()
+    first = fix_first(report)
+    if first:
+        console.print()
+        console.print(Text("FIX FIRST", style="bold"))
+        for number, (root, explained) in enumerate(first, 1):
+            entry = Text(f"{number}. ")
+            entry.append(MARKERS[root.grade], style=f"grade.{root.grade.word}")
+            entry.append(f" {root.rule}", style="finding.rule")
+            if root.columns:
+                entry.append("  " + ", ".join(root.columns), style="finding.columns")
+            if explained:
+                entry.append(f"  (explains {explained} finding{'' if explained == 1 else 's'})", style="facts.label")
+            console.print(Padding(entry, (0, 0, 0, INDENT_HEAD)))
+    roots = folded(report)
     for grade in GRADES_STRONGEST_FIRST:
-        group = [f for f in report.findings if f.grade is grade]
+        group = [(f, effects) for f, effects in roots if f.grade is grade]
         if not group:
             continue
         console.print()
@@ -156,9 +170,18 @@ def render_terminal(report: "Report", colour: bool, width: int | None = None, ex
             Text(f"{len(group)}  ({GRADE_MEANINGS[grade]})", style="facts.label"),
         )
         console.print(heading)
-        for finding in group:
+        for finding, effects in group:
             for indent, line in _finding_lines(finding, (explain or {}).get(finding.rule), told):
                 console.print(Padding(line, (0, 0, 0, indent)))
+            if effects:
+                console.print(Padding(Text("explained by this finding (gone once it is fixed):", style="facts.label"), (0, 0, 0, INDENT_BODY)))
+            for effect in effects:
+                folded_line = Text(MARKERS[effect.grade] + " ", style=f"grade.{effect.grade.word}")
+                folded_line.append(effect.rule, style="finding.rule")
+                if effect.columns:
+                    folded_line.append("  " + ", ".join(effect.columns), style="finding.columns")
+                folded_line.append(": " + effect.message)
+                console.print(Padding(folded_line, (0, 0, 0, INDENT_BODY + 2)))
     console.print()
     summary = ", ".join(f"{n} {word}" for word, n in counts.items())
     if report.failed_rules:
