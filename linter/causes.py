@@ -11,7 +11,9 @@ rule names: a finding the repair leaves standing keeps standing.
 
 Only the rules with findings to re-check run again, each on one rebuilt
 context per root (its design, factor and fit built once and shared by those
-rules), so the cost is one partial run per candidate root.
+rules), so the cost is one partial run per candidate root; a rule declared
+``recheck=False`` (a costly estimate resistant to the other problems by
+design) is not run again and its findings stand.
 """
 
 from __future__ import annotations
@@ -125,6 +127,7 @@ def find_causes(
     report order on a tie) keeps the role of cause.
     """
     rules = {rule.id: (rule, settings) for rule, settings in selected}
+    rechecked = {rule_id for rule_id, (rule, _) in rules.items() if getattr(rule, "recheck", True) and rule_id != RULE_ERROR}
     causes: list[set[int]] = [set() for _ in findings]
     for i, root in enumerate(findings):
         chosen = rules.get(root.rule)
@@ -135,7 +138,7 @@ def find_causes(
             repair = hook(context, root)
             if repair is None:
                 continue
-            candidates = [j for j, f in enumerate(findings) if f.rule != root.rule and f.rule != RULE_ERROR and f.rule in rules]
+            candidates = [j for j, f in enumerate(findings) if f.rule != root.rule and f.rule in rechecked]
             explained = _rechecked(context, repair, candidates, findings, rules)
         except Exception:  # noqa: BLE001  (a failed re-check explains nothing; the findings stand as reported)
             continue

@@ -24,6 +24,7 @@ from .stats.factor import DesignFactor
 from .stats.fit import PreliminaryFit, RowScores
 from .stats.influence import RowInfluence, row_influence
 from .stats.mergeable import Moments
+from .stats.resistant import ResistantFit, resistant_fit
 from .stats.missingness import Holes
 from .stats.robust import RobustColumns, RobustDistances, median_and_mad, robust_distances
 from .stats.summaries import ColumnSummary, ColumnTally, summarise
@@ -136,6 +137,28 @@ class RunContext:
         try:
             return robust_distances(columns.data, columns.names)
         except np.linalg.LinAlgError:
+            return None
+
+    @cached_property
+    def resistant(self) -> ResistantFit | None:
+        """The high-breakdown MM fit of the target on the estimable design (None when it cannot be fitted).
+
+        Expensive: statsmodels' deterministic S- and MM-estimation, on at most
+        1,000 rows chosen by their values (every row is then scored). Its
+        starting subsets are chosen by the continuous predictors of
+        :attr:`robust_columns`. Beyond the row budget it is fitted on the
+        engine's row sample, and pass 2 scores every row of the table.
+        """
+        design = self.design
+        if not self.target_is_numeric or design.n <= self.fit.rank or self.fit.rank == 0:
+            return None
+        names = design.column_names
+        estimable = sorted(int(j) for j in self.factor.perm[: self.fit.rank])
+        starts = [names.index(c) for c in self.robust_columns.names]
+        try:
+            with one_blas_thread():
+                return resistant_fit(design.X, design.y, estimable, starts)
+        except (ValueError, np.linalg.LinAlgError):
             return None
 
     @cached_property

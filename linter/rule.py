@@ -138,6 +138,9 @@ class Rule:
     ``repair`` declares the rule's findings candidate roots: given one of its
     findings, it returns the :class:`Repair` that would fix it (or None), and
     :mod:`prefit.causes` re-checks which other findings that repair removes.
+    ``recheck=False`` keeps the rule out of those re-checks (its findings
+    stand as reported): for a rule whose estimate is resistant to the other
+    problems by design and too costly to repeat for every candidate root.
     """
 
     id: str
@@ -150,6 +153,7 @@ class Rule:
     needs: frozenset[str] = frozenset()
     heavy: bool = False
     repair: RepairHook | None = None
+    recheck: bool = True
 
     @property
     def family(self) -> str:

@@ -13,7 +13,7 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.design import INTERCEPT
 from prefit.findings import Finding, Grade, RowLabel
-from prefit.rule import Rule, RuleSettings, Threshold, fmt
+from prefit.rule import Repair, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.chance import (
     chance_check,
     cooks_tail,
@@ -22,6 +22,7 @@ from prefit.stats.chance import (
     t_tail,
 )
 from prefit.stats.influence import group_deletion
+from prefit.stats.resistant import RESIDUAL_LIMIT, RowClass, classify
 
 from ._rowfindings import (
     CHANCE,
@@ -33,6 +34,8 @@ from ._rowfindings import (
     rows_text,
     single_row_impacts,
 )
+
+ROBUST_QUANTILE = 0.975
 
 LEVERAGE_SOURCE = "Hoaglin & Welsch (1978), The American Statistician 32(1); Velleman & Welsch (1981), The American Statistician 35(4)"
 COOK_MEDIAN_SOURCE = "Cook & Weisberg (1982), Residuals and Influence in Regression, sec. 3.4: D_i beyond the median of F(p, n-p)"
@@ -292,6 +295,112 @@ def _dfbetas(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     )
 
 
+# ---------------------------------------------------------------- robust distortion
+
+ROBUST_SOURCE = (
+    "Rousseeuw & van Zomeren (1990), JASA 85: |standardized residual| > 2.5 from a high-breakdown fit, robust "
+    "squared distance beyond the chi-square 0.975 quantile"
+)
+DISTORTION_SOURCE = (
+    "Belsley, Kuh & Welsch (1980), sec. 2.1: a coefficient moved by a whole standard error is a material change "
+    "(the DFBETAS > 1 limit), applied to deleting the rows together (Cook & Weisberg 1982, sec. 3.6)"
+)
+
+
+def robust_classes(ctx: RunContext, residual_limit: float = RESIDUAL_LIMIT) -> tuple[np.ndarray, float] | None:
+    """Each complete row's :class:`RowClass` under the MM fit and the MCD distances, with the squared-distance cutoff; None without both."""
+    import scipy.stats
+
+    resistant, robust = ctx.resistant, ctx.robust
+    if resistant is None or robust is None:
+        return None
+    cutoff = float(scipy.stats.chi2.ppf(ROBUST_QUANTILE, len(robust.columns)))
+    return classify(resistant.residual, robust.squared, cutoff, residual_limit), cutoff
+
+
+def _hidden_distorting(ctx: RunContext, classes: np.ndarray, least_squares_limit: float) -> np.ndarray:
+    """Per complete row: a vertical outlier or bad leverage point whose least-squares studentized residual stays within the limit."""
+    studentized = np.abs(np.nan_to_num(ctx.influence.studentized, nan=0.0))
+    distorting = (classes == RowClass.VERTICAL) | (classes == RowClass.BAD_LEVERAGE)
+    return distorting & (studentized <= least_squares_limit)
+
+
+def _distorting_rows_removed(ctx: RunContext, finding: Finding) -> Repair | None:
+    """The table with the target of the finding's rows set missing: the fit without the rows that distort it."""
+    import pyarrow as pa
+
+    classified = robust_classes(ctx, float(finding.details["residual_limit"]))
+    if classified is None:
+        return None
+    hidden = _hidden_distorting(ctx, classified[0], float(finding.details["least_squares_limit"]))
+    target = ctx.roles.target
+    values = np.array(ctx.values(target), dtype=float)
+    values[ctx.design.positions[hidden]] = np.nan
+    table = ctx.table.set_column(ctx.table.column_names.index(target), target, pa.array(values, from_pandas=True))
+    return Repair(f"{int(hidden.sum()):,} distorting rows left out", table=table)
+
+
+def _robust_distortion(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    import scipy.stats
+
+    if not _usable(ctx):
+        return
+    residual_limit = settings.limit("residual")
+    classified = robust_classes(ctx, residual_limit)
+    resistant = ctx.resistant
+    if classified is None or resistant is None:
+        return
+    classes, cutoff = classified
+    studentized = np.abs(np.nan_to_num(ctx.influence.studentized, nan=0.0))
+    hidden = _hidden_distorting(ctx, classes, settings.limit("least-squares"))
+    if not hidden.any():
+        return
+    n = ctx.design.n
+    size = np.abs(resistant.residual)
+    tail = 2.0 * scipy.stats.norm.sf(residual_limit)
+    check = chance_check(hidden, n * tail, 2.0 * scipy.stats.norm.sf(np.array([size[hidden].max()])))
+    if not beyond_chance(settings, check):
+        return
+    rows = np.flatnonzero(hidden)
+    group = group_deletion(ctx.fit, ctx.design.X[rows], ctx.row_scores.residual[rows])
+    moved = movement(ctx, group.shift, group.se_after)
+    largest = moved.largest()
+    shift = abs(largest[1]) if largest is not None else (float("inf") if not np.isfinite(group.cooks) else 0.0)
+    graded = settings.grade_of(shift)
+    if graded is None:
+        return
+    grade, limit = graded
+    bad = int(np.count_nonzero(classes[rows] == RowClass.BAD_LEVERAGE))
+    good = int(np.count_nonzero(classes == RowClass.GOOD_LEVERAGE))
+    labels, values, total = _listed(ctx, rows, resistant.residual[rows])
+    sampled = "" if resistant.sampled == n else f"; the robust fit was estimated on a fixed sample of {resistant.sampled:,} rows"
+    yield settings.finding(
+        grade,
+        f"{rows_text(total)} ({bad:,} bad leverage point{'' if bad == 1 else 's'}, {total - bad:,} vertical outlier"
+        f"{'' if total - bad == 1 else 's'}) lie beyond {residual_limit:g} robust SDs of a high-breakdown (MM) fit, yet "
+        f"the least-squares residuals hide them (|studentized residual| at most {fmt(float(studentized[rows].max()))}): "
+        f"they pull the least-squares line onto themselves; {group_message(ctx, group)}; {good:,} good leverage "
+        f"point{'' if good == 1 else 's'} lie far out in the predictors but on the robust line ({check.describe()}{sampled})",
+        rows=labels,
+        row_values=values,
+        row_count=total,
+        value=shift,
+        threshold=limit,
+        details={
+            "bad_leverage": bad,
+            "vertical_outliers": total - bad,
+            "good_leverage": good,
+            "robust_scale": resistant.scale,
+            "distance_cutoff": cutoff,
+            "estimated_on_rows": resistant.sampled,
+            "residual_limit": residual_limit,
+            "least_squares_limit": settings.limit("least-squares"),
+            "group_deletion": {"rows": group.rows, "cooks_distance": group.cooks, **moved.as_details()},
+            **chance_details(check),
+        },
+    )
+
+
 RULES = [
     Rule(
         id="influence.leverage",
@@ -349,6 +458,28 @@ RULES = [
         thresholds=(
             Threshold("misleads", 1, BKW_SOURCE + ": |DFBETAS| > 1", Grade.MISLEADS, ">"),
             Threshold("weakens", 2, BKW_SOURCE + ": |DFBETAS| > 2/sqrt(n) (value is the numerator)", Grade.WEAKENS, ">"),
+            CHANCE,
+        ),
+        needs=frozenset({"rows", "fit"}),
+    ),
+    Rule(
+        id="influence.robust-distortion",
+        summary="Rows a high-breakdown fit calls bad leverage points or vertical outliers while the least-squares residuals hide them.",
+        why="A group of wrong rows far out in the predictors pulls the least-squares line onto itself: their own "
+        "residuals look ordinary and the good rows look odd instead (masking and swamping), so every diagnostic "
+        "computed from the least-squares fit points at the wrong rows. A fit that half the rows cannot break shows "
+        "which rows disagree with the bulk, and the robust distance which of them sit far out in the predictors.",
+        remedy="check the listed rows at the source; correct or remove wrong rows, and compare the least-squares fit "
+        "with a robust (MM) fit before trusting either",
+        check=_robust_distortion,
+        heavy=True,
+        recheck=False,
+        repair=_distorting_rows_removed,
+        thresholds=(
+            Threshold("misleads", 1.0, DISTORTION_SOURCE, Grade.MISLEADS, ">="),
+            Threshold("weakens", 0.5, "common practice: half a standard error, half the misleads limit", Grade.WEAKENS, ">="),
+            Threshold("residual", RESIDUAL_LIMIT, ROBUST_SOURCE),
+            Threshold("least-squares", 3.0, "common practice: |externally studentized residual| > 3, the limit outliers.studentized-residual flags at"),
             CHANCE,
         ),
         needs=frozenset({"rows", "fit"}),

@@ -196,14 +196,22 @@ def _row_hashes(data: np.ndarray, order: np.ndarray) -> np.ndarray:
     return mixed
 
 
+def content_sample_positions(data: np.ndarray, order: np.ndarray, sample_rows: int) -> np.ndarray:
+    """Positions of at most ``sample_rows`` rows chosen by a hash of their values (columns in ``order``), in lexicographic order of those values.
+
+    The choice and the order depend on the rows' values only, never on their
+    order in the file.
+    """
+    picked = np.argpartition(_row_hashes(data, order), sample_rows - 1)[:sample_rows] if data.shape[0] > sample_rows else np.arange(data.shape[0])
+    if data.shape[1] == 0:
+        return picked
+    sample = data[picked][:, order]
+    return picked[np.lexsort(sample.T[::-1])]
+
+
 def _content_sample(data: np.ndarray, order: np.ndarray, sample_rows: int) -> np.ndarray:
     """At most ``sample_rows`` rows chosen by content, columns in ``order``, in lexicographic order of their values."""
-    if data.shape[0] > sample_rows:
-        data = data[np.argpartition(_row_hashes(data, order), sample_rows - 1)[:sample_rows]]
-    sample = data[:, order]
-    if sample.shape[1] == 0:
-        return sample
-    return sample[np.lexsort(sample.T[::-1])]
+    return data[content_sample_positions(data, order, sample_rows)][:, order]
 
 
 def robust_distances(data: np.ndarray, columns: tuple[str, ...], sample_rows: int = MCD_SAMPLE_ROWS) -> RobustDistances:
