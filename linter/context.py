@@ -24,8 +24,8 @@ from .stats.factor import DesignFactor
 from .stats.fit import PreliminaryFit, RowScores
 from .stats.influence import RowInfluence, row_influence
 from .stats.mergeable import Moments
-from .stats.resistant import ResistantFit, resistant_fit
 from .stats.missingness import Holes
+from .stats.resistant import ResistantFit, resistant_fit
 from .stats.robust import RobustColumns, RobustDistances, median_and_mad, robust_distances
 from .stats.summaries import ColumnSummary, ColumnTally, summarise
 from .stats.textnumbers import TextNumbers
