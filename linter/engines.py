@@ -258,11 +258,13 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
         fit = None
     terms = statistics.model.terms(roles.kinds) if fit is not None else ()
     robust = robust_centre(context) if fit is not None else None
+    line = context.resistant if fit is not None and robust is not None else None
+    resistant = (line, context.design.terms) if line is not None else None
     fences = column_fences(context)
     if fit is not None or fences is not None:
 
         def pass_two(batch: pa.Table, offset: int) -> tuple[MeasureScreen, ...]:
-            return second_pass(conformed(batch, schema, codes), offset, roles, terms, fit, robust, fences)
+            return second_pass(conformed(batch, schema, codes), offset, roles, terms, fit, robust, fences, resistant)
 
         screens = runner.map_merge(pass_two, merge_screens, "pass 2")
     return context, EngineRun(runner.name, kept.seen, kept.table.num_rows, statistics.model.rows, screens, fences=fences)

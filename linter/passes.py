@@ -25,6 +25,7 @@ from .stats.factor import DesignFactor
 from .stats.fit import PreliminaryFit
 from .stats.influence import row_influence
 from .stats.mergeable import Moments, TriangularFactor, triangular
+from .stats.resistant import RESIDUAL_LIMIT, ResistantFit
 from .stats.robust import MODIFIED_Z_LIMIT, modified_z, squared_distances
 from .stats.summaries import ColumnTally
 
@@ -37,6 +38,7 @@ SCREENED_RULES = {
     "dfbetas": "influence.dfbetas",
     "robust_distance": "outliers.multivariate",
     "modified_z": "outliers.univariate",
+    "robust_residual": "influence.robust-distortion",
 }
 ROBUST_QUANTILE = 0.975
 FENCE_CONFIDENCE = 0.99
@@ -331,6 +333,7 @@ def second_pass(
     fit: PreliminaryFit | None,
     robust: RobustCentre | None = None,
     fences: ColumnFences | None = None,
+    resistant: tuple[ResistantFit, Sequence[Term]] | None = None,
 ) -> tuple[MeasureScreen, ...]:
     """Pass 2 over one batch: every complete row's hat value and deletion measures against the whole-table fit.
 
@@ -338,7 +341,10 @@ def second_pass(
     measures are compared in absolute value. With ``robust``, each complete
     row's squared robust distance from it is screened too; with ``fences``,
     every value of each fenced column (complete row or not) by its modified
-    z-score from the sample's median and MAD.
+    z-score from the sample's median and MAD; with ``resistant`` (the
+    sample's high-breakdown fit and the terms of the sample's design, whose
+    reference levels may differ from the whole table's), each complete row's
+    standardized robust residual.
     """
     columns = ModelColumns.of(batch, roles)
     screens: list[MeasureScreen] = []
@@ -358,6 +364,11 @@ def second_pass(
             data = np.column_stack([columns.numeric[name][positions] for name in robust.columns])
             measured["robust_distance"] = squared_distances(data, robust.location, robust.scatter)
             all_cutoffs["robust_distance"] = robust.cutoffs()
+        if resistant is not None:
+            line, line_terms = resistant
+            line_X, line_y, _ = columns.coded(roles, fit.has_intercept, {t.source: t.levels for t in line_terms if t.reference is not None})
+            measured["robust_residual"] = np.abs(line.standardized(line_X, line_y))
+            all_cutoffs["robust_residual"] = ((f"{RESIDUAL_LIMIT:g}", RESIDUAL_LIMIT),)
         screens = [_screen(batch, offset, roles, measure, cutoffs, measured[measure], positions) for measure, cutoffs in all_cutoffs.items()]
     if fences is not None:
         cutoff = ((f"{fences.limit:g}", fences.limit),)

@@ -22,7 +22,7 @@ from prefit.stats.chance import (
     t_tail,
 )
 from prefit.stats.influence import group_deletion
-from prefit.stats.resistant import RESIDUAL_LIMIT, RowClass, classify
+from prefit.stats.resistant import RESIDUAL_LIMIT, RowClass, classify, distance_cutoff
 
 from ._rowfindings import (
     CHANCE,
@@ -34,8 +34,6 @@ from ._rowfindings import (
     rows_text,
     single_row_impacts,
 )
-
-ROBUST_QUANTILE = 0.975
 
 LEVERAGE_SOURCE = "Hoaglin & Welsch (1978), The American Statistician 32(1); Velleman & Welsch (1981), The American Statistician 35(4)"
 COOK_MEDIAN_SOURCE = "Cook & Weisberg (1982), Residuals and Influence in Regression, sec. 3.4: D_i beyond the median of F(p, n-p)"
@@ -309,12 +307,10 @@ DISTORTION_SOURCE = (
 
 def robust_classes(ctx: RunContext, residual_limit: float = RESIDUAL_LIMIT) -> tuple[np.ndarray, float] | None:
     """Each complete row's :class:`RowClass` under the MM fit and the MCD distances, with the squared-distance cutoff; None without both."""
-    import scipy.stats
-
     resistant, robust = ctx.resistant, ctx.robust
     if resistant is None or robust is None:
         return None
-    cutoff = float(scipy.stats.chi2.ppf(ROBUST_QUANTILE, len(robust.columns)))
+    cutoff = distance_cutoff(len(robust.columns))
     return classify(resistant.residual, robust.squared, cutoff, residual_limit), cutoff
 
 

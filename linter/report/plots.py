@@ -22,6 +22,7 @@ from ..accepted import RowDigester
 from ..design import INTERCEPT
 from ..findings import RowLabel
 from ..rule import fmt
+from ..stats.resistant import RESIDUAL_LIMIT, RowClass, classify, distance_cutoff
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
@@ -351,7 +352,65 @@ def ranges(report: "Report", key: str = "ranges") -> Plot | None:
     return Plot(key, "Observed and intended ranges", _svg(figure, key), caption)
 
 
-PLOTS = (influence, missingness, collinearity, ranges)
+ROBUST_RULE = "influence.robust-distortion"
+CLASS_COLOURS = {
+    RowClass.REGULAR: "#5b7083",
+    RowClass.VERTICAL: "#c77700",
+    RowClass.GOOD_LEVERAGE: "#3d6e99",
+    RowClass.BAD_LEVERAGE: "#b3261e",
+}
+
+
+def robust_map(report: "Report", key: str = "robust_map") -> Plot | None:
+    """Robust distance against standardized robust residual (Rousseeuw & van Zomeren 1990), rows coloured by class.
+
+    Drawn only when ``influence.robust-distortion`` ran, from the run's shared
+    high-breakdown fit and MCD distances (never fitted here).
+    """
+    ctx = report.context
+    if ctx is None or not any(o.rule == ROBUST_RULE and o.error is None and o.not_applicable is None for o in report.outcomes):
+        return None
+    resistant, robust = ctx.resistant, ctx.robust
+    if resistant is None or robust is None:
+        return None
+    cutoff = distance_cutoff(len(robust.columns))
+    distance, residual = np.sqrt(robust.squared), resistant.residual
+    classes = classify(residual, robust.squared, cutoff)
+    finite = np.flatnonzero(np.isfinite(distance) & np.isfinite(residual))
+    if finite.size == 0:
+        return None
+    unusual = finite[classes[finite] != RowClass.REGULAR]
+    shown = np.union1d(unusual, _evenly(finite, MAX_POINTS))
+    figure = _figure(7.0, 4.6)
+    axes = figure.add_subplot(1, 1, 1)
+    counts: dict[RowClass, int] = {}
+    for row_class, colour in CLASS_COLOURS.items():
+        chosen = shown[classes[shown] == row_class]
+        counts[row_class] = int(np.count_nonzero(classes[finite] == row_class))
+        if chosen.size:
+            axes.scatter(distance[chosen], residual[chosen], s=14, color=colour, linewidths=0, alpha=0.8, label=f"{row_class.word} ({counts[row_class]:,})", rasterized=chosen.size > RASTER_POINTS)
+    for level in (RESIDUAL_LIMIT, -RESIDUAL_LIMIT):
+        axes.axhline(level, linestyle="--", color=COLOURS["contour"], linewidth=1)
+    axes.axvline(float(np.sqrt(cutoff)), linestyle=":", color=COLOURS["contour"], linewidth=1)
+    labelled = 0
+    for i in unusual[np.argsort(-np.abs(residual[unusual]), kind="stable")][:MAX_LABELS]:
+        axes.annotate(_plain(ctx.row_label(int(ctx.design.positions[i]))), (distance[i], residual[i]), xytext=(4, 4), textcoords="offset points", fontsize=7, color=CLASS_COLOURS[RowClass(int(classes[i]))])
+        labelled += 1
+    axes.set_xlabel(f"robust distance (MCD of {len(robust.columns)} predictors)")
+    axes.set_ylabel("standardized residual of the robust (MM) fit")
+    axes.legend(loc="best", fontsize=7, frameon=False)
+    axes.grid(alpha=0.25)
+    sampled = "" if shown.size == finite.size else f" Showing {shown.size:,} of {finite.size:,} rows (every row outside the regular class included)."
+    caption = (
+        f"Each point is a complete case; dashed lines are +/-{RESIDUAL_LIMIT:g} robust SDs, the dotted line the square root of "
+        f"the chi-square 0.975 quantile ({np.sqrt(cutoff):.2f}). Bad leverage points (far out and off the line) distort a "
+        f"least-squares fit; good leverage points (far out, on the line) do not. {labelled} most extreme unusual row(s) labelled."
+        + sampled
+    )
+    return Plot(key, "Robust residuals and robust distances", _svg(figure, key), caption)
+
+
+PLOTS = (influence, robust_map, missingness, collinearity, ranges)
 
 
 def draw_all(report: "Report", prefix: str = "") -> list[Plot]:

@@ -26,6 +26,7 @@ from .robust import content_sample_positions
 
 RESISTANT_SAMPLE_ROWS = 1_000
 RESIDUAL_LIMIT = 2.5
+DISTANCE_QUANTILE = 0.975
 
 
 class RowClass(enum.IntEnum):
@@ -113,3 +114,10 @@ def classify(residual: np.ndarray, squared_distance: np.ndarray, distance_cutoff
     classes[far & ~off] = RowClass.GOOD_LEVERAGE
     classes[far & off] = RowClass.BAD_LEVERAGE
     return classes
+
+
+def distance_cutoff(variables: int) -> float:
+    """The squared robust distance beyond which a row is a leverage point: the chi-square 0.975 quantile."""
+    import scipy.stats
+
+    return float(scipy.stats.chi2.ppf(DISTANCE_QUANTILE, variables))
