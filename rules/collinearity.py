@@ -249,14 +249,13 @@ def _settings_as_run(ctx: RunContext, rule: Rule) -> RuleSettings | None:
 
 
 def _pairs_reported_by_vif(ctx: RunContext) -> set[frozenset[str]]:
-    """Pairs of predictors a VIF finding or a near-dependency finding already names together."""
+    """Pairs of predictors a VIF finding names together, or both caught in reported near dependencies."""
     covered: set[frozenset[str]] = set()
     condition = _settings_as_run(ctx, CONDITION_RULE)
     if condition is not None:
         source_of = _sources(ctx)
-        for group in dependency_groups(ctx, condition):
-            sources = sorted({source_of[name] for name in group.members})
-            covered.update(frozenset((a, b)) for i, a in enumerate(sources) for b in sources[i + 1 :])
+        sources = sorted({source_of[name] for group in dependency_groups(ctx, condition) for name in group.members})
+        covered.update(frozenset((a, b)) for i, a in enumerate(sources) for b in sources[i + 1 :])
     settings = _settings_as_run(ctx, VIF_RULE)
     if settings is None:
         return covered

@@ -1,0 +1,133 @@
+"""Root causes: planted problems in invented tables are reported first and explain the findings they cause.
+
+The planted tables are invented (cold-storage site-days, see /work/shared/SCENARIO.md): each has one known
+root (a -999 code, a x100 unit slip, an omitted square term). The check is the one a user needs: the root
+opens ``fix_first``, and at most one finding at ``weakens`` or above is left unexplained besides it.
+NIST's Longley data (certified, tests/reference/nist-strd) checks the near-dependency grouping.
+"""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pandas as pd
+import pytest
+from nist_strd import load
+
+from prefit.api import check
+from prefit.causes import persists
+from prefit.findings import Finding, Grade
+
+ROWS = 600
+
+
+def invented_site_days(seed: int) -> pd.DataFrame:
+    """Invented site-days with a linear energy response (no measurement)."""
+    rng = np.random.default_rng(seed)
+    outdoor = rng.uniform(2.0, 32.0, ROWS).round(1)
+    doors = rng.integers(50, 800, ROWS).astype(float)
+    pallets = rng.uniform(1_000, 9_000, ROWS).round(0)
+    energy = 2_000 + 90 * outdoor + 1.5 * doors + 0.4 * pallets + rng.normal(0, 150, ROWS)
+    return pd.DataFrame({"outdoor_c": outdoor, "door_openings": doors, "pallets_stored": pallets, "energy_kwh": energy.round(1)})
+
+
+def with_code(frame: pd.DataFrame) -> pd.DataFrame:
+    planted = frame.copy()
+    rows = np.random.default_rng(5).choice(ROWS, ROWS // 20, replace=False)
+    planted.loc[rows, "door_openings"] = -999.0
+    return planted
+
+
+def with_slip(frame: pd.DataFrame) -> pd.DataFrame:
+    planted = frame.copy()
+    planted.loc[137, "energy_kwh"] = planted.loc[137, "energy_kwh"] * 100
+    return planted
+
+
+def with_bend(frame: pd.DataFrame) -> pd.DataFrame:
+    planted = frame.copy()
+    planted["energy_kwh"] = (planted["energy_kwh"] + 9.0 * (planted["outdoor_c"] - 17.0) ** 2).round(1)
+    return planted
+
+
+@pytest.mark.parametrize(
+    ("plant", "root_rule", "root_column"),
+    [
+        (with_code, "missingness.disguised-codes", "door_openings"),
+        (with_slip, "outliers.univariate", "energy_kwh"),
+        (with_bend, "assumptions.nonlinearity", "outdoor_c"),
+    ],
+)
+def test_a_planted_root_opens_the_fix_first_list_and_explains_the_rest(plant, root_rule: str, root_column: str) -> None:
+    clean = check(invented_site_days(11), "energy_kwh")
+    report = check(plant(invented_site_days(11)), "energy_kwh")
+    by_key = {f.key: f for f in report.findings}
+    first = by_key[report.fix_first[0]]
+    assert (first.rule, first.columns) == (root_rule, (root_column,))
+    unexplained = [f for f in report.findings if f.grade >= Grade.WEAKENS and not f.explained_by and f.key != first.key]
+    assert len(unexplained) <= 1, [(f.rule, f.columns) for f in unexplained]
+    # The root explains findings the clean table does not have: a cascade, not a coincidence.
+    explained = [f for f in report.findings if first.key in f.explained_by]
+    clean_rules = {f.rule for f in clean.findings}
+    assert any(f.rule not in clean_rules for f in explained)
+
+
+def test_the_bend_is_graded_by_its_effect() -> None:
+    report = check(with_bend(invented_site_days(11)), "energy_kwh")
+    (bend,) = [f for f in report.findings if f.rule == "assumptions.nonlinearity"]
+    # Cohen (1988) sec. 9.2.2: f^2 = 0.15 is a medium effect (the misleads limit)
+    assert bend.grade is Grade.MISLEADS
+    assert bend.details["f_squared"] >= 0.15 or max(bend.details["misses_in_residual_sd"].values()) >= 2.0
+
+
+def test_every_json_finding_has_its_key_and_causes_and_fix_first_lists_roots() -> None:
+    report = check(with_code(invented_site_days(11)), "energy_kwh")
+    document = json.loads(report.to_json())
+    keys = [f["key"] for f in document["findings"]]
+    assert keys == [p.digest for p in report.fingerprints]
+    roots = {f["key"] for f in document["findings"] if not f["explained_by"] and f["grade"] != "note"}
+    assert set(document["fix_first"]) == roots
+    assert all(set(f["explained_by"]) <= set(keys) for f in document["findings"])
+
+
+def test_the_text_report_opens_with_the_fix_first_list() -> None:
+    text = check(with_slip(invented_site_days(11)), "energy_kwh").render("text")
+    assert text.index("FIX FIRST") < text.index(" WEAKENS ") < text.index("explained by this finding")
+
+
+def test_a_finding_persists_only_at_its_place_and_grade() -> None:
+    before = Finding("outliers.univariate", Grade.WEAKENS, "m", columns=("a",), rows=(1, 2, 3, 4))
+    assert persists(before, [Finding("outliers.univariate", Grade.WEAKENS, "m", columns=("a",), rows=(1, 2, 9))])
+    assert not persists(before, [Finding("outliers.univariate", Grade.WEAKENS, "m", columns=("a",), rows=(1, 9))])
+    assert not persists(before, [Finding("outliers.univariate", Grade.NOTE, "m", columns=("a",), rows=(1, 2, 3, 4))])
+    assert not persists(before, [Finding("outliers.univariate", Grade.WEAKENS, "m", columns=("b",), rows=(1, 2, 3, 4))])
+
+
+def test_longley_reports_one_finding_per_near_dependency_instead_of_one_per_column() -> None:
+    # source: NIST StRD Longley (tests/reference/nist-strd), certified data; its six predictors are
+    # nearly collinear (VIFs in the hundreds and thousands; Longley 1967, JASA 62)
+    data = load("Longley")
+    report = check(data.table, data.target)
+    groups = [f for f in report.findings if f.rule == "collinearity.condition"]
+    assert [f for f in report.findings if f.rule == "collinearity.vif"] == []
+    assert 1 <= len(groups) <= 2
+    for group in groups:
+        assert len(group.columns) >= 2
+        assert set(group.details["vifs"]) == set(group.columns)
+        assert "near dependency among" in group.message
+    named = {c for f in groups for c in f.columns}
+    assert {"x2", "x6"} <= named
+
+
+def test_vifs_within_chance_for_few_rows_point_to_the_sample_size() -> None:
+    # reference: under independent normal predictors the auxiliary R^2 is Beta(q/2, (n-q-1)/2)
+    # (Kendall & Stuart 1979, sec. 27.29, from memory); with 90 rows for 80 parameters VIFs near 10 are chance
+    rng = np.random.default_rng(3)
+    frame = pd.DataFrame(rng.normal(size=(90, 79)), columns=[f"x{i}" for i in range(79)])
+    frame["y"] = frame["x0"] + rng.normal(size=90)
+    report = check(frame, "y")
+    (size,) = [f for f in report.findings if f.rule == "sample-size.per-parameter"]
+    vifs = [f for f in report.findings if f.rule == "collinearity.vif"]
+    assert vifs
+    assert sum(size.key in f.explained_by for f in vifs) >= 0.9 * len(vifs)
