@@ -123,12 +123,14 @@ def find_causes(
 
     A repair hook that fails leaves its finding a root and explains nothing:
     the causes are an aid to reading, never a reason for a run to fail.
-    When two findings would explain each other, the stronger (earlier in
-    report order on a tie) keeps the role of cause.
+    When two findings would explain each other, the one whose fix touches
+    fewer rows keeps the role of cause (a few wrong rows can bend a fit; a
+    bend does not make a few rows wrong), then the stronger, then the earlier.
     """
     rules = {rule.id: (rule, settings) for rule, settings in selected}
     rechecked = {rule_id for rule_id, (rule, _) in rules.items() if getattr(rule, "recheck", True) and rule_id != RULE_ERROR}
     causes: list[set[int]] = [set() for _ in findings]
+    size: dict[int, int] = {}
     for i, root in enumerate(findings):
         chosen = rules.get(root.rule)
         hook = getattr(chosen[0], "repair", None) if chosen is not None else None
@@ -138,6 +140,7 @@ def find_causes(
             repair = hook(context, root)
             if repair is None:
                 continue
+            size[i] = repair.rows
             candidates = [j for j, f in enumerate(findings) if f.rule != root.rule and f.rule in rechecked]
             explained = _rechecked(context, repair, candidates, findings, rules)
         except Exception:  # noqa: BLE001  (a failed re-check explains nothing; the findings stand as reported)
@@ -147,7 +150,7 @@ def find_causes(
     for j in range(len(findings)):
         for i in sorted(causes[j]):
             if j in causes[i]:
-                if (findings[i].grade, -i) >= (findings[j].grade, -j):
+                if (-size[i], findings[i].grade, -i) >= (-size[j], findings[j].grade, -j):
                     causes[i].discard(j)
                 else:
                     causes[j].discard(i)

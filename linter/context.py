@@ -157,8 +157,9 @@ class RunContext:
         starts = [names.index(c) for c in self.robust_columns.names]
         try:
             with one_blas_thread():
-                return resistant_fit(design.X, design.y, estimable, starts)
-        except (ValueError, np.linalg.LinAlgError):
+                return resistant_fit(design.X, design.y, estimable, starts, names)
+        except (ValueError, ArithmeticError, np.linalg.LinAlgError):
+            # statsmodels divides by a zero scale on degenerate tables (ZeroDivisionError)
             return None
 
     @cached_property

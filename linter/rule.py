@@ -86,10 +86,13 @@ class Repair:
     columns the repair adds (a curve term), which are ignored when findings
     are compared. Or ``settles`` judges a finding directly, for a root whose
     fix cannot be written as a table (more rows): it says whether the root
-    alone accounts for the finding.
+    alone accounts for the finding. ``rows`` is how many rows the fix
+    touches: when two roots would explain each other, the smaller fix is
+    taken for the cause.
     """
 
     description: str
+    rows: int
     table: "pa.Table | None" = None
     options: "CheckOptions | None" = None
     added: tuple[str, ...] = ()

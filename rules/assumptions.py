@@ -270,7 +270,7 @@ def _bend_allowed_for(ctx: RunContext, finding: Finding) -> Repair | None:
     repaired = np.array(ctx.values(target), dtype=float)
     repaired[design.positions] = design.y - residual + curved.residual
     table = ctx.table.set_column(ctx.table.column_names.index(target), target, pa.array(repaired, from_pandas=True))
-    return Repair(f"a square term for {', '.join(bent)}", table=table)
+    return Repair(f"a square term for {', '.join(bent)}", rows=design.n, table=table)
 
 
 def _residual_normality(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:

@@ -144,7 +144,7 @@ def _dependency_dropped(ctx: RunContext, finding: Finding) -> Repair | None:
         options = replace(options, predictors=tuple(c for c in options.predictors if c != source))
     else:
         options = replace(options, exclude=(*options.exclude, source))
-    return Repair(f"{source} left out", table=ctx.table, options=options)
+    return Repair(f"{source} left out", rows=design.n, table=ctx.table, options=options)
 
 
 def _ready(ctx: RunContext) -> bool:

@@ -333,7 +333,7 @@ def _distorting_rows_removed(ctx: RunContext, finding: Finding) -> Repair | None
     values = np.array(ctx.values(target), dtype=float)
     values[ctx.design.positions[hidden]] = np.nan
     table = ctx.table.set_column(ctx.table.column_names.index(target), target, pa.array(values, from_pandas=True))
-    return Repair(f"{int(hidden.sum()):,} distorting rows left out", table=table)
+    return Repair(f"{int(hidden.sum()):,} distorting rows left out", rows=int(hidden.sum()), table=table)
 
 
 def _robust_distortion(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
@@ -469,11 +469,10 @@ RULES = [
         "with a robust (MM) fit before trusting either",
         check=_robust_distortion,
         heavy=True,
-        recheck=False,
         repair=_distorting_rows_removed,
         thresholds=(
-            Threshold("misleads", 1.0, DISTORTION_SOURCE, Grade.MISLEADS, ">="),
-            Threshold("weakens", 0.5, "common practice: half a standard error, half the misleads limit", Grade.WEAKENS, ">="),
+            Threshold("misleads", 2.0, "common practice: two standard errors, twice the weakens limit: the coefficient leaves its own 95% interval", Grade.MISLEADS, ">="),
+            Threshold("weakens", 1.0, DISTORTION_SOURCE, Grade.WEAKENS, ">="),
             Threshold("residual", RESIDUAL_LIMIT, ROBUST_SOURCE),
             Threshold("least-squares", 3.0, "common practice: |externally studentized residual| > 3, the limit outliers.studentized-residual flags at"),
             CHANCE,

@@ -288,8 +288,8 @@ def _codes_set_missing(ctx: RunContext, finding: Finding) -> Repair | None:
     codes = tuple(_code_label(code["value"]) for code in finding.details.get("codes", ())) + tuple(finding.details.get("tokens", {}))
     if not codes:
         return None
-    table, _ = apply_missing_codes(ctx.table, {column: codes})
-    return Repair(f"{column} with {', '.join(codes)} set missing", table=table)
+    table, replaced = apply_missing_codes(ctx.table, {column: codes})
+    return Repair(f"{column} with {', '.join(codes)} set missing", rows=replaced.get(column, 0), table=table)
 
 
 # ---------------------------------------------------------------- mcar

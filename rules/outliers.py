@@ -173,7 +173,7 @@ def _slips_scaled_back(ctx: RunContext, finding: Finding) -> Repair | None:
     for row, name in slips.items():
         repaired[row] *= _slip_factor(name)
     table = ctx.table.set_column(ctx.table.column_names.index(column), column, pa.array(repaired, from_pandas=True))
-    return Repair(f"{len(slips):,} {column} value(s) scaled back", table=table)
+    return Repair(f"{len(slips):,} {column} value(s) scaled back", rows=len(slips), table=table)
 
 
 def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:

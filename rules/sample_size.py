@@ -284,7 +284,7 @@ def _inflation_by_chance(ctx: RunContext, finding: Finding) -> Repair | None:
             shares.append(float(other.details["auxiliary_r_squared"]))
         return bool(shares) and all(float(null.sf(share)) * (others + 1) >= CHANCE_INFLATION_ALPHA for share in shares)
 
-    return Repair(f"{n:,} rows for {p:,} parameters", settles=settles)
+    return Repair(f"{n:,} rows for {p:,} parameters", rows=n, settles=settles)
 
 
 RULES = [

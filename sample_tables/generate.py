@@ -26,7 +26,9 @@ README_HEAD = """# Sample tables (invented)
 Every table here is **invented** for demonstrations, in one scenario: refrigerated warehouses and their
 daily refrigeration energy (one row per site-day, target `energy_kwh`). No number is a measurement.
 `python sample_tables/generate.py` rebuilds all of them and this file from the recipes in `recipes/`
-with fixed seeds; `tests/test_sample_tables.py` runs prefit on each and checks exactly the findings below.
+with fixed seeds; `tests/test_sample_tables.py` runs prefit on each and checks exactly the findings below,
+and the "fix first" list each report opens with: the root findings (explained by no other) at `weakens` or above,
+most damaging first, each with the number of findings it explains (gone once it is fixed).
 
 """
 
@@ -71,12 +73,18 @@ def write_table(recipe: ModuleType, folder: Path) -> Path:
 
 
 def readme(all_recipes: list[ModuleType]) -> str:
-    """The README listing each table, its command and its expected findings."""
+    """The README listing each table, its command, its fix-first list and its expected findings."""
     parts = [README_HEAD]
     for recipe in all_recipes:
         doc = (recipe.__doc__ or "").strip()
         args = " ".join(a if " " not in a and a else repr(a) for a in recipe.ARGS)
         parts.append(f"## `{file_name(recipe)}`\n\n{doc}\n\n`prefit check sample_tables/{file_name(recipe)} {args}` exits {recipe.EXIT_CODE}.\n")
+        if recipe.FIX_FIRST:
+            parts.append("\nFix first:\n\n")
+            for number, (rule, grade, columns, explains) in enumerate(recipe.FIX_FIRST, 1):
+                named = f" ({', '.join(columns)})" if columns else ""
+                also = f", explains {explains} finding{'' if explains == 1 else 's'}" if explains else ""
+                parts.append(f"{number}. `{rule}`{named}: {grade}{also}\n")
         if recipe.EXPECTED:
             parts.append("\n| rule | grade | columns |\n|---|---|---|\n")
             for rule, grade, columns in recipe.EXPECTED:

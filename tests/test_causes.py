@@ -10,9 +10,11 @@ from __future__ import annotations
 
 import json
 
+import jsonschema
 import numpy as np
 import pandas as pd
 import pytest
+from conftest import ROOT
 from nist_strd import load
 
 from prefit.api import check
@@ -89,6 +91,12 @@ def test_every_json_finding_has_its_key_and_causes_and_fix_first_lists_roots() -
     roots = {f["key"] for f in document["findings"] if not f["explained_by"] and f["grade"] != "note"}
     assert set(document["fix_first"]) == roots
     assert all(set(f["explained_by"]) <= set(keys) for f in document["findings"])
+    # reference: prefit's published JSON schema, checked by jsonschema (draft 2020-12)
+    schema = json.loads((ROOT / "linter" / "report" / "report.schema.json").read_text(encoding="utf-8"))
+    jsonschema.Draft202012Validator(schema).validate(document)
+    without_key = json.loads(json.dumps(document))
+    del without_key["findings"][0]["key"]
+    assert not jsonschema.Draft202012Validator(schema).is_valid(without_key)
 
 
 def test_the_text_report_opens_with_the_fix_first_list() -> None:

@@ -56,7 +56,13 @@ def test_vif_findings_carry_statsmodels_values_and_grades(frame: pd.DataFrame, t
     # reference: statsmodels variance_inflation_factor; limits 5 and 10 are common practice
     reference = dict(zip(names, _statsmodels_vifs(frame, names)))
     found = {f.columns[0]: f for f in _findings(report, "collinearity.vif")}
-    assert set(found) == {name for name, vif in reference.items() if vif >= 5}
+    groups = _findings(report, "collinearity.condition")
+    grouped = {name for f in groups for name in f.columns}
+    # predictors caught in a reported near dependency are named (with their VIF) by that finding instead
+    assert set(found) == {name for name, vif in reference.items() if vif >= 5 and name not in grouped}
+    for group in groups:
+        for name, vif in group.details["vifs"].items():
+            assert_allclose(vif, reference[name], rtol=VIF_RTOL)
     for name, finding in found.items():
         assert_allclose(finding.value, reference[name], rtol=VIF_RTOL)
         assert finding.grade.word == ("misleads" if reference[name] >= 10 else "weakens")
@@ -114,7 +120,8 @@ def test_gvif_of_a_categorical_term_follows_fox_and_monette(categorical: str) ->
 
 def test_gvif_finding_is_graded_on_the_one_over_two_df_scale() -> None:
     frame = _mtcars()
-    report = check(frame, target="mpg", categorical=["cyl"])
+    # without the near-dependency rule, which otherwise names cyl's GVIF in its group finding
+    report = check(frame, target="mpg", categorical=["cyl"], skip_rules=["collinearity.condition"])
     (finding,) = [f for f in _findings(report, "collinearity.vif") if f.columns == ("cyl",)]
     numeric = [c for c in frame.columns if c not in ("mpg", "cyl")]
     # reference: Fox & Monette (1992); GVIF^(1/(2 df)) compared with sqrt(5) and sqrt(10) (common practice on the VIF scale)
@@ -145,17 +152,21 @@ def test_condition_indices_and_proportions_match_numpy_svd(frame: pd.DataFrame, 
 def test_condition_finding_names_the_variables_of_each_near_dependency() -> None:
     frame = _longley()
     columns = [c for c in frame.columns if c != "Employed"]
-    (finding,) = _findings(check(frame, target="Employed"), "collinearity.condition")
-    # reference: numpy SVD (Belsley, Kuh & Welsch 1980); indices >= 30 with two or more predictor proportions > 0.5
+    found = _findings(check(frame, target="Employed"), "collinearity.condition")
+    # reference: numpy SVD (Belsley, Kuh & Welsch 1980); indices >= 30 with two or more predictor proportions > 0.5,
+    # one finding per such variance-decomposition group
     indices, proportions = _belsley(frame, columns)
-    involved = set()
+    groups = []
     for index, row in zip(indices, proportions):
         named = [columns[j - 1] for j in range(1, len(row)) if row[j] > 0.5]
         if index >= 30 and len(named) >= 2:
-            involved.update(named)
-    assert involved and set(finding.columns) == involved
-    assert finding.grade.word == "misleads"
-    assert_allclose(finding.value, indices.max(), rtol=1e-8)
+            groups.append((index, set(named)))
+    assert groups and len(found) == len(groups)
+    for finding in found:
+        index, named = next(group for group in groups if np.isclose(group[0], finding.value, rtol=1e-8))
+        assert set(finding.columns) == named
+        assert finding.grade.word == "misleads"
+    assert_allclose(max(f.value for f in found), indices.max(), rtol=1e-8)
 
 
 def test_condition_does_not_report_the_intercept_with_a_single_predictor() -> None:
@@ -165,18 +176,19 @@ def test_condition_does_not_report_the_intercept_with_a_single_predictor() -> No
     # reference: numpy SVD; mtcars' largest index is carried by the intercept and qsec alone (from this computation)
     top = int(np.argmax(indices))
     assert [j for j in range(len(proportions[top])) if proportions[top][j] > 0.5] == [0, columns.index("qsec") + 1]
-    (finding,) = _findings(check(frame, target="mpg"), "collinearity.condition")
-    for dependency in finding.details["dependencies"]:
-        assert len([name for name in dependency["proportions"] if name != "(intercept)"]) >= 2
+    found = _findings(check(frame, target="mpg"), "collinearity.condition")
+    assert found
+    for finding in found:
+        assert len([name for name in finding.details["proportions"] if name != "(intercept)"]) >= 2
 
 
-def test_pairwise_reports_pairs_only_when_vif_does_not_name_them() -> None:
+def test_pairwise_reports_pairs_only_when_vif_or_a_near_dependency_does_not_name_them() -> None:
     frame = _longley()
     columns = [c for c in frame.columns if c != "Employed"]
     # reference: numpy.corrcoef; limits 0.9 and 0.98 are common practice
     r = np.corrcoef(frame[columns].to_numpy(float), rowvar=False)
     high = {frozenset((a, b)): r[i, j] for (i, a), (j, b) in combinations(enumerate(columns), 2) if abs(r[i, j]) >= 0.9}
-    alone = check(frame, target="Employed", skip_rules=["collinearity.vif"])
+    alone = check(frame, target="Employed", skip_rules=["collinearity.vif", "collinearity.condition"])
     found = {frozenset(f.columns): f for f in _findings(alone, "collinearity.pairwise")}
     assert set(found) == set(high)
     for pair, finding in found.items():
@@ -184,6 +196,8 @@ def test_pairwise_reports_pairs_only_when_vif_does_not_name_them() -> None:
         assert finding.grade.word == ("misleads" if abs(high[pair]) >= 0.98 else "weakens")
     together = check(frame, target="Employed")
     named = {frozenset((f.columns[0], other)) for f in _findings(together, "collinearity.vif") for other in f.details["explained_by"]}
+    grouped = sorted({c for f in _findings(together, "collinearity.condition") for c in f.columns})
+    named |= {frozenset(pair) for pair in combinations(grouped, 2)}
     remaining = {frozenset(f.columns) for f in _findings(together, "collinearity.pairwise")}
     assert remaining == set(high) - named
     assert not remaining & named

@@ -40,6 +40,7 @@ from prefit.report import (
     register_format,
     render,
 )
+from prefit.report.base import folded
 from prefit.rule import Rule, RuleSettings
 
 SARIF_SCHEMA = json.loads((REFERENCE / "sarif-2.1.0" / "sarif-schema-2.1.0.json").read_text(encoding="utf-8"))
@@ -274,8 +275,10 @@ def test_markdown_of_every_sample_table_renders_its_tables(name: str) -> None:
     if report.findings:
         rows = tables[1][1:]
         assert len(rows) == len(report.findings)
-        for cells, finding in zip(rows, report.findings):
-            assert cells[0] == finding.grade.word
+        # roots in fix-first order, each followed by the findings it explains (marked with an arrow)
+        ordered = [(finding, finding is root) for root, effects in folded(report) for finding in [root, *effects]]
+        for cells, (finding, is_root) in zip(rows, ordered):
+            assert cells[0] == (finding.grade.word if is_root else f"\u21b3 {finding.grade.word}")
             assert cells[1] == finding.rule
             assert cells[2] == (", ".join(finding.columns) or "-")
             assert cells[3].startswith(finding.message)

@@ -24,6 +24,13 @@ def test_sample_table_reports_exactly_its_expected_findings(recipe: object, monk
     expected = sorted((rule, grade, tuple(columns)) for rule, grade, columns in recipe.EXPECTED)
     assert found == expected
     assert run.code == recipe.EXIT_CODE
+    document = run.json()
+    by_key = {f["key"]: f for f in document["findings"]}
+    fix_first = [
+        (by_key[key]["rule"], by_key[key]["grade"], tuple(by_key[key]["columns"]), sum(key in f["explained_by"] for f in document["findings"]))
+        for key in document["fix_first"]
+    ]
+    assert fix_first == [(rule, grade, tuple(columns), explains) for rule, grade, columns, explains in recipe.FIX_FIRST]
 
 
 def test_generator_rebuilds_the_tables_and_readme(tmp_path: Path) -> None:

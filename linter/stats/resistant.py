@@ -63,13 +63,22 @@ class ResistantFit:
         return (y - X[:, kept] @ self.coef[kept]) / self.scale
 
 
-def resistant_fit(X: np.ndarray, y: np.ndarray, estimable: Sequence[int], start_columns: Sequence[int], sample_rows: int = RESISTANT_SAMPLE_ROWS) -> ResistantFit:
+def resistant_fit(
+    X: np.ndarray,
+    y: np.ndarray,
+    estimable: Sequence[int],
+    start_columns: Sequence[int],
+    names: Sequence[str],
+    sample_rows: int = RESISTANT_SAMPLE_ROWS,
+) -> ResistantFit:
     """Fit ``y`` on the ``estimable`` columns of ``X`` by statsmodels' ``RLMDetSMM`` (95% efficiency, 50% breakdown).
 
     ``start_columns`` are the continuous predictors whose robust distances
     choose the deterministic starting subsets (indicator columns would make
     their scatter singular). Tables longer than ``sample_rows`` are fitted
-    on a sample of rows chosen by their values, then every row is scored.
+    on a sample of rows chosen by their values (columns taken in the order
+    of their ``names``, so neither the row nor the column order of the file
+    changes the sample), then every row is scored.
     Raises ``ValueError`` or ``numpy.linalg.LinAlgError`` when the estimate fails.
 
     References
@@ -84,7 +93,8 @@ def resistant_fit(X: np.ndarray, y: np.ndarray, estimable: Sequence[int], start_
 
     columns = np.asarray(estimable, dtype=int)
     data = np.column_stack([X[:, columns], y])
-    rows = content_sample_positions(data, np.arange(data.shape[1]), sample_rows)
+    order = np.argsort(np.array([names[j] for j in columns] + [""], dtype=object)[:-1], kind="stable")
+    rows = content_sample_positions(data, np.append(order, columns.size), sample_rows)
     starts = [int(np.flatnonzero(columns == j)[0]) for j in start_columns if j in columns]
     if not starts:
         raise ValueError("no continuous predictor to choose the starting subsets")

@@ -11,6 +11,9 @@ ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
     ("hygiene.constant-predictor", "blocks", ("setpoint_c",)),
 ]
+FIX_FIRST = [
+    ("hygiene.constant-predictor", "blocks", ("setpoint_c",), 0),
+]
 EXIT_CODE = 1
 
 

@@ -12,6 +12,10 @@ EXPECTED = [
     ("range.extrapolation", "misleads", ("outdoor_c",)),
     ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles")),
 ]
+FIX_FIRST = [
+    ("range.extrapolation", "misleads", ("outdoor_c",), 0),
+    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles"), 0),
+]
 EXIT_CODE = 1
 HEATWAVE_DAYS = ("2026-08-30", "2026-08-31", "2026-09-01")
 HEATWAVE_ABOVE_MAX_C = (3.0, 5.5, 4.0)

@@ -12,6 +12,10 @@ EXPECTED = [
     ("target.not-numeric", "blocks", ("energy_kwh",)),
     ("hygiene.numeric-as-text", "misleads", ("energy_kwh",)),
 ]
+FIX_FIRST = [
+    ("target.not-numeric", "blocks", ("energy_kwh",), 0),
+    ("hygiene.numeric-as-text", "misleads", ("energy_kwh",), 0),
+]
 EXIT_CODE = 1
 
 

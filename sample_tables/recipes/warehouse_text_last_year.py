@@ -12,6 +12,9 @@ EXPECTED = [
     ("hygiene.numeric-as-text", "weakens", ("last_year_kwh",)),
     ("design.excluded-column", "note", ("last_year_kwh",)),
 ]
+FIX_FIRST = [
+    ("hygiene.numeric-as-text", "weakens", ("last_year_kwh",), 0),
+]
 EXIT_CODE = 0
 
 
