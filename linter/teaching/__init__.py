@@ -48,6 +48,7 @@ DEMONSTRATIONS: Mapping[str, tuple[str, str]] = {
     "sample-size.minimum": ("sample_size", "small_extract"),
     "target": ("target", "skewed_energy"),
     "target.skewed": ("target", "skewed_energy"),
+    "target.censored": ("target", "saturated_meter"),
 }
 """Demonstrations by rule id or by family (the part of a rule id before the dot): module and function."""
 
