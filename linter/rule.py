@@ -251,3 +251,17 @@ def fmt(value: float, digits: int = 3) -> str:
         decimals = max(0, digits - 1 - int(np.floor(np.log10(magnitude))))
         return f"{value:,.{decimals}f}"
     return f"{value:.{digits - 1}e}"
+
+
+
+def meaningful_ratio(value: float, reference: float, scale: float) -> float | None:
+    """``value / reference``, or None when the ratio would mislead a reader.
+
+    A ratio to a reference within ``scale`` (a spread of the same column) of
+    zero is large only because the reference is about 0, and a negative or
+    undefined ratio reads as nonsense; messages then say the reference is about 0.
+    """
+    if reference == 0 or abs(reference) < scale:
+        return None
+    ratio = value / reference
+    return ratio if np.isfinite(ratio) and ratio > 0 else None

@@ -9,7 +9,7 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.findings import Finding, Grade
 from prefit.roles import Kind
-from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt, meaningful_ratio
 from prefit.stats.mergeable import Moments
 
 
@@ -98,6 +98,17 @@ def _central_skewness(values: np.ndarray, share: float, all_finite: bool = False
     return float(Moments.of(finite[(finite >= low) & (finite <= high)]).skewness)
 
 
+NEAR_ZERO_SHARE = 0.01
+
+
+def _span(smallest: float, largest: float, sd: float) -> str:
+    """``largest value 20 times the smallest``, or the two values when the smallest is about 0 (within 1% of an SD)."""
+    ratio = meaningful_ratio(largest, smallest, NEAR_ZERO_SHARE * sd)
+    if ratio is None:
+        return f"values from about 0 ({fmt(smallest)}) to {fmt(largest)}"
+    return f"largest value {fmt(ratio)} times the smallest"
+
+
 def _skewed(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     target = ctx.roles.target
     if ctx.roles.kinds[target] is not Kind.NUMERIC:
@@ -114,7 +125,7 @@ def _skewed(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         return
     yield settings.finding(
         Grade.NOTE,
-        f"{target} is strictly positive and right-skewed (skewness {fmt(skewness, 2)}, largest value {fmt(spread)} times the smallest): "
+        f"{target} is strictly positive and right-skewed (skewness {fmt(skewness, 2)}, {_span(moments.minimum, moments.maximum, moments.std)}): "
         "on its own scale effects are likely multiplicative and the residual spread likely grows with the level",
         columns=[target],
         value=skewness,
