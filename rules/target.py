@@ -180,37 +180,39 @@ def _censored(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
             f"against at most {inside:,} at any value inside its range"
         )
         if count_like and end == "minimum" and value == 0:
-            yield settings.finding(
-                Grade.NOTE,
+            grade, source = Grade.NOTE, COMMON_PRACTICE
+            message = (
                 f"{pile}: a count (or score) with a mass at zero. Least squares treats the zeros like any other value; "
-                "if zero means 'none happened', a count model fits it; if it means 'at or below a limit', it is censoring",
-                columns=[target],
-                rows=rows,
-                row_count=total,
-                value=share,
-                threshold=limit,
-                source=COMMON_PRACTICE,
-                remedy=f"consider a Poisson or negative binomial model, or a two-part (hurdle) model, for {target}; "
-                "a censored-regression (Tobit) model if zero stands for values below a limit",
-                details=details,
+                "if zero means 'none happened', a count model fits it; if it means 'at or below a limit', it is censoring"
             )
-            continue
-        coding = "top-coded (censored from above)" if end == "maximum" else "bottom-coded (censored from below)"
+            remedy = (
+                f"consider a Poisson or negative binomial model, or a two-part (hurdle) model, for {target}; "
+                "a censored-regression (Tobit) model if zero stands for values below a limit"
+            )
+        else:
+            source = limit.source
+            coding = "top-coded (censored from above)" if end == "maximum" else "bottom-coded (censored from below)"
+            message = (
+                f"{pile}: {target} looks {coding} at {value:g}. Least squares takes the limit for the true value and "
+                "flattens the slopes towards zero, by roughly the share at the limit when the predictors are near normal"
+            )
+            remedy = (
+                f"fit a censored-regression (Tobit) model with {target} censored at {value:g}, or recover the true values "
+                "from the source; dropping the limit rows instead truncates the sample and also flattens the slopes, "
+                "unless a truncated-regression model is fitted"
+            )
         yield settings.finding(
             grade,
-            f"{pile}: {target} looks {coding} at {value:g}. Least squares takes the limit for the true value and flattens "
-            f"the slopes towards zero, by roughly the share at the limit when the predictors are near normal",
+            message,
             columns=[target],
             rows=rows,
             row_count=total,
             value=share,
             threshold=limit,
-            remedy=f"fit a censored-regression (Tobit) model with {target} censored at {value:g}, or recover the true values "
-            "from the source; dropping the limit rows instead truncates the sample and also flattens the slopes, unless "
-            "a truncated-regression model is fitted",
+            source=source,
+            remedy=remedy,
             details=details,
         )
-
 
 RULES = [
     Rule(
