@@ -46,3 +46,13 @@ def test_the_kit_catches_a_rule_that_mutates_the_design() -> None:
 def test_the_battery_covers_the_awkward_cases() -> None:
     names = {case.name for case in awkward_tables()}
     assert {"one row", "two rows", "read-only arrays", "1.9e12 beside zeros", "categorical with one level"} <= names
+
+
+def test_the_example_plugin_passes_the_kit(monkeypatch: pytest.MonkeyPatch) -> None:
+    from pathlib import Path
+
+    monkeypatch.syspath_prepend(str(Path(__file__).resolve().parent / "plugin_example"))
+    from prefit_example_rules import RULES as PLUGIN_RULES
+
+    for rule in PLUGIN_RULES:
+        check_rule(rule)
