@@ -449,7 +449,8 @@ def _scale_disparity(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
         values = ctx.design_column(column)
         nonzero = np.abs(values[values != 0])
         if nonzero.size:
-            magnitudes[column] = float(np.median(nonzero * 0.5) * 2.0)  # halved: the middle pair's mean cannot overflow
+            halved = float(np.median(nonzero * 0.5) * 2.0)  # halved: the middle pair's mean cannot overflow
+            magnitudes[column] = halved if halved > 0 else float(np.median(nonzero))  # nor a subnormal halve to 0
     if len(magnitudes) < 2:
         return
     largest = max(magnitudes, key=lambda c: (magnitudes[c], c))
