@@ -64,7 +64,8 @@ def explain_rule(rule_id: str, registry: Registry | None = None) -> str:
     if rule is None and rule_id in registry.families():
         return _explain_family(rule_id, registry)
     if rule is None:
-        raise UsageProblem(f"rule {rule_id!r}", "is not a known rule", closest_names(rule_id, sorted(registry.rules)) + "; `prefit why` lists them")
+        known = sorted(registry.rules) + registry.families()
+        raise UsageProblem(f"{rule_id!r}", "is not a known rule or family", closest_names(rule_id, known, kind="rules and families") + "; `prefit rules` lists them")
     out = [*textwrap.wrap(f"{rule.id}: {rule.summary}", WRAP, subsequent_indent="  "), ""]
     out += ["What it does to a fit:"] + textwrap.wrap(rule.why, WRAP, initial_indent="  ", subsequent_indent="  ") + [""]
     if rule.thresholds:

@@ -26,6 +26,9 @@ class Grade(enum.IntEnum):
         """The grade as printed and written in every report."""
         return self.name.lower()
 
+    def __str__(self) -> str:
+        return self.word
+
     @classmethod
     def parse(cls, word: str) -> "Grade":
         """Read a grade word (``blocks``, ``misleads``, ``weakens``, ``note``)."""
@@ -45,6 +48,11 @@ GRADE_MEANINGS: Mapping[Grade, str] = {
     Grade.WEAKENS: "precision, power or generality suffer",
     Grade.NOTE: "worth knowing; no action needed",
 }
+
+
+def counted(count: int, noun: str, plural: str | None = None) -> str:
+    """``1 row``, ``12 rows``, ``1,204 dummies`` (``plural`` for nouns that do not just add an s)."""
+    return f"{count:,} {noun if count == 1 else (plural or noun + 's')}"
 
 
 def json_number(value: float | int | None) -> float | int | None:

@@ -187,7 +187,7 @@ def parse_settings(raw: Mapping[str, Any], where: str) -> dict[str, Any]:
         setting = SETTINGS_BY_KEY.get(key)
         if setting is None:
             raise UsageProblem(
-                f"{where}: key {key!r}", "is not a prefit setting", closest_names(key, list(SETTINGS_BY_KEY)).replace("closest", "known keys close to it")
+                f"{where}: key {key!r}", "is not a prefit setting", closest_names(key, list(SETTINGS_BY_KEY), kind="keys").replace("closest", "known keys close to it")
             )
         values[setting.field] = setting.parse(value, f"{where}: {key}")
     return values

@@ -7,7 +7,7 @@ from typing import Iterator
 import numpy as np
 
 from prefit.context import RunContext
-from prefit.findings import Finding, Grade
+from prefit.findings import Finding, Grade, counted
 from prefit.roles import Kind
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.mergeable import Moments
@@ -26,7 +26,7 @@ def _missing_values(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding
     if usable < limit.value:
         yield settings.finding(
             Grade.BLOCKS,
-            f"{target} has {usable} usable value(s) in {tally.rows:,} rows ({tally.missing:,} missing, {tally.nonfinite:,} not finite): nothing to fit",
+            f"{target} has {counted(usable, 'usable value')} in {tally.rows:,} rows ({tally.missing:,} missing, {tally.nonfinite:,} not finite): nothing to fit",
             columns=[target],
             value=usable,
             threshold=limit,

@@ -11,7 +11,7 @@ from __future__ import annotations
 import html
 from typing import TYPE_CHECKING, Any
 
-from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, count_by_grade
+from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, count_by_grade, counted
 from ..rule import fmt
 from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
 
@@ -128,7 +128,8 @@ def _finding(finding: Finding, why: str) -> str:
     if finding.rows:
         items, more = row_groups(finding, LISTED_ROWS)
         shown = ", ".join(items)
-        parts.append(f'<p><span class="label">rows:</span> {esc(shown)}{esc(f" and {more:,} more rows") if more > 0 else ""}</p>')
+        tail = f" and {counted(more, 'more row')}" if more > 0 else ""
+        parts.append(f'<p><span class="label">rows:</span> {esc(shown + tail)}</p>')
     if finding.value is not None or finding.threshold is not None:
         measured = fmt(finding.value) if finding.value is not None else "-"
         limit = fmt(finding.threshold) if finding.threshold is not None else "-"
