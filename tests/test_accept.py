@@ -215,3 +215,26 @@ def test_accept_flags_need_each_other_or_an_existing_file(tmp_path: Path) -> Non
     assert alone.code == 2 and "--accept-file" in alone.err
     missing = run_cli("check", table, "--target", "energy_kwh", "--accept-file", tmp_path / "none.json")
     assert missing.code == 2 and "--accept-current" in missing.err
+
+
+def test_an_edit_to_a_row_no_finding_names_keeps_every_finding_accepted(tmp_path: Path) -> None:
+    # Invented site-days with heavy-tailed predictors, so that a finding names more rows than it lists (the
+    # robust-distance screen); then one value of a row that no finding names is edited.
+    rng = np.random.default_rng(8)
+    rows = 800
+    outdoor, doors = rng.standard_t(2, rows) * 5 + 15, rng.standard_t(2, rows) * 80 + 400
+    frame = pd.DataFrame({"outdoor_c": outdoor.round(3), "door_openings": doors.round(3)})
+    frame["energy_kwh"] = (5000 + 90 * outdoor + 2 * doors + rng.normal(0, 200, rows)).round(1)
+    table = tmp_path / "extract.csv"
+    frame.to_csv(table, index=False)
+    listed = run_cli("check", table, "--target", "energy_kwh", "--format", "json").json()["findings"]
+    assert any(f["row_count"] > len(f["rows"]) for f in listed), "a finding must name more rows than it lists"
+    named = {label for f in listed for label in f.get("rows", [])}
+    accepted = tmp_path / "accepted.json"
+    args = ("check", table, "--target", "energy_kwh", "--format", "json", "--accept-file", accepted)
+    run_cli(*args, "--accept-current")
+    untouched = next(i for i in range(rows) if i + 1 not in named)
+    frame.loc[untouched, "door_openings"] += 1.0
+    frame.to_csv(table, index=False)
+    again = run_cli(*args)
+    assert again.json()["findings"] == [], [f["rule"] for f in again.json()["findings"]]
