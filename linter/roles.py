@@ -144,11 +144,11 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
     """Decide target, id and predictors from the options and the columns' kinds."""
     names = list(table.column_names)
     if options.target is None:
-        usable = _target_candidates(table)
+        usable = target_candidates(table)
         example = f"e.g. --target {usable[-1]!r}" if usable else "no column of this table holds numbers"
         raise UsageProblem("--target", "is required", f"name the response column, {example}")
     if options.target not in names:
-        usable = _target_candidates(table)
+        usable = target_candidates(table)
         raise UsageProblem("--target", f"{options.target!r} is not a column of the table", closest_names(options.target, usable or names, kind="numeric columns"))
     if options.id is not None:
         _require_columns(names, (options.id,), "--id")
@@ -197,7 +197,7 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
     )
 
 
-def _target_candidates(table: pa.Table) -> list[str]:
+def target_candidates(table: pa.Table) -> list[str]:
     """Columns that could be a least-squares response: numeric, and neither row numbers nor whole-number dates."""
     return [
         name
