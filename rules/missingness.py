@@ -540,9 +540,12 @@ RULES = [
     Rule(
         id="missingness.mcar",
         summary="Little's chi-square test of missing completely at random over the numeric model columns.",
-        why="Deleting incomplete rows is harmless for bias only when the holes are missing completely at random. "
-        "Little's test compares the means of each missingness pattern with the overall maximum-likelihood means; "
-        "a small p-value says the incomplete rows differ systematically from the complete ones.",
+        why="Little's test compares the means of each missingness pattern with the overall maximum-likelihood means; "
+        "a small p-value says the incomplete rows differ systematically from the complete ones (the holes are not "
+        "missing completely at random). For regression coefficients that alone does not make deleting incomplete "
+        "rows biased: complete-case estimates stay unbiased whenever the holes do not depend on the response given "
+        "the predictors (Little 1992, JASA 87; White & Carlin 2010, Statistics in Medicine 29). It does mean the "
+        "complete rows are not a random part of the table, so check what the holes follow (missingness.informative).",
         remedy="find which columns the holes depend on (missingness.informative) and impute using them",
         check=_mcar,
         heavy=True,

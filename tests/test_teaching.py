@@ -23,9 +23,9 @@ from prefit.teaching.assumptions import (
 from prefit.teaching.base import fit_line
 from prefit.teaching.collinearity import area_and_racks
 from prefit.teaching.design import codes_as_numbers
-from prefit.teaching.hygiene import duplicated_days
+from prefit.teaching.hygiene import duplicated_days, leaked_target
 from prefit.teaching.influence import mega_site
-from prefit.teaching.missingness import dropout_codes
+from prefit.teaching.missingness import deleted_rows, dropout_codes, holes_by_pattern, holes_that_follow_energy
 from prefit.teaching.outliers import tenfold_reading
 from prefit.teaching.ranges import narrow_setpoint
 from prefit.teaching.sample_size import small_extract
@@ -35,6 +35,7 @@ BUILT_IN_FAMILIES = ("assumptions", "collinearity", "design", "hygiene", "influe
 ALL_DEMONSTRATIONS: list[Callable[[], Demonstration]] = [
     area_and_racks, mega_site, tenfold_reading, dropout_codes, duplicated_days, narrow_setpoint, small_extract,
     skewed_energy, codes_as_numbers, uneven_spread, heat_bend, skewed_errors, autocorrelated_days,
+    deleted_rows, holes_by_pattern, holes_that_follow_energy, leaked_target,
 ]
 
 
@@ -230,3 +231,33 @@ def test_why_family_lists_its_rules_and_shows_its_demonstration(cli: Any, regist
     listed = [line.split()[0] for line in run.out.splitlines() if line.startswith("  influence.")]
     assert listed == sorted(r.id for r in registry if rule_family(r.id) == "influence")
     assert str(mega_site()) in run.out
+
+
+def test_complete_cases_demonstration_loses_precision_not_the_slope() -> None:
+    shown = deleted_rows().numbers
+    # reference: least-squares algebra; with random deletion the SE grows about as sqrt(n / kept)
+    assert_allclose(shown["se_complete"] / shown["se_full"], np.sqrt(240 / shown["kept"]), rtol=0.25)
+
+
+def test_mcar_demonstration_complete_rows_are_not_a_random_part() -> None:
+    shown = holes_by_pattern().numbers
+    assert shown["mean_outdoor_holes"] - shown["mean_outdoor_complete"] > 10
+
+
+def test_informative_demonstration_only_response_driven_holes_bias_the_slope() -> None:
+    shown = holes_that_follow_energy().numbers
+    # reference: Little (1992), JASA 87: complete-case slopes are unbiased when holes depend on predictors only
+    assert abs(shown["slope_holes_by_predictor"] - shown["slope_full"]) < 0.1 * shown["slope_full"]
+    assert shown["slope_holes_by_response"] < 0.8 * shown["slope_full"]
+
+
+def test_target_leak_demonstration_a_perfect_fit_that_erases_the_real_slope() -> None:
+    shown = leaked_target().numbers
+    assert shown["r2_leaking"] > 0.99 > shown["r2_honest"] and abs(shown["slope_leaking"]) < 0.05 * shown["slope_honest"]
+
+
+def test_mcar_why_states_when_deletion_is_unbiased() -> None:
+    from prefit.registry import discover
+
+    why = words(discover().get("missingness.mcar").why)  # type: ignore[union-attr]
+    assert "do not depend on the response given the predictors" in why and "harmless for bias only" not in why

@@ -32,3 +32,26 @@ def duplicated_days() -> Demonstration:
         ),
         {"se_ratio": float(repeated.se[1] / once.se[1]), "slope_difference": float(repeated.coef[1] - once.coef[1])},
     )
+
+
+def leaked_target() -> Demonstration:
+    """R-squared and the outdoor slope with and without a column computed from the energy itself (the gross meter reading)."""
+    rng = generator(24)
+    rows = 200
+    outdoor = rng.uniform(-5, 35, rows).round(1)
+    energy = 6_000 + 110 * outdoor + rng.normal(0, 900, rows)
+    gross = 1.08 * energy + rng.normal(0, 20, rows)  # the site meter: refrigeration plus a near-constant share
+    honest, leaking = fit_line(energy, outdoor), fit_line(energy, outdoor, gross)
+    return Demonstration(
+        (
+            f"{rows} invented site-days; gross_kwh is the site meter, read after the fact, which contains the energy_kwh to be explained.",
+            "",
+            "                                R^2     outdoor_c slope",
+            f"  energy on outdoor_c           {honest.r_squared:.2f}   {fmt(honest.coef[1]):>15}",
+            f"  ... plus gross_kwh            {leaking.r_squared:.2f}   {fmt(leaking.coef[1]):>15}",
+            "",
+            "With the leaked column the fit looks perfect and the outdoor slope all but vanishes: gross_kwh already holds",
+            "the answer, so nothing else seems to matter. Such a model cannot be used where the answer is not yet known.",
+        ),
+        {"r2_honest": honest.r_squared, "r2_leaking": leaking.r_squared, "slope_honest": float(honest.coef[1]), "slope_leaking": float(leaking.coef[1])},
+    )

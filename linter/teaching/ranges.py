@@ -24,8 +24,9 @@ def narrow_setpoint() -> Demonstration:
             f"  setpoints 1.5 to 2.5 C (chilled)  {fmt(tight.coef[1]):>16}   {fmt(tight.coef[1] - widths[0] / 2)} to {fmt(tight.coef[1] + widths[0] / 2)}",
             f"  setpoints -25 to 5 C (mixed)      {fmt(spread.coef[1]):>16}   {fmt(spread.coef[1] - widths[1] / 2)} to {fmt(spread.coef[1] + widths[1] / 2)}",
             "",
-            f"The narrow range gives an interval {widths[0] / widths[1]:.0f} times wider, and its estimate ({fmt(tight.coef[1])}) is far",
-            f"from the true {TRUE_SLOPE:g}: one degree of setpoint variation holds almost no information about the slope.",
+            f"The narrow range gives an interval {widths[0] / widths[1]:.0f} times wider. Both estimates are unbiased, but one degree",
+            "of setpoint variation holds almost no information about the slope: the narrow estimate can land anywhere in its",
+            "wide interval, and the data cannot say how energy responds to setpoints outside 1.5 to 2.5 C.",
         ),
         {"width_ratio": float(widths[0] / widths[1]), "narrow_width": float(widths[0]), "wide_width": float(widths[1])},
     )
