@@ -37,6 +37,45 @@ def catalogue_json(registry: Registry | None = None) -> str:
     return json.dumps({"rules": rules}, indent=2, ensure_ascii=False) + "\n"
 
 
+def catalogue_html(registry: Registry | None = None) -> str:
+    """Every rule as a self-contained HTML page, one entry per rule (anchor ``rule-family-name``), grouped by family.
+
+    HTML reports link each finding to its rule's entry on this page (saved beside them as ``prefit-rules.html``).
+    """
+    from .report.html import CONTENT_POLICY, STYLE, esc, rule_anchor
+
+    registry = registry or discover()
+    sections = []
+    for family in registry.families():
+        entries = []
+        for rule in (r for r in registry if rule_family(r.id) == family):
+            limits = "".join(
+                f"<tr><td>{esc(t.name)}</td><td>{esc(t.describe())}</td><td>{esc(t.source)}</td></tr>" for t in rule.thresholds
+            )
+            table = (
+                f"<table><thead><tr><th>threshold</th><th>rule</th><th>source</th></tr></thead><tbody>{limits}</tbody></table>"
+                if limits
+                else ""
+            )
+            grades = ", ".join(_grades(rule)) or "-"
+            entries.append(
+                f'<article class="finding" id="{rule_anchor(rule.id)}"><h3 class="rule">{esc(rule.id)}</h3>'
+                f"<p>{esc(rule.summary)}</p><p><span class=\"label\">grades:</span> {esc(grades)}</p>"
+                f"<p><span class=\"label\">what it does to a fit:</span> {esc(rule.why)}</p>{table}"
+                f"<p class=\"remedy\"><span class=\"label\">remedy:</span> {esc(rule.remedy)}</p></article>"
+            )
+        sections.append(f'<section id="family-{esc(family)}"><h2>{esc(family)}</h2>{"".join(entries)}</section>')
+    contents = "".join(f'<li><a href="#family-{esc(f)}">{esc(f)}</a></li>' for f in registry.families())
+    return (
+        "<!DOCTYPE html>\n"
+        '<html lang="en"><head><meta charset="utf-8">'
+        f'<meta http-equiv="Content-Security-Policy" content="{CONTENT_POLICY}">'
+        f"<title>prefit rule catalogue</title><style>{STYLE}</style></head>\n"
+        f'<body><main class="prefit-report"><h1>prefit rule catalogue</h1><nav class="toc"><ul>{contents}</ul></nav>'
+        f"{''.join(sections)}</main></body></html>\n"
+    )
+
+
 def catalogue_text(registry: Registry | None = None) -> str:
     """Every rule, one paragraph each, grouped by family."""
     registry = registry or discover()
