@@ -40,30 +40,14 @@ def catalogue_json(registry: Registry | None = None) -> str:
 def catalogue_html(registry: Registry | None = None) -> str:
     """Every rule as a self-contained HTML page, one entry per rule (anchor ``rule-family-name``), grouped by family.
 
-    HTML reports link each finding to its rule's entry on this page (saved beside them as ``prefit-rules.html``).
+    HTML reports carry the same entries for the rules behind their findings, and link each finding to its entry.
     """
-    from .report.html import CONTENT_POLICY, STYLE, esc, rule_anchor
+    from .report.html import CONTENT_POLICY, STYLE, esc, rule_anchor, rule_entry
 
     registry = registry or discover()
     sections = []
     for family in registry.families():
-        entries = []
-        for rule in (r for r in registry if rule_family(r.id) == family):
-            limits = "".join(
-                f"<tr><td>{esc(t.name)}</td><td>{esc(t.describe())}</td><td>{esc(t.source)}</td></tr>" for t in rule.thresholds
-            )
-            table = (
-                f"<table><thead><tr><th>threshold</th><th>rule</th><th>source</th></tr></thead><tbody>{limits}</tbody></table>"
-                if limits
-                else ""
-            )
-            grades = ", ".join(_grades(rule)) or "-"
-            entries.append(
-                f'<article class="finding" id="{rule_anchor(rule.id)}"><h3 class="rule">{esc(rule.id)}</h3>'
-                f"<p>{esc(rule.summary)}</p><p><span class=\"label\">grades:</span> {esc(grades)}</p>"
-                f"<p><span class=\"label\">what it does to a fit:</span> {esc(rule.why)}</p>{table}"
-                f"<p class=\"remedy\"><span class=\"label\">remedy:</span> {esc(rule.remedy)}</p></article>"
-            )
+        entries = [rule_entry(rule, rule_anchor(rule.id)) for rule in registry if rule_family(rule.id) == family]
         sections.append(f'<section id="family-{esc(family)}"><h2>{esc(family)}</h2>{"".join(entries)}</section>')
     contents = "".join(f'<li><a href="#family-{esc(f)}">{esc(f)}</a></li>' for f in registry.families())
     return (

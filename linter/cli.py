@@ -63,7 +63,7 @@ def _build_parser() -> argparse.ArgumentParser:
     check.add_argument("--colour", choices=("auto", "always", "never"), default="auto", help="colour in the text report")
 
     rules = commands.add_parser("rules", help="list the rule catalogue")
-    rules.add_argument("--format", default="text", choices=("text", "json", "html"), help="html: a page that HTML reports link to (save it beside them as prefit-rules.html)")
+    rules.add_argument("--format", default="text", choices=("text", "json", "html"), help="html: one page with an entry per rule")
 
     why = commands.add_parser("why", help="explain a rule: what it does to a fit, thresholds, sources, remedy")
     why.add_argument("rule", nargs="?", metavar="RULE", help="a rule id, or a family to list its rules; without it, every rule by family")

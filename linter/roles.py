@@ -18,6 +18,8 @@ from .stats.textnumbers import numbers_as_text_reason
 FREE_TEXT_MIN_LEVELS = 50
 FREE_TEXT_LEVEL_SHARE = 0.5
 IDENTIFIER_MIN_ROWS = 20
+INTERCEPT = "intercept"
+"""The name of the model's constant term in the design, equations and reports."""
 
 
 class Kind(enum.Enum):
@@ -187,6 +189,10 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
             else:
                 chosen.append(name)
         predictors = tuple(chosen)
+    if options.intercept and INTERCEPT in predictors:
+        raise UsageProblem(
+            f"column {INTERCEPT!r}", "has the name of the model's constant term", f"rename the column, --exclude {INTERCEPT}, or add --no-intercept"
+        )
     return Roles(
         target=options.target,
         id=options.id,

@@ -70,3 +70,13 @@ def test_a_far_name_gets_no_suggestion() -> None:
 def test_grade_prints_its_name_and_the_package_lists_its_api() -> None:
     assert str(prefit.Grade.MISLEADS) == "misleads"
     assert {"check", "require_ready", "Report", "NotReady", "Grade", "Finding"} <= set(dir(prefit))
+
+
+def test_the_constant_term_is_called_intercept_and_a_column_of_that_name_is_refused() -> None:
+    report = prefit.check(_site_days(), target="energy_kwh")
+    assert report.design["terms"][0]["column"] == "intercept"
+    clash = _site_days()
+    clash["intercept"] = 1.0
+    with pytest.raises(UsageProblem, match="constant term"):
+        prefit.check(clash, target="energy_kwh")
+    assert prefit.check(clash, target="energy_kwh", intercept=False).design["terms"][-1]["column"] == "intercept"

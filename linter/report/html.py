@@ -17,6 +17,7 @@ from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
+    from ..rule import RuleLike
     from .plots import Plot
 
 CONTENT_POLICY = "default-src 'none'; style-src 'unsafe-inline'; img-src data:"
@@ -125,20 +126,35 @@ def _counts(report: "Report", findings: list[Finding]) -> str:
     return f'<table class="counts"><thead><tr>{head}</tr></thead><tbody><tr>{body}</tr></tbody></table>'
 
 
-CATALOGUE_PAGE = "prefit-rules.html"
-"""The rule catalogue page (``prefit rules --format html``) that each finding links to, beside the report."""
+def rule_anchor(rule_id: str, prefix: str = "") -> str:
+    """The id of a rule's catalogue entry, on the catalogue page or in a report's appendix (``prefix`` per table)."""
+    return prefix + "rule-" + rule_id.replace(".", "-")
 
 
-def rule_anchor(rule_id: str) -> str:
-    """The id of a rule's entry on the catalogue page."""
-    return "rule-" + rule_id.replace(".", "-")
+def rule_entry(rule: "RuleLike", anchor: str) -> str:
+    """One rule's catalogue entry: summary, grades, why, thresholds with their sources, remedy.
+
+    The same entry makes up the catalogue page (``prefit rules --format html``) and a report's appendix of the
+    rules its findings came from, so a report stays one self-contained page.
+    """
+    from ..rule import default_grades
+
+    limits = "".join(f"<tr><td>{esc(t.name)}</td><td>{esc(t.describe())}</td><td>{esc(t.source)}</td></tr>" for t in rule.thresholds)
+    table = f"<table><thead><tr><th>threshold</th><th>rule</th><th>source</th></tr></thead><tbody>{limits}</tbody></table>" if limits else ""
+    grades = ", ".join(g.word for g in default_grades(rule)) or "-"
+    return (
+        f'<article class="finding rule-entry" id="{anchor}"><h3 class="rule">{esc(rule.id)}</h3>'
+        f'<p>{esc(rule.summary)}</p><p><span class="label">grades:</span> {esc(grades)}</p>'
+        f'<p><span class="label">what it does to a fit:</span> {esc(rule.why)}</p>{table}'
+        f'<p class="remedy"><span class="label">remedy:</span> {esc(rule.remedy)}</p></article>'
+    )
 
 
-def _finding(finding: Finding, why: str) -> str:
+def _finding(finding: Finding, why: str, prefix: str) -> str:
     opened = " open" if finding.grade > Grade.NOTE else ""
     parts = [f'<details class="finding grade-{finding.grade.word}"{opened}>']
     columns = f' <span class="columns">{esc(", ".join(finding.columns))}</span>' if finding.columns else ""
-    link = f'<a class="rule" href="{CATALOGUE_PAGE}#{rule_anchor(finding.rule)}" title="the rule in the catalogue">{esc(finding.rule)}</a>'
+    link = f'<a class="rule" href="#{rule_anchor(finding.rule, prefix)}" title="the rule in the catalogue below">{esc(finding.rule)}</a>'
     parts.append(f'<summary><span class="tag grade-{finding.grade.word}">{esc(finding.grade.word)}</span> {link}{columns}</summary>')
     parts.append(f"<p>{esc(finding.message)}</p>")
     if finding.rows:
@@ -167,6 +183,8 @@ def _contents(findings: list[Finding], prefix: str, plots: list["Plot"]) -> str:
     if not findings:
         items.append(f'<li><a href="#{prefix}findings">findings</a> <span class="count">0</span></li>')
     items.append(f'<li><a href="#{prefix}design">design</a></li>')
+    if findings:
+        items.append(f'<li><a href="#{prefix}rules">rules</a></li>')
     items += [f'<li><a href="#{plot.key}">{esc(plot.title)}</a></li>' for plot in plots]
     return f'<nav class="toc" aria-label="contents"><ul>{"".join(items)}</ul></nav>'
 
@@ -195,7 +213,7 @@ def table_section(report: "Report", findings: list[Finding], run: RunFacts, plot
         group = [f for f in findings if f.grade is grade]
         if group:
             out.append(f'<h3 id="{prefix}grade-{grade.word}"><span class="tag grade-{grade.word}">{esc(grade.word)}</span> {len(group)}: {esc(GRADE_MEANINGS[grade])}</h3>')
-            out.extend(_finding(f, run.why(f.rule)) for f in group)
+            out.extend(_finding(f, run.why(f.rule), prefix) for f in group)
     out.append(_design(report, prefix))
     if drawn:
         out.append("<h2>Plots</h2>")
@@ -203,6 +221,10 @@ def table_section(report: "Report", findings: list[Finding], run: RunFacts, plot
         title_id = f"{plot.key}-title"
         svg = plot.svg.replace(">", f'><title id="{title_id}">{esc(plot.title)}</title>', 1)
         out.append(f'<figure class="plot" id="{plot.key}"><h3>{esc(plot.title)}</h3>{svg}<figcaption>{esc(plot.caption)}</figcaption></figure>')
+    cited = [run.rules[rule_id] for rule_id in sorted({f.rule for f in findings}) if rule_id in run.rules]
+    if cited:
+        out.append(f'<h2 id="{prefix}rules">Rules behind these findings</h2>')
+        out.extend(rule_entry(rule, rule_anchor(rule.id, prefix)) for rule in cited)
     out.append(f'<p class="label">{counted(len(report.outcomes), "rule")} ran; prefit {esc(run.version)}.</p>')
     out.append("</section>")
     return "".join(out)
