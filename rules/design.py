@@ -14,13 +14,19 @@ from prefit.stats.spot import finite_spot
 
 
 def _excluded(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    labels_offered = False
     for column, reason in sorted(ctx.roles.left_out.items()):
+        remedy = f"if {column} should be a predictor, convert it to numbers or name it in --predictors (text becomes a category)"
+        unique_text = ctx.roles.kinds[column] is Kind.TEXT and reason.startswith("text with a different value in each")
+        if ctx.roles.id is None and unique_text and not labels_offered:
+            remedy = f"pass --id {column} to name rows by it in every finding; " + remedy
+            labels_offered = True
         yield settings.finding(
             Grade.NOTE,
             f"{column} left out of the design: {reason}",
             columns=[column],
             source="prefit column roles",
-            remedy=f"if {column} should be a predictor, convert it to numbers or name it in --predictors (text becomes a category)",
+            remedy=remedy,
         )
 
 

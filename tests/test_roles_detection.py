@@ -80,3 +80,12 @@ def test_the_constant_term_is_called_intercept_and_a_column_of_that_name_is_refu
     with pytest.raises(UsageProblem, match="constant term"):
         prefit.check(clash, target="energy_kwh")
     assert prefit.check(clash, target="energy_kwh", intercept=False).design["terms"][-1]["column"] == "intercept"
+
+
+def test_a_unique_text_column_is_offered_as_row_labels() -> None:
+    frame = _site_days()
+    frame["extract_key"] = [f"K{i:05d}" for i in range(len(frame))]
+    offered = [f for f in prefit.check(frame, target="energy_kwh").findings if f.columns == ("extract_key",)]
+    assert offered and "--id extract_key" in offered[0].remedy
+    labelled = [f for f in prefit.check(frame, target="energy_kwh", id="extract_key").findings if f.columns == ("extract_key",)]
+    assert all("--id" not in f.remedy for f in labelled)
