@@ -119,3 +119,48 @@ def holes_that_follow_energy() -> Demonstration:
             "slope_holes_by_response": float(after_response.coef[1]),
         },
     )
+
+
+def one_column_with_holes() -> Demonstration:
+    """Rows left for the fit when one of five predictors misses 40% of its values, and the slopes' precision."""
+    rng = generator(25)
+    outdoor, energy = _site_days(rng, 250)
+    others = rng.normal(size=(outdoor.size, 4))
+    present = rng.random(outdoor.size) >= 0.4  # a humidity sensor offline 40% of the time
+    full, complete = fit_line(energy, outdoor, *others.T), fit_line(energy[present], outdoor[present], *others[present].T)
+    return Demonstration(
+        (
+            f"{outdoor.size} invented site-days, five predictors; humidity_pct is missing on {int((~present).sum())} days, the others never.",
+            "",
+            "                          rows in the fit   outdoor_c std. error",
+            f"  humidity complete       {outdoor.size:>15}   {fmt(full.se[1]):>20}",
+            f"  humidity 40% missing    {int(present.sum()):>15}   {fmt(complete.se[1]):>20}",
+            "",
+            "One column's holes remove whole rows from the fit, and with them the information the other columns carried.",
+            "Ask whether the column is worth its holes: drop it, impute it from the others, or recover the readings.",
+        ),
+        {"rows_full": float(outdoor.size), "rows_complete": float(present.sum()), "se_full": float(full.se[1]), "se_complete": float(complete.se[1])},
+    )
+
+
+def sites_that_stop_reporting() -> Demonstration:
+    """A monotone pattern: sites that stop sending data partway through the extract, and the days the fit keeps."""
+    rng = generator(26)
+    sites, days = 30, 90
+    stops = np.where(rng.random(sites) < 0.3, rng.integers(20, 70, sites), days)
+    reported = np.arange(days)[None, :] < stops[:, None]
+    hot_late = np.linspace(-2, 30, days)  # the extract runs from winter into summer
+    kept_mean = float(np.mean(np.broadcast_to(hot_late, reported.shape)[reported]))
+    return Demonstration(
+        (
+            f"{sites} invented sites x {days} days from winter into summer; {int((stops < days).sum())} sites stop reporting partway.",
+            "",
+            f"  site-days in the extract: {sites * days:,}; with data: {int(reported.sum()):,}",
+            f"  mean outdoor temperature of all days {np.mean(hot_late):.1f} C, of the days with data {kept_mean:.1f} C",
+            "",
+            "Holes that, once they start in a row's series, continue to the end (a monotone pattern) usually have one",
+            "cause, here a failed data link; the days with data are then cooler than the extract, so ask what stopped",
+            "the reports before deleting or imputing.",
+        ),
+        {"mean_all": float(np.mean(hot_late)), "mean_kept": kept_mean, "share_kept": float(reported.mean())},
+    )
