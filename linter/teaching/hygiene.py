@@ -193,7 +193,6 @@ def one_setpoint() -> Demonstration:
     rng = generator(38)
     rows = 90
     outdoor, setpoint = rng.uniform(-5, 35, rows), np.full(rows, -22.0)
-    energy = 9_000 + 110 * outdoor + rng.normal(0, 700, rows)
     X = np.column_stack([np.ones(rows), outdoor, setpoint])
     rank = int(np.linalg.matrix_rank(X))
     return Demonstration(
