@@ -418,13 +418,13 @@ RULES = [
         check=_residual_normality,
         thresholds=(
             ALPHA,
-            Threshold("skewness", 0.5, "common practice: |skewness| of 0.5 or more is at least moderate skew (Bulmer 1979, Principles of Statistics, from memory)"),
+            Threshold("skewness", 0.5, "common practice: |skewness| of 0.5 or more is at least moderate skew (Bulmer 1979, Principles of Statistics, p. 63, as quoted in secondary sources)"),
             Threshold("excess-kurtosis", 1.0, "common practice"),
             Threshold(
                 "weakens",
                 100,
                 "common practice: a hundred or more rows usually let the central limit theorem protect the coefficients "
-                "(Lumley et al. 2002, Annu. Rev. Public Health 23, from memory)",
+                "(Lumley, Diehr, Emerson & Chen 2002, Annu. Rev. Public Health 23, 151-169: valid in large samples for any distribution)",
                 Grade.WEAKENS,
                 "<",
             ),

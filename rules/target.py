@@ -163,7 +163,7 @@ RULES = [
         remedy="fit the logarithm of the target and read slopes as relative changes; check the residual spread again",
         check=_skewed,
         thresholds=(
-            Threshold("skewness", 1.0, "common practice: skewness above 1 is strong skew (Bulmer 1979, Principles of Statistics, from memory)", compare=">"),
+            Threshold("skewness", 1.0, "common practice: skewness above 1 is strong skew (Bulmer 1979, Principles of Statistics, p. 63, as quoted in secondary sources)", compare=">"),
             Threshold("max-min-ratio", 10, "common practice: a positive quantity spanning an order of magnitude is a candidate for a log scale", compare=">"),
             Threshold(
                 "central-skewness",
