@@ -66,6 +66,7 @@ class Report:
     findings: tuple[Finding, ...]
     outcomes: tuple[RuleOutcome, ...]
     gate: Grade
+    purpose: str = "explain"
     accepted: tuple[Finding, ...] = ()
     engine: EngineRun | None = None
     fix_first: tuple[str, ...] = ()
@@ -121,6 +122,7 @@ class Report:
             "complete_cases": self.complete_cases,
             "design": dict(self.design),
             "gate": self.gate.word,
+            "purpose": self.purpose,
             "complete": not self.failed_rules,
             "rules_run": [o.rule for o in self.outcomes],
             "rules_not_applicable": {o.rule: o.not_applicable for o in self.outcomes if o.not_applicable is not None},
@@ -296,6 +298,7 @@ def report_for(
         findings=linked,
         outcomes=tuple(outcomes),
         gate=context.options.gate,
+        purpose=context.options.purpose,
         engine=engine,
         fix_first=tuple(keys[i] for i in causes.fix_first),
         keyed=dict(zip(keys, prints)),
@@ -386,7 +389,7 @@ def check(
     Keyword options are the configuration keys (``id``, ``exclude``,
     ``predictors``, ``categorical``, ``intercept``, ``fail_at``,
     ``skip_rules``, ``rule``, ``missing_codes``, ``sep``, ``encoding``,
-    ``ranges``, ``anticipated_r2``, ``score``).
+    ``ranges``, ``anticipated_r2``, ``score``, ``order``, ``purpose``).
     ``accept_file`` names an accepted-findings file: findings it lists are
     counted, not gated; with ``accept_current`` today's findings are written to it.
     """

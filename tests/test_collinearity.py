@@ -179,7 +179,7 @@ def test_condition_does_not_report_the_intercept_with_a_single_predictor() -> No
     found = _findings(check(frame, target="mpg"), "collinearity.condition")
     assert found
     for finding in found:
-        assert len([name for name in finding.details["proportions"] if name != "(intercept)"]) >= 2
+        assert len([name for name in finding.details["proportions"] if name != "intercept"]) >= 2
 
 
 def test_pairwise_reports_pairs_only_when_vif_or_a_near_dependency_does_not_name_them() -> None:

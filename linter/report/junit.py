@@ -59,6 +59,7 @@ class JunitWriter(ReportWriter):
             ("complete_cases", str(report.complete_cases)),
             ("parameters", str(report.parameters)),
             ("gate", report.gate.word),
+            ("purpose", report.purpose),
             ("accepted", str(len(report.accepted))),
             ("fix_first", " ".join(report.fix_first)),
         ):

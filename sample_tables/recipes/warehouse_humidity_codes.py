@@ -16,7 +16,8 @@ EXPECTED = [
     ("outliers.univariate", "weakens", ("humidity_pct",)),
 ]
 FIX_FIRST = [
-    ("missingness.disguised-codes", "misleads", ("humidity_pct",), 4),
+    ("missingness.disguised-codes", "misleads", ("humidity_pct",), 3),
+    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "humidity_pct"), 0),
 ]
 EXIT_CODE = 1
 DROPOUT_CODE = -999

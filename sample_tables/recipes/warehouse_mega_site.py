@@ -25,7 +25,7 @@ EXPECTED = [
 ]
 FIX_FIRST = [
     ("assumptions.nonlinearity", "misleads", ("pallets_stored", "floor_area_m2"), 2),
-    ("outliers.univariate", "weakens", ("floor_area_m2",), 0),
+    ("outliers.univariate", "weakens", ("floor_area_m2",), 1),
     ("outliers.univariate", "weakens", ("pallets_stored",), 0),
 ]
 EXIT_CODE = 1

@@ -16,6 +16,7 @@ EXPECTED = [
     ("influence.cooks-distance", "weakens", ()),
     ("influence.dfbetas", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "compressor_type")),
     ("influence.dffits", "weakens", ()),
+    ("influence.robust-distortion", "weakens", ()),
     ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles")),
     ("assumptions.residual-normality", "note", ("energy_kwh",)),
 ]
@@ -25,6 +26,7 @@ FIX_FIRST = [
     ("influence.cooks-distance", "weakens", (), 0),
     ("influence.dfbetas", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "compressor_type"), 0),
     ("influence.dffits", "weakens", (), 0),
+    ("influence.robust-distortion", "weakens", (), 0),
     ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles"), 0),
 ]
 EXIT_CODE = 1
