@@ -353,3 +353,14 @@ def test_missingness_and_target_demonstrations_show_their_damage() -> None:
     assert yes_no["predicted_cold"] < 0
     dated = date_as_a_number().numbers
     assert abs(dated["intercept"]) > 10 * 6_000
+
+
+def test_masked_group_demonstration_hides_from_least_squares_not_from_the_robust_fit() -> None:
+    from prefit.teaching.influence import masked_group
+
+    shown = masked_group().numbers
+    # reference: Rousseeuw & Leroy (1987), ch. 1: a group of bad leverage points pulls least squares onto itself
+    # (masking) while a high-breakdown fit keeps the bulk's slope; statsmodels' RLMDetSMM is the robust fit
+    assert abs(shown["slope_robust"] / shown["slope_without"] - 1) < 0.05
+    assert abs(shown["slope_all"] / shown["slope_without"] - 1) > 0.5
+    assert shown["largest_studentized"] < 3 and shown["robust_residual_least"] > 2.5

@@ -47,6 +47,7 @@ DEMONSTRATIONS: Mapping[str, tuple[str, str]] = {
     "influence.dfbetas": ("influence", "mega_site"),
     "influence.dffits": ("influence", "own_prediction_pull"),
     "influence.leverage": ("influence", "mega_site"),
+    "influence.robust-distortion": ("influence", "masked_group"),
     "missingness": ("missingness", "dropout_codes"),
     "missingness.column-rate": ("missingness", "one_column_with_holes"),
     "missingness.complete-cases": ("missingness", "deleted_rows"),

@@ -59,3 +59,42 @@ def own_prediction_pull() -> Demonstration:
         ),
         {"dffits": dffits, "cutoff": float(2 * np.sqrt(2 / rows))},
     )
+
+
+def masked_group() -> Demonstration:
+    """Eight mis-keyed site-days far out in door openings pull the least-squares line onto themselves; a robust (MM) fit is not pulled."""
+    import warnings
+
+    from statsmodels.robust.resistant_linear_model import RLMDetSMM
+
+    rng = generator(57)
+    rows, wrong = 60, 8
+    doors = rng.uniform(100, 500, rows)
+    energy = 4_000 + 6 * doors + rng.normal(0, 250, rows)
+    doors[:wrong] = rng.uniform(1_800, 2_000, wrong)  # counts keyed from a weekly total instead of a daily one
+    energy[:wrong] = 4_000 + 6 * rng.uniform(100, 500, wrong) + rng.normal(0, 250, wrong)
+    with_them, without = fit_line(energy, doors), fit_line(energy[wrong:], doors[wrong:])
+    hat, sigma = with_them.hat[:wrong], with_them.sigma
+    studentized = float(np.max(np.abs(with_them.residual[:wrong] / (sigma * np.sqrt(1 - hat)))))
+    X = np.column_stack([np.ones(rows), doors])
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        robust = RLMDetSMM(energy, X).fit()
+    robust_slope = float(robust.params[1])
+    off_line = float(np.min(np.abs(energy[:wrong] - X[:wrong] @ robust.params)) / float(robust.scale))
+    return Demonstration(
+        (
+            f"{rows} invented site-days; {wrong} have door counts keyed from a weekly total (1,800-2,000",
+            "instead of 100-500) while their energy is an ordinary day's.",
+            "",
+            "                                 door_openings slope",
+            f"  least squares, all rows        {fmt(float(with_them.coef[1])):>10}",
+            f"  least squares, {wrong} rows left out {fmt(float(without.coef[1])):>8}",
+            f"  robust (MM) fit, all rows      {fmt(robust_slope):>10}",
+            "",
+            f"The {wrong} rows pull the least-squares line onto themselves: their largest studentized residual",
+            f"is only {studentized:.1f}, so least-squares diagnostics hide them. Against the robust fit each lies",
+            f"at least {off_line:.1f} robust SDs off the line: bad leverage points.",
+        ),
+        {"slope_all": float(with_them.coef[1]), "slope_without": float(without.coef[1]), "slope_robust": robust_slope, "largest_studentized": studentized, "robust_residual_least": off_line},
+    )
