@@ -14,7 +14,7 @@ from .findings import MAX_LISTED_ROWS, RowLabel
 from .options import CheckOptions
 from .passes import TableStatistics, row_labels
 from .reading import TableInfo
-from .roles import Kind, Roles, numeric_values
+from .roles import Kind, Roles, group_labels, numeric_values
 from .rule import top_rows
 from .scoring import ScoredRows, ScoreTable, score_rows
 from .stats.blas import one_blas_thread
@@ -22,6 +22,7 @@ from .stats.collinearity import Collinearity
 from .stats.curvature import CurvatureCheck, curvature_checks
 from .stats.factor import DesignFactor
 from .stats.fit import PreliminaryFit, RowScores
+from .stats.grouping import BETWEEN_ONLY, GroupFactors, GroupRows
 from .stats.influence import RowInfluence, row_influence
 from .stats.mergeable import Moments
 from .stats.missingness import Holes
@@ -82,6 +83,45 @@ class RunContext:
         return PreliminaryFit(self.factor, tss, self.options.intercept, self.design.X, y)
 
     @cached_property
+    def group_rows(self) -> GroupRows | None:
+        """The group of each complete case (None without grouping: no ``--group`` and no repeating ``--id``)."""
+        if self.roles.group is None:
+            return None
+        labels = group_labels(self.table.column(self.roles.group))
+        positions = self.design.positions
+        return GroupRows.of([labels[int(p)] for p in positions])
+
+    @cached_property
+    def group_factors(self) -> GroupFactors | None:
+        """Per group of complete cases: rows, means and centred R factor of ``[design | target]``; O(n p^2).
+
+        From the merged pass-1 statistics when the engine computed them (every
+        row of the table, whatever the rules see), else from the design.
+        """
+        if self.roles.group is None:
+            return None
+        if self.statistics is not None and self.statistics.model.groups is not None:
+            return self.statistics.model.design_groups(self.design.terms)
+        rows = self.group_rows
+        assert rows is not None
+        with one_blas_thread():
+            return GroupFactors.of(self.design.X, self.design.y, rows)
+
+    @cached_property
+    def between_group_columns(self) -> tuple[str, ...]:
+        """Predictors constant within every group, but not overall (site facts repeated on each site-day); empty without grouping."""
+        factors = self.group_factors
+        if factors is None:
+            return ()
+        share = factors.within_share()
+        design = self.design
+        constant: dict[str, bool] = {}
+        for j, (name, source) in enumerate(zip(design.column_names, design.column_sources)):
+            if source in self.roles.predictors:
+                constant[source] = constant.get(source, True) and not np.nan_to_num(share[j], nan=1.0) > BETWEEN_ONLY
+        return tuple(name for name, flag in constant.items() if flag)
+
+    @cached_property
     def collinearity(self) -> Collinearity:
         """VIFs, predictor correlations and condition indices of the estimable design, from :attr:`factor`; O(p^3)."""
         return Collinearity.of(self.design, self.factor)
@@ -105,13 +145,18 @@ class RunContext:
     def robust_columns(self) -> RobustColumns:
         """The numeric predictors over the complete cases, without those whose MAD is zero, with each one's median and MAD.
 
+        With grouped rows the predictors constant within groups are left out:
+        they hold one value per group, repeated on its rows, and are measured
+        one point per group by ``grouping.group-outliers``.
+
         The medians and MADs are the shared whole-column ones
         (:meth:`median_and_mad`), so a row called unremarkable in every single
         column is one that ``outliers.univariate`` does not flag.
         """
         design = self.design
         names = design.column_names
-        chosen = [c for c in self.numeric_predictors if c in names]
+        repeated = set(self.between_group_columns)
+        chosen = [c for c in self.numeric_predictors if c in names and c not in repeated]
         if not chosen:
             return RobustColumns((), np.empty((design.n, 0)), np.empty(0), np.empty(0))
         indices = [names.index(c) for c in chosen]

@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING, Any
 
 from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, count_by_grade
 from ..rule import fmt
-from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
+from .base import ReportWriter, RunFacts, groups_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -85,6 +85,7 @@ def _facts(report: "Report") -> str:
         ("columns", f"{report.info.columns:,}"),
         ("target", report.target),
         ("row labels", _label_source(report)),
+        ("groups", groups_sentence(report) or "none (rows treated as independent)"),
         ("parameters", f"{report.parameters:,}"),
         ("complete cases", f"{report.complete_cases:,}"),
         ("gate", report.gate.word),

@@ -18,7 +18,7 @@ from ..findings import (
     Grade,
     count_by_grade,
 )
-from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
+from .base import ReportWriter, RunFacts, groups_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -77,6 +77,9 @@ def _design_line(report: "Report") -> Text:
     left_out = report.design.get("left_out", {})
     if report.design.get("id"):
         line.append(f"; row labels from {report.design['id']!r}{_shared_labels(report)}")
+    grouping = groups_sentence(report)
+    if grouping:
+        line.append(f"; {grouping}")
     if left_out:
         line.append("; left out: " + ", ".join(left_out))
     return line
