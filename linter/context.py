@@ -12,7 +12,7 @@ import pyarrow as pa
 from .design import Design, build_design
 from .findings import MAX_LISTED_ROWS, RowLabel
 from .options import CheckOptions
-from .passes import TableStatistics, row_labels
+from .passes import IndicatorFactor, TableStatistics, row_labels
 from .reading import TableInfo
 from .roles import Kind, Roles, group_labels, numeric_values
 from .rule import top_rows
@@ -42,7 +42,8 @@ class RunContext:
     row batches (stream and Dask engines): the column summaries and the R
     factor come from them instead of from ``table``. ``file_positions`` maps
     the rows of ``table`` to their positions in the file when ``table`` is a
-    sample of it.
+    sample of it; ``table_model`` then holds the whole table's pass-1 factor,
+    whose per-group factors the grouping rules read instead of the sample's.
     """
 
     table: pa.Table
@@ -53,6 +54,7 @@ class RunContext:
     score: ScoreTable | None = None
     statistics: TableStatistics | None = field(default=None, repr=False)
     file_positions: np.ndarray | None = field(default=None, repr=False)
+    table_model: IndicatorFactor | None = field(default=None, repr=False)
     _summaries: dict[str, ColumnSummary] = field(default_factory=dict, init=False, repr=False)
     _text_numbers: dict[str, TextNumbers] = field(default_factory=dict, init=False, repr=False)
     _values: dict[str, np.ndarray] = field(default_factory=dict, init=False, repr=False)
@@ -100,8 +102,9 @@ class RunContext:
         """
         if self.roles.group is None:
             return None
-        if self.statistics is not None and self.statistics.model.groups is not None:
-            return self.statistics.model.design_groups(self.design.terms)
+        model = self.statistics.model if self.statistics is not None else self.table_model
+        if model is not None and model.groups is not None:
+            return model.design_groups(self.design.terms)
         rows = self.group_rows
         assert rows is not None
         with one_blas_thread():

@@ -252,6 +252,7 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
         context.statistics = statistics
         return context, EngineRun(runner.name, kept.seen, kept.seen, statistics.model.rows)
     context.file_positions = kept.positions
+    context.table_model = statistics.model
     screens: tuple[MeasureScreen, ...] = ()
     fit = whole_fit(statistics, roles.kinds, intercept) if context.target_is_numeric else None
     if fit is not None and not (fit.rank > 0 and fit.df_resid > 1):

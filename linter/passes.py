@@ -63,8 +63,8 @@ class IndicatorFactor:
     groups: GroupFactors | None = None
 
     @classmethod
-    def of(cls, columns: ModelColumns, roles: Roles, intercept: bool, labels: Sequence[str] | None = None) -> "IndicatorFactor":
-        """The factor of one batch's complete rows; with ``labels`` (each table row's group) also the per-group factors."""
+    def of(cls, columns: ModelColumns, roles: Roles, intercept: bool, groups_of_rows: Sequence[str] | None = None) -> "IndicatorFactor":
+        """The factor of one batch's complete rows; with ``groups_of_rows`` (each batch row's group) also the per-group factors."""
         levels: dict[str, tuple[str, ...]] = {}
         counts: dict[str, dict[str, int]] = {}
         for name, (codes, labels) in columns.categories.items():
@@ -73,7 +73,7 @@ class IndicatorFactor:
             levels[name] = tuple(sorted(counts[name]))
         X, y, positions = columns.coded(roles, intercept, levels)
         block = np.column_stack([X, y])
-        groups = None if labels is None else GroupFactors.of(X, y, GroupRows.of([labels[int(p)] for p in positions]))
+        groups = None if groups_of_rows is None else GroupFactors.of(X, y, GroupRows.of([groups_of_rows[int(p)] for p in positions]))
         return cls(roles.predictors, intercept, levels, counts, TriangularFactor.of(block), Moments.of(y), groups)
 
     def layout(self) -> dict[tuple[str, str | None], int]:
