@@ -392,7 +392,7 @@ def check(
     Keyword options are the configuration keys (``id``, ``exclude``,
     ``predictors``, ``categorical``, ``intercept``, ``fail_at``,
     ``skip_rules``, ``rule``, ``missing_codes``, ``sep``, ``encoding``,
-    ``ranges``, ``anticipated_r2``, ``score``).
+    ``ranges``, ``anticipated_r2``, ``score``, ``order``, ``group``).
     ``accept_file`` names an accepted-findings file: findings it lists are
     counted, not gated; with ``accept_current`` today's findings are written to it.
     """

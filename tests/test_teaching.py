@@ -23,6 +23,7 @@ from prefit.teaching.assumptions import (
 from prefit.teaching.base import fit_line
 from prefit.teaching.collinearity import area_and_racks
 from prefit.teaching.design import codes_as_numbers
+from prefit.teaching.grouping import shared_site_effect
 from prefit.teaching.hygiene import duplicated_days
 from prefit.teaching.influence import mega_site
 from prefit.teaching.missingness import dropout_codes
@@ -31,10 +32,10 @@ from prefit.teaching.ranges import narrow_setpoint
 from prefit.teaching.sample_size import small_extract
 from prefit.teaching.target import skewed_energy
 
-BUILT_IN_FAMILIES = ("assumptions", "collinearity", "design", "hygiene", "influence", "missingness", "outliers", "range", "sample-size", "target")
+BUILT_IN_FAMILIES = ("assumptions", "collinearity", "design", "grouping", "hygiene", "influence", "missingness", "outliers", "range", "sample-size", "target")
 ALL_DEMONSTRATIONS: list[Callable[[], Demonstration]] = [
     area_and_racks, mega_site, tenfold_reading, dropout_codes, duplicated_days, narrow_setpoint, small_extract,
-    skewed_energy, codes_as_numbers, uneven_spread, heat_bend, skewed_errors, autocorrelated_days,
+    skewed_energy, codes_as_numbers, uneven_spread, heat_bend, skewed_errors, autocorrelated_days, shared_site_effect,
 ]
 
 
@@ -230,3 +231,11 @@ def test_why_family_lists_its_rules_and_shows_its_demonstration(cli: Any, regist
     listed = [line.split()[0] for line in run.out.splitlines() if line.startswith("  influence.")]
     assert listed == sorted(r.id for r in registry if rule_family(r.id) == "influence")
     assert str(mega_site()) in run.out
+
+
+def test_grouping_demonstration_shows_the_usual_standard_error_too_small() -> None:
+    shown = shared_site_effect()
+    # source: Kish (1965), Survey Sampling, sec. 5.4: the variance of a cluster-level estimate grows by the design effect,
+    # so the real spread over draws is about sqrt(design effect) times the usual standard error
+    assert shown.numbers["se_ratio"] > 3
+    assert_allclose(shown.numbers["se_ratio"], np.sqrt(shown.numbers["design_effect"]), rtol=0.25)

@@ -29,6 +29,8 @@ DEMONSTRATIONS: Mapping[str, tuple[str, str]] = {
     "collinearity.condition": ("collinearity", "area_and_racks"),
     "design": ("design", "codes_as_numbers"),
     "design.possible-code": ("design", "codes_as_numbers"),
+    "grouping": ("grouping", "shared_site_effect"),
+    "grouping.residual-correlation": ("grouping", "shared_site_effect"),
     "hygiene": ("hygiene", "duplicated_days"),
     "hygiene.duplicate-rows": ("hygiene", "duplicated_days"),
     "influence": ("influence", "mega_site"),
