@@ -85,11 +85,17 @@ class GroupFactors:
         k = X.shape[1] + 1
         means = np.zeros((rows.count, k))
         r = np.zeros((rows.count, k, k))
-        for g, members in enumerate(rows.members):
-            block = np.column_stack([X[members], y[members]])
-            means[g] = block.mean(axis=0)
-            r[g] = triangular(block - means[g])
-        return cls(rows.labels, rows.sizes.astype(np.int64), means, r)
+        sizes = rows.sizes
+        order = np.argsort(rows.codes, kind="stable")
+        starts = np.concatenate([[0], np.cumsum(sizes)[:-1]])
+        # Groups of one size are stacked and factored together: one batched QR per distinct size.
+        for size in np.unique(sizes[sizes > 0]):
+            chosen = np.flatnonzero(sizes == size)
+            picked = order[starts[chosen][:, None] + np.arange(size)[None, :]]
+            block = np.concatenate([X[picked], y[picked][:, :, None]], axis=2)
+            means[chosen] = block.mean(axis=1)
+            r[chosen] = _triangular_each(block - means[chosen][:, None, :], k)
+        return cls(rows.labels, sizes.astype(np.int64), means, r)
 
     @property
     def count(self) -> int:
@@ -102,30 +108,39 @@ class GroupFactors:
         return int(self.counts.sum())
 
     def merge(self, other: "GroupFactors") -> "GroupFactors":
-        """The factors of both parts; a group found in both combines its means and centred factors exactly."""
+        """The factors of both parts; a group found in both combines its means and centred factors exactly.
+
+        For a shared group ``R = qr([R_a; R_b; sqrt(n_a n_b / n) (mean_b - mean_a)])``, all shared groups in
+        one stacked QR.
+        """
         labels = tuple(sorted(set(self.labels) | set(other.labels)))
         index = {label: g for g, label in enumerate(labels)}
         k = self.means.shape[1]
         counts = np.zeros(len(labels), dtype=np.int64)
         means = np.zeros((len(labels), k))
         r = np.zeros((len(labels), k, k))
-        filled = np.zeros(len(labels), dtype=bool)
-        for part in (self, other):
-            for g, label in enumerate(part.labels):
-                at = index[label]
-                if not filled[at]:
-                    counts[at], means[at], r[at], filled[at] = part.counts[g], part.means[g], part.r[g], True
-                    continue
-                na, nb = int(counts[at]), int(part.counts[g])
-                n = na + nb
-                delta = part.means[g] - means[at]
-                r[at] = triangular(np.vstack([r[at], part.r[g], np.sqrt(na * nb / n) * delta[None, :]]))
-                means[at] = means[at] + delta * nb / n
-                counts[at] = n
+        mine = np.array([index[label] for label in self.labels], dtype=np.int64)
+        theirs = np.array([index[label] for label in other.labels], dtype=np.int64)
+        counts[mine], means[mine], r[mine] = self.counts, self.means, self.r
+        shared = np.zeros(len(labels), dtype=bool)
+        shared[mine] = True
+        only = ~shared[theirs]
+        counts[theirs[only]], means[theirs[only]], r[theirs[only]] = other.counts[only], other.means[only], other.r[only]
+        both, source = theirs[~only], np.flatnonzero(~only)
+        if both.size:
+            na, nb = counts[both].astype(float), other.counts[source].astype(float)
+            n = na + nb
+            delta = other.means[source] - means[both]
+            stacked = np.concatenate([r[both], other.r[source], (np.sqrt(na * nb / n)[:, None] * delta)[:, None, :]], axis=1)
+            r[both] = _triangular_each(stacked, k)
+            means[both] = means[both] + delta * (nb / n)[:, None]
+            counts[both] = counts[both] + other.counts[source]
         return GroupFactors(labels, counts, means, r)
 
     def placed(self, destination: Sequence[int], width: int) -> "GroupFactors":
         """The factors with column ``j`` moved to ``destination[j]`` of ``width`` columns (the others zero)."""
+        if list(destination) == list(range(width)):
+            return self
         means = np.zeros((self.count, width))
         r = np.zeros((self.count, self.r.shape[1], width))
         means[:, destination] = self.means
@@ -181,9 +196,13 @@ def _residual_vector(coef: np.ndarray) -> np.ndarray:
 
 
 def _triangular_each(r: np.ndarray, width: int) -> np.ndarray:
+    """The ``width x width`` R factor of each matrix of the stack ``r`` (groups x rows x width), in one stacked QR."""
     out = np.zeros((r.shape[0], width, width))
-    for g in range(r.shape[0]):
-        out[g] = triangular(r[g])
+    if r.shape[0] == 0 or width == 0:
+        return out
+    if r.shape[1] < width:
+        r = np.concatenate([r, np.zeros((r.shape[0], width - r.shape[1], width))], axis=1)
+    out[:] = np.linalg.qr(r, mode="r")
     return out
 
 
@@ -266,6 +285,51 @@ def cr1_covariance(fit: PreliminaryFit, scores: np.ndarray) -> np.ndarray:
     correction = groups / (groups - 1) * (n - 1) / (n - k)
     out[np.ix_(estimable, estimable)] = correction * bread @ meat @ bread
     return out
+
+
+@dataclass(frozen=True)
+class GroupDeletions:
+    """What deleting each whole group does to the fit: ``shift[g]`` is ``b - b_(g)`` (design units, NaN where not
+    estimable) and ``cooks[g]`` the group's Cook's distance (infinite when the other groups cannot estimate every
+    coefficient)."""
+
+    shift: np.ndarray
+    cooks: np.ndarray
+
+
+def group_deletions(factors: GroupFactors, fit: PreliminaryFit) -> GroupDeletions:
+    """Delete each group in turn, all groups at once in the ``rank``-dimensional whitened coordinates of the fit.
+
+    With ``M`` the fit's leverage map (``M' X'X M = I``), ``B_g = M' X_g'X_g M``
+    comes from the group's centred factor and mean, and
+    ``b - b_(g) = M (I - B_g)^-1 M' X_g' e_g``; Cook's distance is
+    ``||(I - B_g)^-1 M' X_g' e_g||^2 / (k s^2)``. O(G k^3), no row is read.
+
+    References
+    ----------
+    Cook & Weisberg (1982), Residuals and Influence in Regression, sec. 3.6 (deleting subsets of cases).
+    """
+    groups, p = factors.count, factors.means.shape[1] - 1
+    k = fit.rank
+    shift = np.full((groups, p), np.nan)
+    cooks = np.full(groups, np.nan)
+    if k == 0 or groups == 0 or fit.df_resid <= 0:
+        return GroupDeletions(shift, cooks)
+    whiten = fit.leverage_map
+    centred = factors.r[:, :, :p] @ whiten
+    mean = np.sqrt(factors.counts)[:, None] * (factors.means[:, :p] @ whiten)
+    kept = np.eye(k) - np.einsum("gij,gil->gjl", centred, centred) - np.einsum("gj,gl->gjl", mean, mean)
+    reach = factors.scores(fit.coef) @ whiten
+    smallest = np.linalg.eigvalsh(kept)[:, 0]
+    solvable = smallest > max(k, 1) * 1e3 * np.finfo(float).eps
+    moved = np.zeros((groups, k))
+    moved[solvable] = np.linalg.solve(kept[solvable], reach[solvable][:, :, None])[:, :, 0]
+    estimable = fit.factor.perm[:k]
+    shift[np.ix_(solvable, estimable)] = (moved[solvable] @ whiten.T)[:, estimable]
+    s2 = fit.rss / fit.df_resid
+    cooks[solvable] = np.einsum("gj,gj->g", moved[solvable], moved[solvable]) / (k * s2) if s2 > 0 else np.inf
+    cooks[~solvable] = np.inf
+    return GroupDeletions(shift, cooks)
 
 
 @dataclass(frozen=True)
