@@ -124,11 +124,10 @@ def _heteroscedasticity(ctx: RunContext, settings: RuleSettings) -> Iterator[Fin
     usual = np.sqrt(np.diag(fit.cov_unscaled) * float(residual @ residual) / df_resid)
     robust = hc3_standard_errors(fit, X, residual, scores.hat)
     ratio = robust / usual
-    candidates = [j for j, name in enumerate(design.column_names) if name != INTERCEPT and np.isfinite(ratio[j]) and ratio[j] > 0]
-    if not candidates:
+    compared = worst_se_ratio(design.column_names, ratio)
+    if compared is None:
         return
-    worst = max(candidates, key=lambda j: (max(ratio[j], 1 / ratio[j]), -j))
-    change = float(max(ratio[worst], 1 / ratio[worst]))
+    candidates, worst, change = compared
     graded = settings.grade_of(change)
     if graded is None:
         return
@@ -159,6 +158,16 @@ def _heteroscedasticity(ctx: RunContext, settings: RuleSettings) -> Iterator[Fin
             "after_bends_in": bent,
         },
     )
+
+
+def worst_se_ratio(names: Sequence[str], ratio: np.ndarray) -> tuple[list[int], int, float] | None:
+    """The slopes with a finite positive ratio of a robust to the usual standard error, the one furthest from 1, and
+    how far (the ratio or its inverse, whichever is larger); None when no slope has one."""
+    candidates = [j for j, name in enumerate(names) if name != INTERCEPT and np.isfinite(ratio[j]) and ratio[j] > 0]
+    if not candidates:
+        return None
+    worst = max(candidates, key=lambda j: (max(ratio[j], 1 / ratio[j]), -j))
+    return candidates, worst, float(max(ratio[worst], 1 / ratio[worst]))
 
 
 def _row_sample_reason(sampled: SampledTest, p: int) -> str | None:

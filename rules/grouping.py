@@ -30,6 +30,7 @@ from prefit.stats.grouping import (
 from prefit.stats.robust import MODIFIED_Z_LIMIT, median_and_mad, modified_z, robust_distances
 
 from ._rowfindings import CHANCE, beyond_chance, chance_details, coefficient_phrase
+from .assumptions import worst_se_ratio
 
 ALPHA = Threshold("alpha", 0.01, "common practice: 1% significance level, as each grouping check is one of several tests")
 PER_PARAMETER_SOURCE = (
@@ -114,20 +115,27 @@ def cluster_se_ratio(ctx: RunContext) -> np.ndarray:
         return np.asarray(robust / fit.se)
 
 
-def _residual_correlation(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+def _correlated(ctx: RunContext, settings: RuleSettings) -> IntraclassCorrelation | None:
+    """The residual ICC when it is positive and significant at the rule's ``alpha`` (one-way ANOVA F test), else None."""
     factors = _grouped(ctx)
     if not _fit_ready(ctx) or factors.count < 2:
-        return
+        return None
     icc = residual_icc(ctx)
     if not (np.isfinite(icc.p_value) and icc.p_value < settings.limit("alpha") and icc.icc > 0):
+        return None
+    return icc
+
+
+def _residual_correlation(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    icc = _correlated(ctx, settings)
+    if icc is None:
         return
     design = ctx.design
     ratio = cluster_se_ratio(ctx)
-    candidates = [j for j, name in enumerate(design.column_names) if name != INTERCEPT and np.isfinite(ratio[j]) and ratio[j] > 0]
-    if not candidates:
+    compared = worst_se_ratio(design.column_names, ratio)
+    if compared is None:
         return
-    worst = max(candidates, key=lambda j: (max(ratio[j], 1 / ratio[j]), -j))
-    change = float(max(ratio[worst], 1 / ratio[worst]))
+    candidates, worst, change = compared
     graded = settings.grade_of(change)
     if graded is None:
         return
@@ -169,10 +177,8 @@ def _p(value: float) -> str:
 
 def _few_groups(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     factors = _grouped(ctx)
-    if not _fit_ready(ctx) or factors.count < 2:
-        return
-    icc = residual_icc(ctx)
-    if not (np.isfinite(icc.p_value) and icc.p_value < settings.limit("alpha") and icc.icc > 0):
+    icc = _correlated(ctx, settings)
+    if icc is None:
         return
     graded = settings.grade_of(float(factors.count))
     if graded is None:

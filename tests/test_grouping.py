@@ -240,3 +240,44 @@ def test_beyond_the_row_budget_the_groups_are_those_of_the_whole_table() -> None
     # The group sums are the whole table's; only the coefficients come from the sample's fit.
     assert found["grouping.residual-correlation"]["details"]["groups"] == 40
     assert_allclose(found["grouping.residual-correlation"]["details"]["icc"], reference["grouping.residual-correlation"]["details"]["icc"], rtol=0.05)
+
+
+def test_a_shared_site_effect_is_not_read_as_autocorrelation_within_sites() -> None:
+    args = ("check", SAMPLE_TABLES / "warehouse_site_effect.csv", "--target", "energy_kwh", "--id", "site_id", "--order", "day", "--format", "json")
+    grouped = run_cli(*args).json()
+    assert "assumptions.autocorrelation" not in [f["rule"] for f in grouped["findings"]]
+    # Without grouping the same rows, ordered by site and day, show the site effect as lag-1 correlation.
+    ungrouped = run_cli(*args, "--group", "none").json()
+    assert "assumptions.autocorrelation" in [f["rule"] for f in ungrouped["findings"]]
+
+
+def test_autocorrelation_within_groups_is_still_found() -> None:
+    rng = np.random.default_rng(21)
+    sites, days = 30, 60
+    rows = []
+    for s in range(sites):
+        noise = np.zeros(days)
+        for t in range(1, days):
+            noise[t] = 0.6 * noise[t - 1] + rng.normal()
+        outdoor = rng.normal(12, 4, days)
+        rows.append(pd.DataFrame({"site": f"S{s:02d}", "day": np.arange(days), "outdoor_c": outdoor, "energy": 2 + 0.5 * outdoor + noise}))
+    frame = pd.concat(rows, ignore_index=True)
+    report = check(frame, target="energy", id="site", order="day", predictors=["outdoor_c"])
+    found = [f for f in report.findings if f.rule == "assumptions.autocorrelation"]
+    # source: an AR(1) error with rho = 0.6 within each site (Durbin-Watson about 2 (1 - 0.6) = 0.8)
+    assert len(found) == 1 and found[0].details["series_by"] == "site" and found[0].details["series"] == sites
+    assert_allclose(found[0].details["autocorrelations"][0], 0.6, atol=0.1)
+
+
+def test_site_level_parameters_are_counted_against_sites_not_rows() -> None:
+    rng = np.random.default_rng(4)
+    sites, days = 40, 50
+    code = np.repeat(np.arange(sites), days)
+    facts = {f"fact_{i}": rng.normal(size=sites)[code] for i in range(12)}
+    frame = pd.DataFrame({"site": np.array([f"S{i:02d}" for i in range(sites)])[code], "outdoor_c": rng.normal(size=code.size), **facts})
+    frame["energy"] = frame["outdoor_c"] + rng.normal(size=code.size)
+    report = check(frame, target="energy", id="site")
+    found = [f for f in report.findings if f.rule == "grouping.between-predictors"]
+    # common practice: 40 groups for 12 group-level parameters is 3.3 per parameter, below 5 (however many rows)
+    assert len(found) == 1 and found[0].grade is Grade.MISLEADS and found[0].value == pytest.approx(40 / 12)
+    assert set(found[0].columns) == set(facts)
