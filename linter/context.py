@@ -262,6 +262,14 @@ class RunContext:
         return self.roles.kinds[self.roles.target] in (Kind.NUMERIC, Kind.BOOLEAN)
 
     @property
+    def value_screened_columns(self) -> tuple[str, ...]:
+        """The columns ``outliers.univariate`` measures value by value: a numeric target and the numeric predictors,
+        without those constant within groups (one value per group, measured one point per group instead)."""
+        repeated = set(self.between_group_columns)
+        target = [self.roles.target] if self.roles.kinds[self.roles.target] is Kind.NUMERIC else []
+        return tuple(target + [c for c in self.numeric_predictors if c not in repeated])
+
+    @property
     def model_columns(self) -> tuple[str, ...]:
         """The target followed by the predictors."""
         return (self.roles.target, *self.roles.predictors)

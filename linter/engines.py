@@ -271,9 +271,7 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
 
 def column_fences(context: RunContext) -> ColumnFences | None:
     """The sample's median and MAD of each column ``outliers.univariate`` measures (those with a nonzero MAD), or None."""
-    target = context.roles.target
-    names = ([target] if context.roles.kinds[target] is Kind.NUMERIC else []) + list(context.numeric_predictors)
-    spreads = [(name, *context.median_and_mad(name)) for name in names]
+    spreads = [(name, *context.median_and_mad(name)) for name in context.value_screened_columns]
     kept = [(name, median, mad) for name, median, mad in spreads if np.isfinite(mad) and mad > 0]
     if not kept:
         return None
