@@ -17,6 +17,7 @@ from ..findings import (
     Finding,
     Grade,
     count_by_grade,
+    counted,
 )
 from .base import ReportWriter, RunFacts, groups_sentence, labels_not_unique, row_groups
 
@@ -51,6 +52,7 @@ def _facts(report: "Report") -> Text:
         ("target", report.target),
         ("parameters", f"{report.parameters:,}"),
         ("complete cases", f"{report.complete_cases:,}"),
+        ("purpose", report.purpose),
     ]
     for i, (label, value) in enumerate(pairs):
         if i:
@@ -68,7 +70,7 @@ def _design_line(report: "Report") -> Text:
         parts.append(f"{numeric} numeric")
     for term in terms:
         if "reference" in term:
-            parts.append(f"{term['column']} ({term['parameters']} dummies, reference {term['reference']!r})")
+            parts.append(f"{term['column']} ({counted(term['parameters'], 'dummy', 'dummies')}, reference {term['reference']!r})")
         elif term["kind"] in ("categorical", "boolean"):
             parts.append(f"{term['column']} (no complete rows)")
     line = Text()
@@ -115,7 +117,7 @@ def _finding_lines(finding: Finding, explain: str | None, told: set[tuple[str, s
     if finding.rows:
         items, more = row_groups(finding, 10)
         shown = ", ".join(items)
-        lines.append((INDENT_BODY, Text(f"rows: {shown}" + (f" and {more:,} more rows" if more > 0 else ""), style="facts.label")))
+        lines.append((INDENT_BODY, Text(f"rows: {shown}" + (f" and {counted(more, 'more row')}" if more > 0 else ""), style="facts.label")))
     if explain:
         lines.append((INDENT_BODY, Text(_once("why", explain, told), style="finding.why")))
     if finding.remedy:
