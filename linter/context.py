@@ -177,11 +177,12 @@ class RunContext:
         whole-column pass read the entire matrix.
         """
         design = self.design
-        term = design.term(design.column_sources[design.column_names.index(name)])
+        index = design.column_index[name]
+        term = design.term(design.column_sources[index])
         if term.kind in (Kind.NUMERIC, Kind.DATETIME) and term.reference is None:
             values = self.values(term.source)
             return values if design.n == values.size else values[design.positions]
-        return np.ascontiguousarray(design.X[:, design.column_names.index(name)])
+        return np.ascontiguousarray(design.X[:, index])
 
     @cached_property
     def holes(self) -> Holes:

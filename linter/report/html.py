@@ -12,7 +12,7 @@ import html
 from typing import TYPE_CHECKING, Any
 
 from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, count_by_grade
-from ..rule import fmt
+from ..rule import capped_names, fmt
 from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
@@ -122,7 +122,7 @@ def _counts(report: "Report", findings: list[Finding]) -> str:
 
 def _finding(finding: Finding, why: str) -> str:
     parts = [f'<article class="finding grade-{finding.grade.word}">']
-    columns = f' <span class="columns">{esc(", ".join(finding.columns))}</span>' if finding.columns else ""
+    columns = f' <span class="columns">{esc(capped_names(finding.columns))}</span>' if finding.columns else ""
     parts.append(f'<div><span class="tag grade-{finding.grade.word}">{esc(finding.grade.word)}</span> <span class="rule">{esc(finding.rule)}</span>{columns}</div>')
     parts.append(f"<p>{esc(finding.message)}</p>")
     if finding.rows:

@@ -18,6 +18,7 @@ from ..findings import (
     Grade,
     count_by_grade,
 )
+from ..rule import capped_names
 from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
@@ -78,7 +79,7 @@ def _design_line(report: "Report") -> Text:
     if report.design.get("id"):
         line.append(f"; row labels from {report.design['id']!r}{_shared_labels(report)}")
     if left_out:
-        line.append("; left out: " + ", ".join(left_out))
+        line.append("; left out: " + capped_names(list(left_out)))
     return line
 
 
@@ -103,7 +104,7 @@ def _once(label: str, text: str, told: set[tuple[str, str]]) -> str:
 def _finding_lines(finding: Finding, explain: str | None, told: set[tuple[str, str]]) -> list[tuple[int, RenderableType]]:
     title = Text(finding.rule, style="finding.rule")
     if finding.columns:
-        title.append("  " + ", ".join(finding.columns), style="finding.columns")
+        title.append("  " + capped_names(finding.columns), style="finding.columns")
     head = Table.grid(padding=(0, 1))
     head.add_column(no_wrap=True)
     head.add_column()
