@@ -110,11 +110,11 @@ class RunContext:
         column is one that ``outliers.univariate`` does not flag.
         """
         design = self.design
-        names = design.column_names
-        chosen = [c for c in self.numeric_predictors if c in names]
+        index = design.column_index
+        chosen = [c for c in self.numeric_predictors if c in index]
         if not chosen:
             return RobustColumns((), np.empty((design.n, 0)), np.empty(0), np.empty(0))
-        indices = [names.index(c) for c in chosen]
+        indices = [index[c] for c in chosen]
         consecutive = indices == list(range(indices[0], indices[0] + len(indices)))
         data = design.X[:, indices[0] : indices[0] + len(indices)] if consecutive else design.X[:, indices]
         spread = np.array([self.median_and_mad(c) for c in chosen]).reshape(-1, 2)
