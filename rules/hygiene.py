@@ -449,8 +449,9 @@ def _scale_disparity(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
     for column in ctx.numeric_predictors:
         values = ctx.design_column(column)
         nonzero = np.abs(values[values != 0])
-        if nonzero.size:
-            magnitudes[column] = float(np.median(nonzero * 0.5) * 2.0)  # halved: the middle pair's mean cannot overflow
+        magnitude = float(np.median(nonzero * 0.5) * 2.0) if nonzero.size else 0.0  # halved: the middle pair's mean cannot overflow
+        if magnitude > 0.0:  # the smallest subnormal halves to zero
+            magnitudes[column] = magnitude
     if len(magnitudes) < 2:
         return
     largest = max(magnitudes, key=lambda c: (magnitudes[c], c))
