@@ -82,7 +82,7 @@ def generate(rows: int, columns: int) -> Path:
 
 def check_command(path: Path, fmt: str) -> list[str]:
     """The prefit command on one table in one output format."""
-    return [sys.executable, "-m", "prefit", "check", str(path), "--target", "y", "--format", fmt, "--no-config", "--skip-rules", ROBUST_RULE]
+    return [sys.executable, "-m", "prefit", "check", str(path), "--target", "y", "--format", fmt, "--no-config", "--skip", ROBUST_RULE]
 
 
 def timed_output(command: list[str], timeout: float | None = None) -> tuple[float, float, str]:

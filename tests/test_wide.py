@@ -131,3 +131,13 @@ def test_stream_and_dask_engines_agree_on_a_wide_noise_table(tmp_path: Path, req
     args = ("--target", "y")
     stream = report_of(path, args, "stream")
     same_values(report_of(path, args, "dask", request.getfixturevalue("scheduler")), stream)
+
+
+def test_text_design_line_names_at_most_ten_categorical_terms() -> None:
+    rng = np.random.default_rng(6)
+    frame = pd.DataFrame({f"c{j:02d}": rng.choice(["a", "b", "c"], 300) for j in range(15)})
+    frame["y"] = rng.standard_normal(300)
+    report = check(frame, target="y")
+    text = report.render("text")
+    assert "+ 7 more categories" in text and "c14 (2 dummies" not in text
+    assert len(report.to_dict()["design"]["terms"]) == 16  # the JSON report keeps every term (intercept included)

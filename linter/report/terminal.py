@@ -18,7 +18,7 @@ from ..findings import (
     Grade,
     count_by_grade,
 )
-from ..rule import capped_names
+from ..rule import LISTED_NAMES, capped_names
 from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
@@ -67,11 +67,14 @@ def _design_line(report: "Report") -> Text:
     numeric = sum(1 for t in terms if t["kind"] in ("numeric", "datetime"))
     if numeric:
         parts.append(f"{numeric} numeric")
+    coded: list[str] = []
     for term in terms:
         if "reference" in term:
-            parts.append(f"{term['column']} ({term['parameters']} dummies, reference {term['reference']!r})")
+            coded.append(f"{term['column']} ({term['parameters']} dummies, reference {term['reference']!r})")
         elif term["kind"] in ("categorical", "boolean"):
-            parts.append(f"{term['column']} (no complete rows)")
+            coded.append(f"{term['column']} (no complete rows)")
+    shown = coded if len(coded) <= LISTED_NAMES else coded[: LISTED_NAMES - 2] + [f"{len(coded) - LISTED_NAMES + 2:,} more categories"]
+    parts += shown
     line = Text()
     line.append("design ", style="facts.label")
     line.append(" + ".join(parts) or "empty")
