@@ -157,12 +157,12 @@ class RunContext:
         column is one that ``outliers.univariate`` does not flag.
         """
         design = self.design
-        names = design.column_names
+        index = design.column_index
         repeated = set(self.between_group_columns)
-        chosen = [c for c in self.numeric_predictors if c in names and c not in repeated]
+        chosen = [c for c in self.numeric_predictors if c in index and c not in repeated]
         if not chosen:
             return RobustColumns((), np.empty((design.n, 0)), np.empty(0), np.empty(0))
-        indices = [names.index(c) for c in chosen]
+        indices = [index[c] for c in chosen]
         consecutive = indices == list(range(indices[0], indices[0] + len(indices)))
         data = design.X[:, indices[0] : indices[0] + len(indices)] if consecutive else design.X[:, indices]
         spread = np.array([self.median_and_mad(c) for c in chosen]).reshape(-1, 2)
@@ -225,11 +225,12 @@ class RunContext:
         whole-column pass read the entire matrix.
         """
         design = self.design
-        term = design.term(design.column_sources[design.column_names.index(name)])
+        index = design.column_index[name]
+        term = design.term(design.column_sources[index])
         if term.kind in (Kind.NUMERIC, Kind.DATETIME) and term.reference is None:
             values = self.values(term.source)
             return values if design.n == values.size else values[design.positions]
-        return np.ascontiguousarray(design.X[:, design.column_names.index(name)])
+        return np.ascontiguousarray(design.X[:, index])
 
     @cached_property
     def holes(self) -> Holes:

@@ -282,8 +282,10 @@ def numeric_values(column: pa.ChunkedArray) -> np.ndarray:
         return np.asarray(seconds.to_numpy(zero_copy_only=False), dtype=np.float64) / 86400.0
     if pa.types.is_boolean(t):
         column = pc.cast(column, pa.int8())
-    # Integers beyond 2**53 round to the nearest double, as every statistics package does.
-    values = pc.cast(column, pa.float64(), safe=False).to_numpy(zero_copy_only=False)
+    # Integers beyond 2**53 round to the nearest double, as every statistics package does. A float64 column is
+    # converted directly: the cast's result converts about a hundred times slower for short columns.
+    floats = column if pa.types.is_float64(t) else pc.cast(column, pa.float64(), safe=False)
+    values = floats.to_numpy(zero_copy_only=False)
     return np.asarray(values, dtype=np.float64)
 
 
