@@ -186,8 +186,7 @@ def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     import scipy.stats
 
     limit = settings.threshold("weakens")
-    target = ctx.roles.target
-    columns = ([target] if ctx.roles.kinds[target] is Kind.NUMERIC else []) + list(ctx.numeric_predictors)
+    columns = ctx.value_screened_columns
     normal_cross = float(2.0 * scipy.stats.norm.sf(limit.value))
     for column in columns:
         values = ctx.values(column)

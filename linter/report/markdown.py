@@ -13,6 +13,7 @@ import re
 from typing import TYPE_CHECKING
 
 from ..findings import GRADES_STRONGEST_FIRST, Finding, count_by_grade, counted
+from ..rule import capped_names
 from .base import ReportWriter, RunFacts, fix_first, folded, row_groups
 
 if TYPE_CHECKING:
@@ -91,7 +92,7 @@ class MarkdownWriter(ReportWriter):
                 if root.key not in shown:
                     continue
                 for f in [root, *effects]:
-                    columns = ", ".join(md_text(c) for c in f.columns) or "-"
+                    columns = md_text(capped_names(f.columns)) or "-"
                     grade = f.grade.word if f is root else f"&#8627; {f.grade.word}"
                     lines.append(f"| {grade} | `{f.rule}` | {columns} | {md_text(f.message)}{_rows(f)} |")
             lines.append("")

@@ -10,11 +10,9 @@ FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
     ("hygiene.duplicate-rows", "weakens", ()),
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles")),
 ]
 FIX_FIRST = [
     ("hygiene.duplicate-rows", "weakens", (), 0),
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles"), 0),
 ]
 EXIT_CODE = 0
 

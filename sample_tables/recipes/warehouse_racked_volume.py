@@ -10,11 +10,15 @@ FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
     ("collinearity.condition", "misleads", ("floor_area_m2", "rack_volume_m3")),
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "rack_volume_m3")),
+    ("grouping.between-predictors", "weakens", ("floor_area_m2", "compressor_type", "rack_volume_m3")),
+    ("grouping.group-outliers", "weakens", ("floor_area_m2", "rack_volume_m3")),
+    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles")),
 ]
 FIX_FIRST = [
     ("collinearity.condition", "misleads", ("floor_area_m2", "rack_volume_m3"), 0),
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "rack_volume_m3"), 0),
+    ("grouping.between-predictors", "weakens", ("floor_area_m2", "compressor_type", "rack_volume_m3"), 0),
+    ("grouping.group-outliers", "weakens", ("floor_area_m2", "rack_volume_m3"), 0),
+    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles"), 0),
 ]
 EXIT_CODE = 1
 
