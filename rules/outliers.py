@@ -8,7 +8,6 @@ import numpy as np
 
 from prefit.context import RunContext
 from prefit.findings import MAX_LISTED_ROWS, Finding, Grade
-from prefit.roles import Kind
 from prefit.rule import COMMON_PRACTICE, Repair, Rule, RuleSettings, Threshold, fmt, meaningful_ratio
 from prefit.stats.chance import chance_check, chance_check_counts, probability_text, t_tail
 from prefit.stats.robust import (
