@@ -13,7 +13,7 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.design import INTERCEPT
 from prefit.findings import Finding, Grade, RowLabel
-from prefit.rule import Repair, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import NotApplicable, Repair, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.chance import (
     chance_check,
     cooks_tail,
@@ -22,7 +22,7 @@ from prefit.stats.chance import (
     t_tail,
 )
 from prefit.stats.influence import group_deletion
-from prefit.stats.resistant import RESIDUAL_LIMIT, RowClass, classify, distance_cutoff
+from prefit.stats.resistant import MIN_ROWS_PER_PARAMETER, RESIDUAL_LIMIT, RowClass, classify, distance_cutoff, resistant_rows
 
 from ._rowfindings import (
     CHANCE,
@@ -341,6 +341,11 @@ def _robust_distortion(ctx: RunContext, settings: RuleSettings) -> Iterator[Find
 
     if not _usable(ctx):
         return
+    rows, rank = resistant_rows(ctx.design.n), ctx.fit.rank
+    if rows < MIN_ROWS_PER_PARAMETER * rank:
+        raise NotApplicable(
+            f"{rows:,} rows for {rank:,} parameters: a high-breakdown fit needs at least {MIN_ROWS_PER_PARAMETER} rows per parameter"
+        )
     residual_limit = settings.limit("residual")
     classified = robust_classes(ctx, residual_limit)
     resistant = ctx.resistant

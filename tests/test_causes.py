@@ -137,5 +137,7 @@ def test_vifs_within_chance_for_few_rows_point_to_the_sample_size() -> None:
     report = check(frame, "y")
     (size,) = [f for f in report.findings if f.rule == "sample-size.per-parameter"]
     vifs = [f for f in report.findings if f.rule == "collinearity.vif"]
-    assert vifs
-    assert sum(size.key in f.explained_by for f in vifs) >= 0.9 * len(vifs)
+    stood_aside = next(o.not_applicable for o in report.outcomes if o.rule == "collinearity.vif")
+    # either the VIF rule stands aside because chance alone reaches its limit at this size, or its findings
+    # point to the shortage of rows as their cause: never a flood of unexplained VIF findings
+    assert (not vifs and "chance" in (stood_aside or "")) or sum(size.key in f.explained_by for f in vifs) >= 0.9 * len(vifs)

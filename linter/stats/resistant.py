@@ -25,6 +25,9 @@ import numpy as np
 from .robust import content_sample_positions
 
 RESISTANT_SAMPLE_ROWS = 1_000
+MIN_ROWS_PER_PARAMETER = 5
+"""Rows per estimated parameter below which the high-breakdown fit is not attempted (common practice, as for the MCD: with fewer
+the S-estimator's elemental subsets cover the design too thinly, and its bad-leverage calls are noise)."""
 RESIDUAL_LIMIT = 2.5
 DISTANCE_QUANTILE = 0.975
 
@@ -61,6 +64,11 @@ class ResistantFit:
         """Standardized robust residuals ``(y - X b) / scale`` of further rows (pass 2 over a long table)."""
         kept = np.flatnonzero(np.isfinite(self.coef))
         return (y - X[:, kept] @ self.coef[kept]) / self.scale
+
+
+def resistant_rows(complete_cases: int) -> int:
+    """How many rows the high-breakdown fit is computed on: every complete case up to the sample size."""
+    return min(complete_cases, RESISTANT_SAMPLE_ROWS)
 
 
 def resistant_fit(
