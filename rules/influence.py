@@ -341,10 +341,10 @@ def _robust_distortion(ctx: RunContext, settings: RuleSettings) -> Iterator[Find
 
     if not _usable(ctx):
         return
-    rows, rank = resistant_rows(ctx.design.n), ctx.fit.rank
-    if rows < MIN_ROWS_PER_PARAMETER * rank:
+    fitted_rows, rank = resistant_rows(ctx.design.n), ctx.fit.rank
+    if fitted_rows < MIN_ROWS_PER_PARAMETER * rank:
         raise NotApplicable(
-            f"{rows:,} rows for {rank:,} parameters: a high-breakdown fit needs at least {MIN_ROWS_PER_PARAMETER} rows per parameter"
+            f"{fitted_rows:,} rows for {rank:,} parameters: a high-breakdown fit needs at least {MIN_ROWS_PER_PARAMETER} rows per parameter"
         )
     residual_limit = settings.limit("residual")
     classified = robust_classes(ctx, residual_limit)
