@@ -352,3 +352,15 @@ def test_inflation_beyond_double_precision_says_so() -> None:
     rule = discover().get("collinearity.vif")
     findings = list(rule.check(ctx, RuleSettings.defaults(rule)))
     assert findings and all(f.details["reliable"] is False and "beyond what double precision resolves" in f.message for f in findings)
+
+
+def test_semidefinite_helpers_neither_raise_nor_go_negative_on_a_singular_matrix() -> None:
+    from prefit.stats.collinearity import _determinant, _solve_semidefinite
+
+    rank_one = np.outer([9.6e24, 9.6e24], [1.0, 1.0])
+    b = np.array([[1.0], [3.0]])
+    # source: numpy.linalg.pinv (SVD pseudo-inverse) as the reference solution of a singular system
+    assert_allclose(_solve_semidefinite(rank_one, b), np.linalg.pinv(rank_one) @ b, rtol=1e-12)
+    assert _determinant(rank_one) >= 0.0
+    assert np.linalg.det(rank_one + np.diag([0.0, -1e9])) < 0  # the round-off a plain determinant can show
+    assert _determinant(rank_one + np.diag([0.0, -1e9])) == 0.0

@@ -21,7 +21,8 @@ import numpy as np
 import scipy.linalg
 
 from ..design import INTERCEPT, Design
-from .factor import EPS, DesignFactor, condition_number
+from .factor import EPS, DesignFactor
+from .factor import condition_number as condition_of
 
 DOMINANT_PROPORTION = 0.5
 RELIABLE_ERROR = 0.1
@@ -97,11 +98,16 @@ def _determinant(symmetric: np.ndarray) -> float:
 
 
 def _solve_semidefinite(a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    """``a^-1 b`` for a positive semi-definite ``a``: Cholesky, or least squares by SVD when ``a`` is numerically singular."""
-    try:
-        return np.asarray(scipy.linalg.solve(a, b, assume_a="pos", check_finite=False))
-    except (np.linalg.LinAlgError, ValueError):
-        return np.asarray(scipy.linalg.lstsq(a, b, check_finite=False)[0])
+    """``a^+ b`` for a symmetric positive semi-definite ``a``, from its eigen-decomposition.
+
+    Eigenvalues at or below ``size * eps`` times the largest count as zero
+    (the pseudo-inverse), so a numerically singular ``a`` neither raises nor
+    warns.
+    """
+    values, vectors = np.linalg.eigh(a)
+    kept = values > values[-1] * a.shape[0] * EPS if values.size else values > 0
+    basis = vectors[:, kept]
+    return np.asarray(basis @ ((basis.T @ b) / values[kept, None]))
 
 
 @dataclass(frozen=True)
@@ -267,7 +273,7 @@ class Collinearity:
         k = self.correlation_factor.shape[0]
         if k == 0:
             return 0.0
-        kappa = condition_number(scipy.linalg.svdvals(self.correlation_factor, check_finite=False))
+        kappa = condition_of(scipy.linalg.svdvals(self.correlation_factor, check_finite=False))
         with np.errstate(over="ignore"):
             return float(EPS * max(kappa * self.centring_loss, self.condition_number))
 
