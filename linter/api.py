@@ -62,6 +62,7 @@ class Report:
     findings: tuple[Finding, ...]
     outcomes: tuple[RuleOutcome, ...]
     gate: Grade
+    purpose: str = "explain"
     accepted: tuple[Finding, ...] = ()
     engine: EngineRun | None = None
     rules: tuple[RuleLike, ...] = field(default=(), compare=False, repr=False)
@@ -112,6 +113,7 @@ class Report:
             "complete_cases": self.complete_cases,
             "design": dict(self.design),
             "gate": self.gate.word,
+            "purpose": self.purpose,
             "complete": not self.failed_rules,
             "rules_run": [o.rule for o in self.outcomes],
             "rules_not_applicable": {o.rule: o.not_applicable for o in self.outcomes if o.not_applicable is not None},
@@ -281,6 +283,7 @@ def report_for(
         findings=tuple(sorted(findings, key=Finding.sort_key)),
         outcomes=tuple(outcomes),
         gate=context.options.gate,
+        purpose=context.options.purpose,
         engine=engine,
         rules=tuple(registry),
         context=context,
@@ -369,7 +372,7 @@ def check(
     Keyword options are the configuration keys (``id``, ``exclude``,
     ``predictors``, ``categorical``, ``intercept``, ``fail_at``,
     ``skip_rules``, ``rule``, ``missing_codes``, ``sep``, ``encoding``,
-    ``ranges``, ``anticipated_r2``, ``score``).
+    ``ranges``, ``anticipated_r2``, ``score``, ``order``, ``purpose``).
     ``accept_file`` names an accepted-findings file: findings it lists are
     counted, not gated; with ``accept_current`` today's findings are written to it.
     """
