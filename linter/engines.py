@@ -239,9 +239,11 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
     info = runner.info(kept.seen, kept.table.num_columns)
     context = build_context(kept.table, info, options)
     roles, intercept, schema, codes = context.roles, options.intercept, context.table.schema, options.missing_codes
+    # The pass functions travel to every Dask partition: they close over small settings only, never the kept rows.
+    whole = kept.whole
 
     def pass_one(batch: pa.Table, offset: int) -> TableStatistics:
-        return first_pass(conformed(batch, schema, codes), roles, intercept, tallies=kept.whole)
+        return first_pass(conformed(batch, schema, codes), roles, intercept, tallies=whole)
 
     if kept.whole and runner.reads_in_process:
         # Every row is already in memory: pass 1 runs over the kept rows' batches instead of reading the file again.

@@ -10,6 +10,7 @@ import io
 import json
 import math
 import sys
+import warnings
 from pathlib import Path
 from typing import Any, Iterator
 
@@ -28,6 +29,7 @@ from prefit.batches import open_batches
 from prefit.engines import KeptRows, StreamRunner, scaled_context, whole_fit
 from prefit.passes import first_pass, merge_all
 from prefit.progress import pass_bars
+from prefit.reading import ReadOptions
 from prefit.roles import resolve_roles
 
 sys.path.insert(0, str(SAMPLE_TABLES))
@@ -39,8 +41,14 @@ distributed = pytest.importorskip("distributed")
 
 @pytest.fixture(scope="module")
 def scheduler() -> Iterator[str]:
-    """A local Dask cluster: two single-threaded worker processes on 127.0.0.1."""
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, host="127.0.0.1", dashboard_address=None, processes=True) as cluster:
+    """A local Dask cluster: two single-threaded worker processes on 127.0.0.1, its HTTP server on a port the system picks."""
+    from prefit.distributed import LOCAL_HTTP_ADDRESS
+
+    with warnings.catch_warnings():
+        # a fixed port taken by another cluster on the machine would show as this warning
+        warnings.filterwarnings("error", message="Port .* is already in use", category=UserWarning)
+        cluster = distributed.LocalCluster(n_workers=2, threads_per_worker=1, host="127.0.0.1", dashboard_address=LOCAL_HTTP_ADDRESS, processes=True)
+    with cluster:
         yield cluster.scheduler_address
 
 
@@ -118,7 +126,42 @@ def test_engines_agree_on_a_million_row_table(tmp_path: Path, scheduler: str) ->
     memory = report_of(path, args, "memory")
     assert memory["complete_cases"] < 1_000_000
     same_values(report_of(path, args, "stream"), memory)
-    same_values(report_of(path, args, "dask", scheduler), memory)
+    with warnings.catch_warnings():
+        # the kept rows stay on the client: a pass that carried them would send a graph of tens of megabytes
+        warnings.filterwarnings("error", message=".*large graph", category=UserWarning)
+        same_values(report_of(path, args, "dask", scheduler), memory)
+
+
+class _RecordingRunner:
+    """A stream runner that records how large each pass's task is once pickled, as Dask would ship it."""
+
+    def __init__(self, inner: StreamRunner) -> None:
+        self.inner, self.name, self.reads_in_process = inner, "recording", False
+        self.task_bytes: dict[str, int] = {}
+
+    def map_merge(self, task: Any, merge: Any, label: str) -> Any:
+        import cloudpickle
+
+        self.task_bytes[label] = len(cloudpickle.dumps(task))
+        return self.inner.map_merge(task, merge, label)
+
+    def info(self, rows: int, columns: int) -> Any:
+        return self.inner.info(rows, columns)
+
+    def columns(self) -> int:
+        return self.inner.columns()
+
+
+@pytest.mark.parametrize("row_budget", [None, 2_000])
+def test_pass_tasks_do_not_carry_the_kept_rows(tmp_path: Path, row_budget: int | None) -> None:
+    rng = np.random.default_rng(3)
+    path = tmp_path / "wide.parquet"
+    pq.write_table(pa.table({f"x{i}": rng.normal(size=20_000) for i in range(6)}), path)
+    runner = _RecordingRunner(StreamRunner(open_batches(str(path), ReadOptions())))
+    context, _ = scaled_context(runner, options_from(target="x0"), row_budget)
+    kept_bytes = context.table.nbytes
+    assert kept_bytes > 90_000 and set(runner.task_bytes) >= {"reading", "pass 1"}
+    assert max(runner.task_bytes.values()) < 50_000, runner.task_bytes
 
 
 def test_beyond_the_row_budget_stream_and_dask_run_the_rules_on_the_same_sample(scheduler: str) -> None:
@@ -346,7 +389,6 @@ def test_pass_two_fences_every_value_with_the_samples_median_and_mad() -> None:
 
 def test_dask_passes_show_rows_done_on_a_terminal(scheduler: str) -> None:
     from prefit.distributed import DaskRunner
-    from prefit.reading import ReadOptions
 
     stream = _Terminal()
     path = SAMPLE_TABLES / "warehouse_holes.parquet"

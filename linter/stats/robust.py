@@ -54,11 +54,20 @@ def order_statistics(values: np.ndarray, ranks: tuple[int, ...]) -> list[float]:
     return [float(part[r]) for r in shifted]
 
 
-def _median(finite: np.ndarray) -> float:
-    """The median as :func:`numpy.median` computes it (the mean of the two middle values for an even count)."""
+def median(finite: np.ndarray) -> float:
+    """The median as :func:`numpy.median` computes it (the mean of the two middle values for an even count).
+
+    Two middle values near the largest double are halved before they are
+    added, so their mean stays finite where numpy's overflows.
+    """
     n = finite.size
     middle = order_statistics(finite, (n // 2,) if n % 2 else (n // 2 - 1, n // 2))
-    return float(np.mean(np.array(middle)))
+    if len(middle) == 1:
+        return middle[0]
+    low, high = middle
+    with np.errstate(over="ignore"):
+        mean = float(np.float64(low) + np.float64(high)) / 2.0
+    return mean if np.isfinite(mean) else low / 2.0 + high / 2.0
 
 
 def median_and_mad(values: np.ndarray) -> tuple[float, float]:
@@ -71,10 +80,10 @@ def median_and_mad(values: np.ndarray) -> tuple[float, float]:
     finite = x[np.isfinite(x)]
     if finite.size == 0:
         return float("nan"), float("nan")
-    median = _median(finite)
-    np.subtract(finite, median, out=finite)
+    centre = median(finite)
+    np.subtract(finite, centre, out=finite)
     np.abs(finite, out=finite)
-    return median, _median(finite)
+    return centre, median(finite)
 
 
 def modified_z(values: np.ndarray, spread: tuple[float, float] | None = None) -> tuple[np.ndarray, float, float]:
