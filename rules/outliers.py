@@ -9,7 +9,6 @@ import numpy as np
 
 from prefit.context import RunContext
 from prefit.findings import MAX_LISTED_ROWS, Finding, Grade
-from prefit.roles import Kind
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.chance import chance_check, probability_text, t_tail
 from prefit.stats.robust import MODIFIED_Z_FACTOR, MODIFIED_Z_LIMIT
@@ -229,8 +228,7 @@ def _column_text(ctx: RunContext, found: _ColumnOutliers) -> str:
 
 def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     fence = settings.threshold("note")
-    target = ctx.roles.target
-    columns = ([target] if ctx.roles.kinds[target] is Kind.NUMERIC else []) + list(ctx.numeric_predictors)
+    columns = ctx.value_screened_columns
     found = [f for c in columns if (f := _column_outliers(ctx, c, fence.value, settings.limit("weakens"))) is not None]
     if not found:
         return
@@ -378,7 +376,7 @@ RULES = [
         why="Least squares weighs squared residuals, so one row far from the line pulls the slopes and inflates the "
         "residual variance, which widens every confidence interval. A residual too large to be chance among n rows "
         "is usually a recording error or a row from a different process.",
-        remedy="check the listed rows' target values at the source (units, decimal point, meter resets); correct "
+        remedy="check the listed rows' target values at the source (units, decimal point, counter resets); correct "
         "errors, and fit with and without genuine extremes",
         check=_studentized,
         thresholds=(

@@ -86,6 +86,45 @@ def median_and_mad(values: np.ndarray) -> tuple[float, float]:
     return median, _median(finite)
 
 
+def modified_z(values: np.ndarray, spread: tuple[float, float] | None = None) -> tuple[np.ndarray, float, float]:
+    """``0.6745 (x - median) / MAD`` of the finite values (NaN elsewhere), with the median and the MAD.
+
+    The MAD is the median absolute deviation from the median; when it is
+    zero (more than half the values tie) the scores are NaN. ``spread`` is
+    the values' ``(median, MAD)`` when already known (see
+    :func:`median_and_mad`).
+
+    References
+    ----------
+    Iglewicz & Hoaglin (1993), eq. 3.1.
+    """
+    x = np.asarray(values, dtype=float)
+    median, mad = median_and_mad(x) if spread is None else spread
+    if not np.isfinite(mad) or mad == 0:
+        return np.full(x.shape, np.nan), median, mad
+    scores = np.subtract(x, median)
+    scores *= MODIFIED_Z_FACTOR
+    scores /= mad
+    return scores, median, mad
+
+
+def beyond_modified_z(values: np.ndarray, median: float, mad: float, limit: float) -> tuple[np.ndarray, np.ndarray]:
+    """Positions of the values whose ``|modified z|`` exceeds ``limit``, and their scores (``mad`` positive).
+
+    The same rows and scores as thresholding :func:`modified_z`, without a
+    score for every row: candidates are the values farther than
+    ``limit * MAD / 0.6745`` from the median (less a margin for rounding),
+    and only they are scored, with the same arithmetic.
+    """
+    x = np.asarray(values, dtype=float)
+    deviation = np.subtract(x, median)
+    np.abs(deviation, out=deviation)
+    candidates = np.flatnonzero(deviation > limit * mad / MODIFIED_Z_FACTOR * (1.0 - 1e-9))
+    scores, _, _ = modified_z(x[candidates], (median, mad))
+    beyond = np.abs(scores) > limit
+    return candidates[beyond], scores[beyond]
+
+
 @dataclass(frozen=True)
 class RobustColumns:
     """Columns for a robust distance: their names, values over the complete cases (rows x columns), medians and MADs."""

@@ -10,7 +10,6 @@ FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
     ("hygiene.constant-predictor", "blocks", ("setpoint_c",)),
-    ("outliers.univariate", "note", ("floor_area_m2",)),
 ]
 EXIT_CODE = 1
 

@@ -1,7 +1,9 @@
 """One mega-site ten times larger than the rest, and better insulated: half the energy per square metre.
 
 No single site-day of the mega-site stands out (each hides the other 89: masking), but deleting the
-high-leverage rows together gives Cook's D = 6,314 and moves the floor_area_m2 slope by 135 SE.
+high-leverage rows together gives Cook's D = 6,314 and moves the floor_area_m2 slope by 135 SE. With site_id as
+the group, its floor area is one point among 41 sites, and deleting the whole site moves the floor_area_m2 slope by
+18 cluster-robust SE.
 """
 
 import numpy as np
@@ -13,11 +15,16 @@ NAME = "warehouse_mega_site"
 FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
+    ("grouping.group-influence", "misleads", ("floor_area_m2",)),
+    ("grouping.residual-correlation", "misleads", ("compressor_type",)),
     ("influence.cooks-distance", "misleads", ()),
     ("assumptions.nonlinearity", "weakens", ("pallets_stored", "floor_area_m2")),
+    ("grouping.group-outliers", "weakens", ("floor_area_m2",)),
+    ("grouping.within-between", "weakens", ("pallets_stored",)),
     ("influence.leverage", "weakens", ()),
-    ("outliers.univariate", "weakens", ("floor_area_m2",)),
-    ("outliers.multivariate", "note", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles")),
+    ("grouping.few-groups", "note", ("site_id",)),
+    ("outliers.multivariate", "note", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles")),
+    ("outliers.univariate", "note", ("energy_kwh", "pallets_stored")),
     ("target.skewed", "note", ("energy_kwh",)),
 ]
 EXIT_CODE = 1

@@ -16,7 +16,6 @@ EXPECTED = [
     ("range.near-constant", "weakens", ("setpoint_c",)),
     ("collinearity.precision", "note", ("setpoint_c",)),
     ("influence.leverage", "note", ()),
-    ("outliers.multivariate", "note", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles")),
 ]
 EXIT_CODE = 1
 NOMINAL_C = -22.0
