@@ -351,39 +351,41 @@ def test_pass_two_measures_every_row_against_the_samples_robust_centre() -> None
     np.testing.assert_allclose(screen.top_values, np.sort(squared)[::-1][: screen.top_values.size], rtol=1e-9)
 
 
-def test_pass_two_fences_every_value_with_the_samples_median_and_mad() -> None:
-    # sources: numpy's median and scipy.stats.median_abs_deviation on the sample; numpy counts over the whole file;
-    # Massart (1990), Ann. Probab. 18(3), the DKW inequality's tight constant, for the rank error bound
+def test_pass_two_fences_every_value_with_the_samples_adjusted_boxplot() -> None:
+    # sources: numpy's quartiles and statsmodels' medcouple on the sample with the adjusted-boxplot fences of
+    # Hubert & Vandervieren (2008), CSDA 52, eq. 5; numpy counts over the whole file; Massart (1990),
+    # Ann. Probab. 18(3), the DKW inequality's tight constant, for the rank error bound
     import pyarrow.csv as pacsv
-    import scipy.stats
+    from statsmodels.stats.stattools import medcouple
 
     path = SAMPLE_TABLES / "warehouse_meter_slip.csv"
     options = run_cli_options(("--target", "energy_kwh"))
     context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=600)
     fences = run.fences
     assert fences is not None
-    screens = {s.column: s for s in run.screens if s.measure == "modified_z"}
+    screens = {s.column: s for s in run.screens if s.measure == "fence_score"}
     assert set(screens) == set(fences.columns) and "energy_kwh" in screens
     table = pacsv.read_csv(path).to_pandas()
-    for name, median, mad in zip(fences.columns, fences.medians, fences.mads):
+    for name, fence in zip(fences.columns, fences.fences):
         sample = context.values(name)
         sample = sample[np.isfinite(sample)]
-        assert median == np.median(sample)
-        assert mad == pytest.approx(scipy.stats.median_abs_deviation(sample), rel=1e-12)
+        q1, q3 = np.quantile(sample, [0.25, 0.75])
+        mc = float(medcouple(sample, use_fast=False))
+        low, high = (np.exp(-4 * mc), np.exp(3 * mc)) if mc >= 0 else (np.exp(-3 * mc), np.exp(4 * mc))
+        assert fence.lower == pytest.approx(q1 - 1.5 * low * (q3 - q1), rel=1e-9, abs=1e-9)
+        assert fence.upper == pytest.approx(q3 + 1.5 * high * (q3 - q1), rel=1e-9, abs=1e-9)
         whole = table[name].to_numpy(float)
         whole = whole[np.isfinite(whole)]
-        scores = np.abs(0.6745 * (whole - median) / mad)
         screen = screens[name]
-        assert screen.cutoffs[0].beyond == int(np.count_nonzero(scores > 3.5)), name
-        np.testing.assert_allclose(screen.top_values, np.sort(scores)[::-1][: screen.top_values.size], rtol=1e-12)
+        assert screen.cutoffs[0].beyond == int(np.count_nonzero((whole < fence.lower) | (whole > fence.upper))), name
         bound = math.sqrt(math.log(2 / 0.01) / (2 * sample.size))
         assert fences.rank_error(name) == pytest.approx(bound)
-        # the fixed sample's median and MAD against the whole column: within the stated bound
-        assert abs(np.mean(whole <= median) - 0.5) <= bound
-        assert abs(np.mean(np.abs(whole - median) <= mad) - 0.5) <= 2 * bound
+        # the fixed sample's quartiles against the whole column: within the stated bound
+        for quartile, share in ((q1, 0.25), (q3, 0.75)):
+            assert np.mean(whole < quartile) - bound <= share <= np.mean(whole <= quartile) + bound
     assert screens["energy_kwh"].cutoffs[0].beyond > 0
     sentence = run.sentence()
-    assert sentence is not None and "beyond |modified z| 3.5" in sentence
+    assert sentence is not None and "beyond its fences" in sentence
     assert "outliers.univariate" in check_file(str(path), options, engine="stream", row_budget=600).to_dict()["engine"]["rules_with_every_row_screened"]
 
 
