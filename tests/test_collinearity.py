@@ -334,7 +334,11 @@ def test_a_badly_scaled_design_gives_collinearity_findings_not_rule_errors() -> 
     report = check(_hard_table(), target="00")
     rules = [f.rule for f in report.findings]
     assert "engine.rule-error" not in rules
-    assert {"collinearity.vif", "collinearity.condition"} <= set(rules)
+    outcomes = {o.rule: o for o in report.outcomes}
+    for rule in ("collinearity.vif", "collinearity.condition"):
+        # seven rows for three predictors: either a finding, or the rule stands aside because chance alone
+        # would cross its limit at this size; never an error
+        assert rule in rules or "chance" in (outcomes[rule].not_applicable or ""), outcomes[rule]
     for finding in _findings(report, "collinearity.vif"):
         assert finding.details["reliable"] is True and finding.value >= 1.0
 
