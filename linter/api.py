@@ -20,6 +20,7 @@ from .accepted import (
     load_accepted,
     save_accepted,
 )
+from .baseline import BaselineProfile, load_baseline, profile_of, save_profile
 from .context import RunContext
 from .engine import RuleOutcome, error_finding, run_rule, select_rules
 from .engines import EngineRun
@@ -64,6 +65,7 @@ class Report:
     gate: Grade
     accepted: tuple[Finding, ...] = ()
     engine: EngineRun | None = None
+    baseline: Mapping[str, Any] | None = None
     rules: tuple[RuleLike, ...] = field(default=(), compare=False, repr=False)
     context: RunContext | None = field(default=None, compare=False, repr=False)
 
@@ -119,6 +121,7 @@ class Report:
             "summary": count_by_grade(self.findings),
             "accepted": len(self.accepted),
             **({"engine": self.engine.to_dict()} if self.engine is not None else {}),
+            **({"baseline": dict(self.baseline)} if self.baseline is not None else {}),
         }
 
     def to_json(self) -> str:
@@ -159,7 +162,8 @@ def build_context(table: pa.Table, info: TableInfo, options: CheckOptions) -> Ru
     roles = resolve_roles(table, options)
     check_declared_ranges(roles, options.ranges)
     score = read_score_table(options, roles)
-    return RunContext(table=table, info=info, roles=roles, options=options, replaced_codes=replaced, score=score)
+    baseline = load_baseline(options.baseline, options) if options.baseline is not None else None
+    return RunContext(table=table, info=info, roles=roles, options=options, replaced_codes=replaced, score=score, baseline=baseline)
 
 
 def context_for(table: "pa.Table | pd.DataFrame", target: str, **options: Any) -> RunContext:
@@ -282,9 +286,19 @@ def report_for(
         outcomes=tuple(outcomes),
         gate=context.options.gate,
         engine=engine,
+        baseline=context.baseline.describe() if context.baseline is not None else None,
         rules=tuple(registry),
         context=context,
     )
+
+
+def write_baseline(report: Report, path: str | Path) -> BaselineProfile:
+    """Write the baseline profile of a checked table (``--save-baseline``) and return it."""
+    if report.context is None:
+        raise UsageProblem("--save-baseline", "needs the statistics of a check run in this process", "run the check and save in one call")
+    profile = profile_of(report.context)
+    save_profile(profile, path)
+    return profile
 
 
 def heavy_first(selected: Sequence[tuple[RuleLike, RuleSettings]]) -> list[tuple[RuleLike, RuleSettings]]:
@@ -362,6 +376,7 @@ def check(
     *,
     accept_file: str | Path | None = None,
     accept_current: bool = False,
+    save_baseline: str | Path | None = None,
     **options: Any,
 ) -> Report:
     """Vet ``table`` (a DataFrame, a pyarrow Table or a path) before fitting ``target`` on it.
@@ -369,15 +384,20 @@ def check(
     Keyword options are the configuration keys (``id``, ``exclude``,
     ``predictors``, ``categorical``, ``intercept``, ``fail_at``,
     ``skip_rules``, ``rule``, ``missing_codes``, ``sep``, ``encoding``,
-    ``ranges``, ``anticipated_r2``, ``score``).
+    ``ranges``, ``anticipated_r2``, ``score``, ``baseline``: a profile written
+    by ``save_baseline`` or the accepted table itself, to vet this table against).
     ``accept_file`` names an accepted-findings file: findings it lists are
     counted, not gated; with ``accept_current`` today's findings are written to it.
+    ``save_baseline`` writes this table's baseline profile to that path.
     """
     opts = options_from(target=target, **options)
     if accept_file is not None and not accept_current:
         load_accepted(accept_file)
     data, info = _as_table(table, ReadOptions(sep=opts.sep, encoding=opts.encoding))
-    return apply_accepted([run_check(data, info, opts)], accept_file, accept_current)[0]
+    report = run_check(data, info, opts)
+    if save_baseline is not None:
+        write_baseline(report, save_baseline)
+    return apply_accepted([report], accept_file, accept_current)[0]
 
 
 class NotReady(AssertionError):

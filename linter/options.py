@@ -39,6 +39,7 @@ class CheckOptions:
     anticipated_r2: float | None = None
     score: str | None = None
     order: str | None = None
+    baseline: str | None = None
 
 
 def _as_text(value: Any, where: str) -> str:
@@ -176,6 +177,7 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("anticipated-r2", "anticipated_r2", _as_share, "the R-squared expected of the model, for sample-size planning"),
     Setting("score", "score", _as_text, "a table of new rows the model will be asked to predict"),
     Setting("order", "order", _as_text, "a column giving the rows' time order, for the autocorrelation preview"),
+    Setting("baseline", "baseline", _as_text, "the last accepted extract (a profile from --save-baseline, or the table) to vet this one against"),
 )
 SETTINGS_BY_KEY: Mapping[str, Setting] = {s.key: s for s in SETTINGS}
 
