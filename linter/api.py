@@ -198,13 +198,15 @@ def check_file(
     debug: bool = False,
     progress: RunProgress | None = None,
     row_budget: int | None = None,
+    profile: bool = False,
 ) -> Report:
     """Check a table file with the chosen engine (``auto``, ``memory``, ``stream`` or ``dask``).
 
     ``auto`` streams files larger than :data:`prefit.batches.AUTO_STREAM_BYTES`;
     ``scheduler`` is the address of an existing Dask scheduler (default: a
     local cluster); ``row_budget`` caps the rows the stream and Dask engines
-    keep in memory for the rules.
+    keep in memory for the rules; ``profile`` has their pass 1 tally every
+    column of the whole table for a baseline profile.
     """
     from .batches import choose_engine
     from .engines import StreamRunner, scaled_context
@@ -223,13 +225,13 @@ def check_file(
         from .batches import open_batches
         from .progress import pass_bars
 
-        context, run = scaled_context(StreamRunner(open_batches(path, read), pass_bars()), options, row_budget)
+        context, run = scaled_context(StreamRunner(open_batches(path, read), pass_bars()), options, row_budget, profile)
     else:
         from .distributed import DaskRunner
         from .progress import pass_bars
 
         with DaskRunner(path, read, scheduler, pass_bars()) as runner:
-            context, run = scaled_context(runner, options, row_budget)
+            context, run = scaled_context(runner, options, row_budget, profile)
     return report_for(context, registry, selected, run, debug, progress)
 
 

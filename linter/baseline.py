@@ -5,9 +5,11 @@ A profile is a small JSON document (``format`` :data:`PROFILE_FORMAT`,
 FILE`` from the statistics the check computed anyway. It holds, and only holds:
 
 - ``table``: the checked table's path, format, row and column counts and SHA-256;
-- ``rows_seen``: how many rows the summaries describe, and whether they are every
-  row of the table or a uniform sample of them (stream and Dask engines beyond
-  the row budget);
+- ``rows_seen``: how many rows the table has, and whether every summary saw
+  every row: beyond the row budget of the stream and Dask engines, counts,
+  moments, level counts and the fit still come from pass 1 over every row,
+  but distributions, observed ranges and the largest leverage come from the
+  uniform sample the rules saw (each distribution's rank error says so);
 - ``roles``: target, row-label column, predictors and whether the model has an intercept;
 - ``columns``: per column its kind, role and Arrow type, row, missing and
   non-finite counts, and for numeric and true/false columns the count, mean,
@@ -279,30 +281,37 @@ def complete_level_counts(ctx: "RunContext", column: str) -> dict[str, int]:
 def profile_of(ctx: "RunContext") -> BaselineProfile:
     """The baseline profile of a checked table, from the statistics its check computed.
 
-    Counts, moments and the R factor are the context's (the merged pass-1
-    statistics under the stream and Dask engines within the row budget); the
-    distributions are sketched from the rows the context holds, with the
-    Dvoretzky-Kiefer-Wolfowitz bound added when those rows are a sample.
+    Counts, moments, level counts and the R factor are the context's: under
+    the stream and Dask engines, the merged pass-1 statistics of every row
+    (:attr:`RunContext.whole_statistics`), also when the rules saw a sample.
+    The distributions are sketched from the rows the context holds, with the
+    Dvoretzky-Kiefer-Wolfowitz bound added when those rows are a sample; the
+    observed ranges and the largest leverage are then the sample's.
     """
     from .passes import dkw_rank_error
 
     roles = ctx.roles
     sampled = ctx.file_positions is not None
+    whole = ctx.whole_statistics if sampled else None
     model_columns = set(ctx.model_columns)
     columns: dict[str, ColumnProfile] = {}
     for name in ctx.table.column_names:
         kind = roles.kinds[name]
         column = ctx.table.column(name)
         base = ColumnProfile(name, kind, _role(name, ctx), str(column.type), len(column), column.null_count, 0)
-        if kind in (Kind.NUMERIC, Kind.BOOLEAN):
-            tally = ctx.tally(name)
-            base = replace(base, rows=tally.rows, missing=tally.missing, nonfinite=tally.nonfinite, moments=tally.moments)
+        if whole is not None and whole.tallies:
+            tally = whole.tallies.get(name)
+        else:
+            tally = ctx.tally(name) if kind in (Kind.NUMERIC, Kind.BOOLEAN) else None
+        if tally is not None:
+            moments = tally.moments if kind in (Kind.NUMERIC, Kind.BOOLEAN) else None
+            base = replace(base, rows=tally.rows, missing=tally.missing, nonfinite=tally.nonfinite, moments=moments)
         if name in model_columns and kind is Kind.NUMERIC:
             values = ctx.values(name)
             error = dkw_rank_error(int(np.count_nonzero(np.isfinite(values))), SAMPLE_CONFIDENCE) if sampled else 0.0
             base = replace(base, distribution=Distribution.of(values, sample_error=error))
         elif name in roles.predictors and kind in (Kind.CATEGORICAL, Kind.BOOLEAN) and ctx.target_is_numeric:
-            counts = complete_level_counts(ctx, name)
+            counts = dict(sorted(whole.model.level_counts[name].items())) if whole is not None else complete_level_counts(ctx, name)
             base = replace(base, levels=counts if len(counts) <= LEVEL_CAP else None)
         columns[name] = base
     model = None
@@ -311,11 +320,18 @@ def profile_of(ctx: "RunContext") -> BaselineProfile:
         observed = {}
         for term in design.terms:
             if term.kind is Kind.NUMERIC and term.reference is None:
-                column = ctx.design_column(term.source)
-                observed[term.source] = (float(column.min()), float(column.max()))
+                values = ctx.design_column(term.source)
+                observed[term.source] = (float(values.min()), float(values.max()))
         hat = ctx.row_scores.hat
-        model = ModelProfile(ctx.options.intercept, design.terms, ctx.factor, ctx.fit.tss, observed, float(hat.max()) if hat.size else float("nan"))
-    return BaselineProfile(ctx.info, ctx.table.num_rows, sampled, roles.target, roles.id, roles.predictors, columns, model)
+        largest = float(hat.max()) if hat.size else float("nan")
+        if whole is not None:
+            terms = whole.model.terms(roles.kinds)
+            factor, tss = whole.model.design_factor(terms), whole.model.total_sum_of_squares(ctx.options.intercept)
+        else:
+            terms, factor, tss = design.terms, ctx.factor, ctx.fit.tss
+        model = ModelProfile(ctx.options.intercept, terms, factor, tss, observed, largest)
+    rows = whole.rows if whole is not None else ctx.table.num_rows
+    return BaselineProfile(ctx.info, rows, sampled, roles.target, roles.id, roles.predictors, columns, model)
 
 
 def save_profile(profile: BaselineProfile, path: str | Path) -> None:

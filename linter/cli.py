@@ -168,7 +168,7 @@ def _command_check(args: argparse.Namespace) -> int:
     if args.save_baseline is not None and len(args.tables) > 1:
         raise UsageProblem("--save-baseline", f"writes the profile of one table, got {len(args.tables)} tables", "check the accepted table alone")
     for path in args.tables:
-        reports.append(check_file(path, options, args.engine, args.scheduler, args.debug, progress_for(), args.row_budget))
+        reports.append(check_file(path, options, args.engine, args.scheduler, args.debug, progress_for(), args.row_budget, args.save_baseline is not None))
     if args.save_baseline is not None:
         write_baseline(reports[0], args.save_baseline)
     reports = apply_accepted(reports, args.accept_file, args.accept_current)

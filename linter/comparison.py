@@ -26,7 +26,7 @@ from .stats.mergeable import Moments
 if TYPE_CHECKING:
     from .context import RunContext
 
-RENAME_DISTANCE = 0.05
+RENAME_LEVEL = 0.01
 RENAME_SPREAD = 0.05
 RENAME_LEVEL_OVERLAP = 0.8
 
@@ -83,24 +83,37 @@ def _kind_group(kind: Kind) -> str:
     return "numeric" if kind in (Kind.NUMERIC, Kind.DATETIME) else "levels" if kind in (Kind.CATEGORICAL, Kind.BOOLEAN) else "text"
 
 
-def _looks_renamed(old: ColumnProfile, ctx: "RunContext", name: str) -> bool:
-    """Whether new column ``name`` holds what baseline column ``old`` held: same kind, and matching distribution or levels."""
+def _rename_distance(old: ColumnProfile, ctx: "RunContext", name: str) -> float | None:
+    """How far new column ``name`` is from baseline column ``old`` (KS distance, or 1 - level overlap); None when they differ.
+
+    Numeric columns must agree in mean and SD within three standard errors
+    (at least :data:`RENAME_SPREAD`) and pass the KS test at
+    :data:`RENAME_LEVEL`; categorical ones must share :data:`RENAME_LEVEL_OVERLAP`
+    of their levels.
+    """
     kind = ctx.roles.kinds[name]
     if _kind_group(kind) != _kind_group(old.kind):
-        return False
+        return None
     if _kind_group(kind) == "numeric" and old.moments is not None and old.moments.count > 1:
-        values = ctx.values(name)
         new = ctx.tally(name).moments
         if new.count < 2 or not (old.moments.std > 0 and new.std > 0):
-            return False
-        if abs(new.std / old.moments.std - 1.0) > RENAME_SPREAD or abs(new.mean - old.moments.mean) > RENAME_SPREAD * old.moments.std:
-            return False
-        return old.distribution is None or ks_distance(old.distribution, values) <= RENAME_DISTANCE + old.distribution.rank_error
+            return None
+        spread = max(RENAME_SPREAD, 3.0 * float(np.sqrt(0.5 / old.moments.count + 0.5 / new.count)))
+        location = max(RENAME_SPREAD, 3.0 * float(np.sqrt(1.0 / old.moments.count + 1.0 / new.count)))
+        if abs(np.log(new.std / old.moments.std)) > spread or abs(new.mean - old.moments.mean) > location * old.moments.std:
+            return None
+        if old.distribution is None:
+            return 0.0
+        values = ctx.values(name)
+        distance = ks_distance(old.distribution, values)
+        p = ks_p_value(max(distance - old.distribution.rank_error, 0.0), old.distribution.count, new.count)
+        return distance if p > RENAME_LEVEL else None
     if old.levels is not None and name in ctx.roles.predictors:
         new_levels = set(complete_level_counts(ctx, name))
         union = set(old.levels) | new_levels
-        return bool(union) and len(set(old.levels) & new_levels) / len(union) >= RENAME_LEVEL_OVERLAP
-    return False
+        overlap = len(set(old.levels) & new_levels) / len(union) if union else 0.0
+        return 1.0 - overlap if overlap >= RENAME_LEVEL_OVERLAP else None
+    return None
 
 
 def compare_columns(ctx: "RunContext", baseline: BaselineProfile) -> ColumnComparison:
@@ -111,10 +124,10 @@ def compare_columns(ctx: "RunContext", baseline: BaselineProfile) -> ColumnCompa
     added = [c for c in new_names if c not in baseline.columns]
     renamed: dict[str, str] = {}
     for dropped in removed:
-        for new in added:
-            if new not in renamed.values() and _looks_renamed(baseline.columns[dropped], ctx, new):
-                renamed[dropped] = new
-                break
+        distances = {new: _rename_distance(baseline.columns[dropped], ctx, new) for new in added if new not in renamed.values()}
+        close = {new: d for new, d in distances.items() if d is not None}
+        if close:
+            renamed[dropped] = min(close, key=lambda new: (close[new], new))
     names = {c: c for c in old_names if c in ctx.roles.kinds} | renamed
     model_columns = [baseline.target, *baseline.predictors]
     units: dict[str, UnitMatch] = {}

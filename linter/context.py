@@ -54,6 +54,7 @@ class RunContext:
     score: ScoreTable | None = None
     baseline: BaselineProfile | None = None
     statistics: TableStatistics | None = field(default=None, repr=False)
+    whole_statistics: TableStatistics | None = field(default=None, repr=False)
     file_positions: np.ndarray | None = field(default=None, repr=False)
     _summaries: dict[str, ColumnSummary] = field(default_factory=dict, init=False, repr=False)
     _text_numbers: dict[str, TextNumbers] = field(default_factory=dict, init=False, repr=False)

@@ -27,7 +27,10 @@ TEST_SOURCE = (
     "two-sample Kolmogorov-Smirnov test (Smirnov 1948) or chi-square test of homogeneity, Holm (1979) adjusted across columns"
 )
 COHEN_H_SOURCE = "Cohen's h: 0.2 small, 0.5 medium (Cohen 1988, Statistical Power Analysis for the Behavioral Sciences, 2nd ed., sec. 6.2)"
-COHEN_F2_SOURCE = "Cohen's f^2: 0.02 small, 0.15 medium (Cohen 1988, Statistical Power Analysis for the Behavioral Sciences, 2nd ed., sec. 9.2.2)"
+ERROR_RATIO_SOURCE = (
+    "RMS prediction error over the baseline residual SD: 1.1 (a fifth more squared error) and 1.5 (common practice; "
+    "with no change the ratio is about sqrt(1 + p / n), Montgomery, Peck & Vining 2012, sec. 3.5)"
+)
 CHOW_SOURCE = "Chow, G. C. (1960). Tests of equality between sets of coefficients in two linear regressions. Econometrica 28(3), 591-605"
 UNIT_SOURCE = "conversion factors of NIST SP 811 (2008), appendix B"
 ALPHA_SOURCE = "significance level 0.05, family-wise across columns by Holm's step-down method (Holm 1979, Scand. J. Statist. 6, 65-70)"
@@ -298,7 +301,7 @@ def _relationship(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     f_squared = (chow.rss_pooled - chow.rss_first - chow.rss_second) / (chow.rss_first + chow.rss_second)
     if not chow.p_value < settings.limit("alpha"):
         return
-    graded = settings.grade_of(f_squared)
+    graded = settings.grade_of(model.error_ratio)
     if graded is None:
         return
     grade, limit = graded
@@ -307,12 +310,12 @@ def _relationship(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     named = [f"{model.column_names[i]} {shifts[i]:+.1f} SE" for i in order[:3] if np.isfinite(shifts[i])]
     yield settings.finding(
         grade,
-        f"the relationship changed since the baseline: Chow F {fmt(chow.f)} on {chow.df_num} and {chow.df_den} df (p {chow.p_value:.2g}), "
+        f"the relationship changed since the baseline: the baseline fit predicts these rows with an RMS error {fmt(model.error_ratio)} "
+        f"times its own residual SD; Chow F {fmt(chow.f)} on {chow.df_num} and {chow.df_den} df (p {chow.p_value:.2g}), "
         f"separate coefficients remove {chow.added_share:.1%} of the pooled residual sum of squares (Cohen's f^2 {fmt(f_squared)}); "
-        f"largest coefficient shifts: {', '.join(named)}; the baseline fit predicts these rows with an RMS error "
-        f"{fmt(model.error_ratio)} times its own residual SD",
+        f"largest coefficient shifts: {', '.join(named)}",
         columns=[c for c in dict.fromkeys(model.column_names[i].split("=")[0] for i in order[:3] if np.isfinite(shifts[i])) if c != "(intercept)"],
-        value=f_squared,
+        value=model.error_ratio,
         threshold=limit,
         source=f"{limit.source}; {CHOW_SOURCE}",
         remedy="do not apply the baseline coefficients to this extract; find what changed (equipment, metering, operation) and refit",
@@ -427,16 +430,17 @@ RULES = [
     ),
     Rule(
         id="drift.relationship",
-        summary="Coefficients that differ between the baseline and the new extract: the Chow test with Cohen's f^2, each "
-        "coefficient's shift in standard errors and the baseline fit's prediction error on the new rows.",
+        summary="Coefficients that differ between the baseline and the new extract (Chow test significant), graded by the "
+        "baseline fit's RMS prediction error on the new rows against its residual SD; with each coefficient's shift in "
+        "standard errors and Cohen's f^2.",
         why="Even when every column looks as before, the way energy responds to them can change (new equipment, a changed "
         "defrost schedule, a meter swapped). Then the baseline coefficients predict the new rows worse than their "
         "residual SD promises, and decisions based on them are off.",
         remedy="do not apply the baseline coefficients; find what changed and refit",
         check=_relationship,
         thresholds=(
-            Threshold("misleads", 0.15, COHEN_F2_SOURCE, Grade.MISLEADS, ">="),
-            Threshold("weakens", 0.02, COHEN_F2_SOURCE, Grade.WEAKENS, ">="),
+            Threshold("misleads", 1.5, ERROR_RATIO_SOURCE, Grade.MISLEADS, ">="),
+            Threshold("weakens", 1.1, ERROR_RATIO_SOURCE, Grade.WEAKENS, ">="),
             ALPHA,
         ),
         needs=frozenset({"baseline", "rows", "fit"}),

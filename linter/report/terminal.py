@@ -18,7 +18,7 @@ from ..findings import (
     Grade,
     count_by_grade,
 )
-from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
+from .base import ReportWriter, RunFacts, baseline_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -141,6 +141,9 @@ def render_terminal(report: "Report", colour: bool, width: int | None = None, ex
     sampled = report.engine.sentence() if report.engine is not None else None
     if sampled is not None:
         console.print(Padding(Text(sampled), (0, 0, 0, INDENT_HEAD)))
+    against = baseline_sentence(report)
+    if against is not None:
+        console.print(Padding(Text(against), (0, 0, 0, INDENT_HEAD)))
     counts = count_by_grade(report.findings)
     told: set[tuple[str, str]] = set()
     for grade in GRADES_STRONGEST_FIRST:

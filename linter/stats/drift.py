@@ -56,18 +56,23 @@ def match_unit_change(old: Moments, reference: Distribution, new_values: np.ndar
 
     A candidate must match the spread ratio within :data:`SPREAD_TOLERANCE`
     (the nearest two factors, 3.6 and 1 / 0.3048, differ by 9%) and the
-    converted baseline mean within :data:`LOCATION_TOLERANCE` new SDs; among
+    converted baseline mean within :data:`LOCATION_TOLERANCE` new SDs, each
+    widened to three standard errors of the estimate on small samples
+    (``SE(ln s1/s2) ~ sqrt(1/2n1 + 1/2n2)`` for normal data, Kendall & Stuart
+    1977, sec. 10.8; the mean difference ``sqrt(1/n1 + 1/n2)`` SDs); among
     those, the one whose converted baseline distribution lies closest (KS) to
     the new values wins, and it must halve the KS distance of no conversion.
     """
     if old.count < 2 or new.count < 2 or not (old.std > 0 and new.std > 0):
         return None
     ratio = new.std / old.std
+    spread_tolerance = max(SPREAD_TOLERANCE, 3.0 * float(np.sqrt(0.5 / old.count + 0.5 / new.count)))
+    location_tolerance = max(LOCATION_TOLERANCE, 3.0 * float(np.sqrt(1.0 / old.count + 1.0 / new.count)))
     best: UnitMatch | None = None
     for change in UNIT_CHANGES:
-        if abs(ratio / change.scale - 1.0) > SPREAD_TOLERANCE:
+        if abs(np.log(ratio / change.scale)) > spread_tolerance:
             continue
-        if abs(new.mean - (change.scale * old.mean + change.offset)) > LOCATION_TOLERANCE * new.std:
+        if abs(new.mean - (change.scale * old.mean + change.offset)) > location_tolerance * new.std:
             continue
         converted = ks_distance(reference.mapped(change.scale, change.offset), new_values)
         if best is None or converted < best.distance_converted:
