@@ -15,7 +15,7 @@ FILE`` from the statistics the check computed anyway. It holds, and only holds:
   non-finite counts, and for numeric and true/false columns the count, mean,
   central moment sums (2nd to 4th), minimum and maximum of the finite values;
   for the target and numeric predictors their distribution (every distinct
-  value with its cumulative share when there are at most
+  value with the count of values at or below it when there are at most
   :data:`~prefit.stats.distribution.SKETCH_POINTS`, else that many evenly
   spaced order statistics, with the rank error this leaves); for categorical and
   true/false predictors the count of each level among complete cases;

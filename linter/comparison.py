@@ -17,7 +17,7 @@ import pyarrow as pa
 from .baseline import BaselineProfile, ColumnProfile, complete_level_counts
 from .roles import Kind
 from .scoring import NUMERIC_KINDS, rows_through_terms
-from .stats.distribution import Distribution, ks_distance, ks_p_value, level_stability, numeric_stability
+from .stats.distribution import Distribution, ValuesAt, ks_distance, ks_p_value, level_stability, numeric_stability
 from .stats.drift import ChowTest, UnitMatch, chow_test, cohens_h, holm, match_unit_change
 from .stats.factor import DesignFactor
 from .stats.fit import PreliminaryFit
@@ -147,11 +147,12 @@ def compare_columns(ctx: "RunContext", baseline: BaselineProfile) -> ColumnCompa
             raw_missing.append(_missing_shift(old_name, old.missing + old.nonfinite, old.rows, new_missing, ctx.table.num_rows))
         if old.distribution is not None and kind is Kind.NUMERIC:
             values = ctx.values(name)
-            match = match_unit_change(old.moments or Moments.empty(), old.distribution, values, ctx.tally(name).moments)
+            counted = ValuesAt.of(values, old.distribution.points)
+            match = match_unit_change(old.moments or Moments.empty(), old.distribution, values, ctx.tally(name).moments, counted)
             if match is not None:
                 units[old_name] = match
                 continue
-            raw_shifts.append(_numeric_shift(old_name, old.distribution, values))
+            raw_shifts.append(_numeric_shift(old_name, old.distribution, counted))
         elif old.levels is not None and kind in (Kind.CATEGORICAL, Kind.BOOLEAN) and name in ctx.roles.predictors and design_ok:
             counts = complete_level_counts(ctx, name)
             fresh = {level: n for level, n in counts.items() if level not in old.levels}
@@ -193,12 +194,11 @@ def _missing_shift(column: str, old_missing: int, old_rows: int, new_missing: in
     return MissingShift(column, old_share, new_share, p, p, cohens_h(old_share, new_share))
 
 
-def _numeric_shift(column: str, reference: Distribution, values: np.ndarray) -> ShiftTest:
+def _numeric_shift(column: str, reference: Distribution, counted: ValuesAt) -> ShiftTest:
     """KS distance (the sketch's rank error taken off before the test, so it keeps its level) and PSI over the baseline deciles."""
-    distance = ks_distance(reference, values)
-    present = int(np.count_nonzero(np.isfinite(values)))
-    p = ks_p_value(max(distance - reference.rank_error, 0.0), reference.count, present)
-    return ShiftTest(column, "Kolmogorov-Smirnov", numeric_stability(reference, values), distance, p, p, reference.count, present, reference.rank_error)
+    distance = ks_distance(reference, counted)
+    p = ks_p_value(max(distance - reference.rank_error, 0.0), reference.count, counted.count)
+    return ShiftTest(column, "Kolmogorov-Smirnov", numeric_stability(reference, counted), distance, p, p, reference.count, counted.count, reference.rank_error)
 
 
 def _level_shift(column: str, old: Mapping[str, int], new: Mapping[str, int]) -> ShiftTest:
@@ -225,11 +225,11 @@ def _adjusted(shifts: list[ShiftTest]) -> dict[str, ShiftTest]:
 class ModelComparison:
     """The new rows through the baseline's design, with unit changes undone.
 
-    ``positions`` are the new table rows with every baseline predictor present
-    and no level the baseline lacks (those are ``drift.levels``'s);
-    ``outside`` and ``hidden`` mark them (beyond a baseline range, or inside
-    every range but beyond the baseline's largest leverage); the Chow test,
-    coefficient shifts and prediction error use those that also have the target.
+    ``positions`` are the new table's complete rows (target and every
+    baseline predictor present) without a level the baseline lacks (those are
+    ``drift.levels``'s); ``outside`` and ``hidden`` mark them (beyond a
+    baseline range, or inside every range but beyond the baseline's largest
+    leverage); the Chow test, coefficient shifts and prediction error use them all.
     """
 
     positions: np.ndarray
@@ -261,6 +261,29 @@ class ModelComparison:
         return self.prediction_rmse / sigma if sigma > 0 else float("nan")
 
 
+def _beyond(values: np.ndarray, low: float, high: float) -> np.ndarray:
+    return (values < low) | (values > high)
+
+
+def _rows_in_baseline_terms(
+    ctx: "RunContext", columns: ColumnComparison, converted: Mapping[str, tuple[float, float]]
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, dict[str, np.ndarray]]:
+    """Positions, design rows and target of the complete new rows with known levels, in baseline units; per numeric predictor, rows beyond its range."""
+    baseline = columns.baseline
+    assert baseline.model is not None
+    needed = [baseline.target, *baseline.predictors]
+    view = pa.table({old_name: ctx.table.column(columns.names[old_name]) for old_name in needed})
+    through = rows_through_terms(view, baseline.model.terms, baseline.model.observed, ctx.info.path, converted, unseen_complete=False)
+    y = ctx.values(columns.names[baseline.target])
+    if baseline.target in converted:
+        scale, offset = converted[baseline.target]
+        y = (y - offset) / scale
+    usable = np.isfinite(y[through.complete])
+    positions = np.flatnonzero(through.complete)[usable]
+    outside = {name: mask[positions] for name, mask in through.outside.items() if baseline.columns[name].kind in NUMERIC_KINDS}
+    return positions, through.X[usable], y[positions], outside
+
+
 def compare_model(ctx: "RunContext", columns: ColumnComparison) -> ModelComparison | None:
     """The new rows through the baseline design; None when the baseline has no fit or a model column is gone or changed kind."""
     baseline = columns.baseline
@@ -275,42 +298,26 @@ def compare_model(ctx: "RunContext", columns: ColumnComparison) -> ModelComparis
         old_kind = baseline.columns[old_name].kind
         if (old_kind in NUMERIC_KINDS) != (new_kind in NUMERIC_KINDS) or (old_name == baseline.target and new_kind not in (Kind.NUMERIC, Kind.BOOLEAN)):
             return None
-    view = pa.table({old_name: ctx.table.column(columns.names[old_name]) for old_name in needed})
     converted = {c: (m.change.scale, m.change.offset) for c, m in columns.units.items()}
-    through = rows_through_terms(view, model.terms, model.observed, ctx.info.path, converted)
-    unseen = np.zeros(view.num_rows, dtype=bool)
-    for name, mask in through.outside.items():
-        if baseline.columns[name].kind not in NUMERIC_KINDS:
-            unseen |= mask
-    known = through.complete & ~unseen
-    positions = np.flatnonzero(known)
-    X_known = through.X[~unseen[through.complete]]
+    fit = model.fit
+    if not converted and model.terms == ctx.design.terms and all(columns.names[c] == c for c in needed):
+        # The new table's own design is the baseline's: its rows, outside masks and fit are already on the context.
+        design = ctx.design
+        positions, X, y_fit, new_fit = design.positions, design.X, design.y, ctx.fit if design.n > design.p else None
+        outside_by = {name: _beyond(ctx.design_column(name), low, high) for name, (low, high) in model.observed.items()}
+    else:
+        positions, X, y_fit, outside_by = _rows_in_baseline_terms(ctx, columns, converted)
+        new_fit = PreliminaryFit(DesignFactor.of(X, y_fit), float(Moments.of(y_fit).m2), model.intercept) if y_fit.size > X.shape[1] else None
     outside = np.zeros(positions.size, dtype=bool)
     by_column: dict[str, int] = {}
-    for name, mask in through.outside.items():
-        kept = mask[known]
-        if kept.any():
-            by_column[name] = int(kept.sum())
-        outside |= kept
-    fit = model.fit
-    leverage = fit.score_rows(X_known, np.zeros(positions.size)).hat if positions.size else np.zeros(0)
+    for name, mask in outside_by.items():
+        if mask.any():
+            by_column[name] = int(mask.sum())
+        outside |= mask
+    leverage = fit.score_rows(X, np.zeros(positions.size)).hat if positions.size else np.zeros(0)
     hidden = ~outside & (leverage > model.largest_leverage)
-    y = ctx.values(columns.names[baseline.target])
-    if baseline.target in converted:
-        scale, offset = converted[baseline.target]
-        y = (y - offset) / scale
-    usable = np.isfinite(y[known])
-    X, y_fit = X_known[usable], y[known][usable]
-    new_fit = None
-    chow = None
-    rmse = float("nan")
-    if y_fit.size:
-        residual = y_fit - X @ np.nan_to_num(fit.coef)
-        rmse = float(np.sqrt(np.mean(residual**2)))
-        if y_fit.size > X.shape[1]:
-            factor = DesignFactor.of(X, y_fit)
-            new_fit = PreliminaryFit(factor, float(Moments.of(y_fit).m2), model.intercept)
-            chow = chow_test(fit, new_fit)
+    rmse = float(np.sqrt(np.mean((y_fit - X @ np.nan_to_num(fit.coef)) ** 2))) if y_fit.size else float("nan")
+    chow = chow_test(fit, new_fit) if new_fit is not None else None
     return ModelComparison(
         positions, outside, by_column, hidden, leverage, model.largest_leverage, int(y_fit.size), chow, fit, new_fit,
         model.column_names, rmse, {c: m.change.name for c, m in columns.units.items()},

@@ -23,6 +23,7 @@ from prefit.teaching.assumptions import (
 from prefit.teaching.base import fit_line
 from prefit.teaching.collinearity import area_and_racks
 from prefit.teaching.design import codes_as_numbers
+from prefit.teaching.drift import fahrenheit_export
 from prefit.teaching.hygiene import duplicated_days
 from prefit.teaching.influence import mega_site
 from prefit.teaching.missingness import dropout_codes
@@ -31,10 +32,10 @@ from prefit.teaching.ranges import narrow_setpoint
 from prefit.teaching.sample_size import small_extract
 from prefit.teaching.target import skewed_energy
 
-BUILT_IN_FAMILIES = ("assumptions", "collinearity", "design", "hygiene", "influence", "missingness", "outliers", "range", "sample-size", "target")
+BUILT_IN_FAMILIES = ("assumptions", "collinearity", "design", "drift", "hygiene", "influence", "missingness", "outliers", "range", "sample-size", "target")
 ALL_DEMONSTRATIONS: list[Callable[[], Demonstration]] = [
     area_and_racks, mega_site, tenfold_reading, dropout_codes, duplicated_days, narrow_setpoint, small_extract,
-    skewed_energy, codes_as_numbers, uneven_spread, heat_bend, skewed_errors, autocorrelated_days,
+    skewed_energy, codes_as_numbers, uneven_spread, heat_bend, skewed_errors, autocorrelated_days, fahrenheit_export,
 ]
 
 
@@ -88,6 +89,11 @@ def test_collinearity_demonstration_flips_signs_until_fixed() -> None:
     assert shown["bootstrap_sd"] > 5 * shown["bootstrap_sd_fixed"]
     # reference: the bootstrap SD of a least-squares slope estimates its standard error (Efron & Tibshirani 1993, from memory)
     assert_allclose([shown["bootstrap_sd"], shown["bootstrap_sd_fixed"]], [shown["se"], shown["se_fixed"]], rtol=0.35)
+
+
+def test_drift_demonstration_fahrenheit_export_multiplies_the_prediction_error() -> None:
+    numbers = fahrenheit_export().numbers
+    assert numbers["rms_celsius"] < 1.2 * numbers["residual_sd"] < numbers["rms_fahrenheit"] / 3
 
 
 def test_influence_demonstration_one_row_moves_the_slope() -> None:

@@ -23,7 +23,10 @@ EMPTY_BIN_COUNT = 0.5
 
 @dataclass(frozen=True)
 class Distribution:
-    """The ECDF of ``count`` finite values: distinct ``points`` and the share of values at or below each.
+    """The ECDF of ``count`` finite values: distinct ``points`` and how many of ``rank_total`` lie at or below each.
+
+    ``rank_total`` is ``count`` for an exact distribution and the number of
+    order statistics for a sketch, so that the ranks are whole numbers.
 
     ``rank_error`` bounds ``|G(x) - F(x)|`` at every ``x``, where ``G`` is this
     ECDF and ``F`` that of the values it describes: 0 when exact. A sketch of
@@ -33,7 +36,8 @@ class Distribution:
     """
 
     points: np.ndarray
-    cumulative: np.ndarray
+    ranks: np.ndarray
+    rank_total: int
     count: int
     rank_error: float
 
@@ -47,14 +51,19 @@ class Distribution:
         x = np.sort(np.asarray(values, dtype=np.float64)[np.isfinite(values)])
         n = int(x.size)
         if n == 0:
-            return cls(np.zeros(0), np.zeros(0), 0, 0.0)
+            return cls(np.zeros(0), np.zeros(0, dtype=np.int64), 1, 0, 0.0)
         starts = np.flatnonzero(np.concatenate([[True], x[1:] != x[:-1]]))
         if limit is None or starts.size <= limit:
             ends = np.concatenate([starts[1:], [n]])
-            return cls(x[starts], ends / n, n, sample_error)
+            return cls(x[starts], ends.astype(np.int64), n, n, sample_error)
         picked = x[np.floor((np.arange(limit) + 0.5) * n / limit).astype(np.int64)]
         points, counts = np.unique(picked, return_counts=True)
-        return cls(points, np.cumsum(counts) / limit, n, 0.5 / limit + sample_error)
+        return cls(points, np.cumsum(counts), limit, n, 0.5 / limit + sample_error)
+
+    @property
+    def cumulative(self) -> np.ndarray:
+        """The share of values at or below each point."""
+        return self.ranks / self.rank_total
 
     @property
     def exact(self) -> bool:
@@ -75,16 +84,22 @@ class Distribution:
 
     def mapped(self, scale: float, offset: float) -> "Distribution":
         """The distribution of ``scale * x + offset`` (``scale > 0``)."""
-        return Distribution(self.points * scale + offset, self.cumulative, self.count, self.rank_error)
+        return Distribution(self.points * scale + offset, self.ranks, self.rank_total, self.count, self.rank_error)
 
     def to_dict(self) -> dict[str, Any]:
-        """Plain JSON types: the points and, per point, how many values lie at or below it (as a share)."""
-        return {"count": self.count, "exact": self.exact, "rank_error": self.rank_error, "points": self.points.tolist(), "cumulative": self.cumulative.tolist()}
+        """Plain JSON types: the points and, per point, how many of ``rank_total`` lie at or below it."""
+        return {
+            "count": self.count, "exact": self.exact, "rank_error": self.rank_error, "rank_total": self.rank_total,
+            "points": self.points.tolist(), "ranks": self.ranks.tolist(),
+        }
 
     @classmethod
     def from_dict(cls, data: Mapping[str, Any]) -> "Distribution":
         """The inverse of :meth:`to_dict`."""
-        return cls(np.asarray(data["points"], dtype=np.float64), np.asarray(data["cumulative"], dtype=np.float64), int(data["count"]), float(data["rank_error"]))
+        return cls(
+            np.asarray(data["points"], dtype=np.float64), np.asarray(data["ranks"], dtype=np.int64), int(data["rank_total"]),
+            int(data["count"]), float(data["rank_error"]),
+        )
 
 
 @dataclass(frozen=True)
@@ -97,17 +112,27 @@ class ValuesAt:
 
     @classmethod
     def of(cls, values: np.ndarray, points: np.ndarray) -> "ValuesAt":
-        """Count the finite ``values`` against sorted ``points`` in O(n log K), without sorting the values."""
+        """Count the finite ``values`` against sorted, distinct ``points`` in O(n log K): one binary search per value, no sort."""
         x = np.asarray(values, dtype=np.float64)
         x = x[np.isfinite(x)]
         slots = points.size + 1
-        at_or_below = np.cumsum(np.bincount(np.searchsorted(points, x, side="left"), minlength=slots))[: points.size]
-        below = np.cumsum(np.bincount(np.searchsorted(points, x, side="right"), minlength=slots))[: points.size]
+        first_not_below = np.searchsorted(points, x, side="left")
+        on_point = np.zeros(x.size, dtype=bool)
+        inside = first_not_below < points.size
+        on_point[inside] = points[first_not_below[inside]] == x[inside]
+        at_or_below = np.cumsum(np.bincount(first_not_below, minlength=slots))[: points.size]
+        below = np.cumsum(np.bincount(first_not_below + on_point, minlength=slots))[: points.size]
         return cls(at_or_below, below, int(x.size))
 
 
-def ks_distance(reference: Distribution, values: np.ndarray) -> float:
+def _counted(reference: Distribution, values: "np.ndarray | ValuesAt") -> ValuesAt:
+    return values if isinstance(values, ValuesAt) else ValuesAt.of(values, reference.points)
+
+
+def ks_distance(reference: Distribution, values: "np.ndarray | ValuesAt") -> float:
     """The two-sample Kolmogorov-Smirnov distance ``sup |G(x) - F(x)|`` between ``reference`` and the ECDF of ``values``.
+
+    ``values`` may be given already counted at the reference's points.
 
     Between two points of ``reference`` its ECDF ``G`` is constant and that
     of the values, ``F``, rises, so the supremum is reached at a point or just
@@ -119,7 +144,7 @@ def ks_distance(reference: Distribution, values: np.ndarray) -> float:
     ----------
     Smirnov, N. (1948). Table for estimating the goodness of fit of empirical distributions. Ann. Math. Stat. 19(2), 279-281.
     """
-    counted = ValuesAt.of(values, reference.points)
+    counted = _counted(reference, values)
     if reference.count == 0 or counted.count == 0:
         return float("nan")
     at = counted.at_or_below / counted.count
@@ -165,10 +190,10 @@ def bin_shares(counts: np.ndarray) -> np.ndarray:
     return padded / padded.sum()
 
 
-def numeric_stability(reference: Distribution, values: np.ndarray) -> float:
-    """PSI of ``values`` against ``reference`` over the reference's deciles."""
+def numeric_stability(reference: Distribution, values: "np.ndarray | ValuesAt") -> float:
+    """PSI of ``values`` (or their counts at the reference's points) against ``reference`` over the reference's deciles."""
     edges = decile_edges(reference)
-    counted = ValuesAt.of(values, reference.points)
+    counted = _counted(reference, values)
     if reference.count == 0 or counted.count == 0:
         return float("nan")
     old = np.diff(np.concatenate([[0.0], reference.shares_at(edges), [1.0]])) * reference.count

@@ -28,6 +28,7 @@ DEMONSTRATIONS: Mapping[str, tuple[str, str]] = {
     "collinearity.pairwise": ("collinearity", "area_and_racks"),
     "collinearity.condition": ("collinearity", "area_and_racks"),
     "design": ("design", "codes_as_numbers"),
+    "drift": ("drift", "fahrenheit_export"),
     "design.possible-code": ("design", "codes_as_numbers"),
     "hygiene": ("hygiene", "duplicated_days"),
     "hygiene.duplicate-rows": ("hygiene", "duplicated_days"),
