@@ -17,7 +17,7 @@ import pyarrow as pa
 from .baseline import BaselineProfile, ColumnProfile, complete_level_counts
 from .roles import Kind
 from .scoring import NUMERIC_KINDS, rows_through_terms
-from .stats.distribution import Distribution, ValuesAt, ks_distance, ks_p_value, level_stability, numeric_stability
+from .stats.distribution import Distribution, ValuesAt, ks_distance, ks_p_value, level_stability, numeric_stability, sorted_finite
 from .stats.drift import ChowTest, UnitMatch, chow_test, cohens_h, holm, match_unit_change
 from .stats.factor import DesignFactor
 from .stats.fit import PreliminaryFit
@@ -146,9 +146,9 @@ def compare_columns(ctx: "RunContext", baseline: BaselineProfile) -> ColumnCompa
             new_missing = _missing_count(ctx, name)
             raw_missing.append(_missing_shift(old_name, old.missing + old.nonfinite, old.rows, new_missing, ctx.table.num_rows))
         if old.distribution is not None and kind is Kind.NUMERIC:
-            values = ctx.values(name)
-            counted = ValuesAt.of(values, old.distribution.points)
-            match = match_unit_change(old.moments or Moments.empty(), old.distribution, values, ctx.tally(name).moments, counted)
+            ordered = sorted_finite(ctx.values(name))
+            counted = ValuesAt.of_sorted(ordered, old.distribution.points)
+            match = match_unit_change(old.moments or Moments.empty(), old.distribution, ordered, ctx.tally(name).moments)
             if match is not None:
                 units[old_name] = match
                 continue

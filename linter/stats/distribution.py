@@ -112,17 +112,21 @@ class ValuesAt:
 
     @classmethod
     def of(cls, values: np.ndarray, points: np.ndarray) -> "ValuesAt":
-        """Count the finite ``values`` against sorted, distinct ``points`` in O(n log K): one binary search per value, no sort."""
-        x = np.asarray(values, dtype=np.float64)
-        x = x[np.isfinite(x)]
-        slots = points.size + 1
-        first_not_below = np.searchsorted(points, x, side="left")
-        on_point = np.zeros(x.size, dtype=bool)
-        inside = first_not_below < points.size
-        on_point[inside] = points[first_not_below[inside]] == x[inside]
-        at_or_below = np.cumsum(np.bincount(first_not_below, minlength=slots))[: points.size]
-        below = np.cumsum(np.bincount(first_not_below + on_point, minlength=slots))[: points.size]
-        return cls(at_or_below, below, int(x.size))
+        """Count the finite ``values`` against sorted, distinct ``points``."""
+        return cls.of_sorted(sorted_finite(values), points)
+
+    @classmethod
+    def of_sorted(cls, ordered: np.ndarray, points: np.ndarray) -> "ValuesAt":
+        """Count sorted finite values against sorted, distinct ``points``: two binary searches per point, O(K log n)."""
+        at_or_below = np.searchsorted(ordered, points, side="right")
+        below = np.searchsorted(ordered, points, side="left")
+        return cls(at_or_below, below, int(ordered.size))
+
+
+def sorted_finite(values: np.ndarray) -> np.ndarray:
+    """The finite entries of ``values``, sorted (one sort serves every count against any points)."""
+    x = np.asarray(values, dtype=np.float64)
+    return np.sort(x[np.isfinite(x)])
 
 
 def _counted(reference: Distribution, values: "np.ndarray | ValuesAt") -> ValuesAt:

@@ -51,7 +51,7 @@ class UnitMatch:
     spread_ratio: float
 
 
-def match_unit_change(old: Moments, reference: Distribution, new_values: np.ndarray, new: Moments, counted: ValuesAt | None = None) -> UnitMatch | None:
+def match_unit_change(old: Moments, reference: Distribution, ordered: np.ndarray, new: Moments) -> UnitMatch | None:
     """The conversion of :data:`UNIT_CHANGES` whose inverse brings the new values back onto the baseline, if any.
 
     A candidate must match the spread ratio within :data:`SPREAD_TOLERANCE`
@@ -61,8 +61,8 @@ def match_unit_change(old: Moments, reference: Distribution, new_values: np.ndar
     (``SE(ln s1/s2) ~ sqrt(1/2n1 + 1/2n2)`` for normal data, Kendall & Stuart
     1977, sec. 10.8; the mean difference ``sqrt(1/n1 + 1/n2)`` SDs); among
     those, the one whose converted baseline distribution lies closest (KS) to
-    the new values wins, and it must halve the KS distance of no conversion
-    (``counted``: the new values already counted at the reference's points).
+    the new values (``ordered``: sorted, finite) wins, and it must halve the
+    KS distance of no conversion.
     """
     if old.count < 2 or new.count < 2 or not (old.std > 0 and new.std > 0):
         return None
@@ -75,12 +75,13 @@ def match_unit_change(old: Moments, reference: Distribution, new_values: np.ndar
             continue
         if abs(new.mean - (change.scale * old.mean + change.offset)) > location_tolerance * new.std:
             continue
-        converted = ks_distance(reference.mapped(change.scale, change.offset), new_values)
+        mapped = reference.mapped(change.scale, change.offset)
+        converted = ks_distance(mapped, ValuesAt.of_sorted(ordered, mapped.points))
         if best is None or converted < best.distance_converted:
             best = UnitMatch(change, float("nan"), converted, ratio)
     if best is None:
         return None
-    raw = ks_distance(reference, counted if counted is not None else new_values)
+    raw = ks_distance(reference, ValuesAt.of_sorted(ordered, reference.points))
     if not best.distance_converted < raw / 2:
         return None
     return UnitMatch(best.change, raw, best.distance_converted, ratio)
