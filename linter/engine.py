@@ -63,7 +63,7 @@ def run_rule(rule: RuleLike, settings: RuleSettings, context: RunContext, debug:
     quiet = nullcontext() if debug else np.errstate(all="ignore")
     try:
         with quiet:
-            _require(rule, context)
+            require_fit(rule, context)
             produced = list(rule.check(context, settings))
         for item in produced:
             if not isinstance(item, Finding):
@@ -78,7 +78,7 @@ def run_rule(rule: RuleLike, settings: RuleSettings, context: RunContext, debug:
     return RuleOutcome(rule.id, kept)
 
 
-def _require(rule: RuleLike, context: RunContext) -> None:
+def require_fit(rule: RuleLike, context: RunContext) -> None:
     """Raise NotApplicable when a per-row diagnostic of the fit has no fit to diagnose."""
     needs: frozenset[str] = getattr(rule, "needs", frozenset())
     if not {"rows", "fit"} <= needs:
