@@ -273,3 +273,17 @@ def test_a_baseline_that_is_not_a_profile_or_table_is_a_usage_problem(tmp_path: 
     run = run_cli("check", THIS_MONTH, *WAREHOUSE_ARGS, "--baseline", wrong)
     assert run.code == 2 and "--baseline" in run.err
     assert run_cli("check", THIS_MONTH, LAST_MONTH, *WAREHOUSE_ARGS, "--save-baseline", tmp_path / "b.json").code == 2
+
+
+def test_drift_rules_pass_the_conformance_kit_against_a_baseline(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    from dataclasses import replace
+
+    import prefit.testing as kit
+    from prefit.registry import discover
+
+    plain = kit.awkward_tables()[0]
+    path = _baseline(plain.build(), tmp_path / "base.json", target="energy_kwh")
+    cases = tuple(replace(case, options={**case.options, "baseline": str(path)}) for case in kit.awkward_tables())
+    monkeypatch.setattr(kit, "awkward_tables", lambda: cases)
+    for rule in [r for r in discover() if r.id.startswith("drift.")]:
+        kit.check_rule(rule)
