@@ -17,6 +17,7 @@ from typing import Any, Mapping, Sequence
 import numpy as np
 
 SKETCH_POINTS = 512
+SAMPLE_CONFIDENCE = 0.99
 PSI_BINS = 10
 EMPTY_BIN_COUNT = 0.5
 
@@ -155,6 +156,11 @@ def ks_distance(reference: Distribution, values: "np.ndarray | ValuesAt") -> flo
     before = counted.below / counted.count
     previous = np.concatenate([[0.0], reference.cumulative[:-1]])
     return float(max(np.max(np.abs(reference.cumulative - at)), np.max(np.abs(previous - before))))
+
+
+def dkw_rank_error(values: int, confidence: float) -> float:
+    """``eps`` with ``P(sup |F_m - F| > eps) <= 1 - confidence`` for ``m = values`` sampled values (Massart 1990)."""
+    return float(np.sqrt(np.log(2.0 / (1.0 - confidence)) / (2.0 * values))) if values > 0 else float("inf")
 
 
 def ks_p_value(distance: float, first: int, second: int) -> float:
