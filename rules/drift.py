@@ -354,7 +354,8 @@ RULES = [
     ),
     Rule(
         id="drift.levels",
-        summary="Category levels the baseline never had (its fit has no coefficient for them), and baseline levels that vanished.",
+        summary="Category levels the baseline never had (its fit has no coefficient for them), and baseline levels that vanished; "
+        "value: the share of complete cases with a new level.",
         why="Treatment coding gives each level seen in the baseline its own coefficient. A new level, such as a new equipment "
         "type, has none: the baseline model either fails on those rows or silently treats them as the reference level, "
         "whose energy use may be quite different.",
@@ -370,7 +371,8 @@ RULES = [
     Rule(
         id="drift.units",
         summary="A numeric column whose location and spread moved by a unit conversion (x10, x100, x1000, Celsius to Fahrenheit, "
-        "kg to lb, feet to metres, x3.6, or back), named as the conversion rather than as drift.",
+        "kg to lb, feet to metres, x3.6, or back), named as the conversion rather than as drift; value: the KS distance "
+        "after converting back.",
         why="A coefficient is per unit of its predictor. Exported in Fahrenheit instead of Celsius, a temperature's slope "
         "applied by the baseline model is 1.8 times too steep per degree and offset by 32 degrees; a meter read in Wh "
         "instead of kWh is off by a factor of 1000. Nothing else in the table looks wrong.",
@@ -383,7 +385,7 @@ RULES = [
     Rule(
         id="drift.distribution",
         summary="A model column whose distribution moved since the baseline: PSI 0.1 or more with a significant KS or chi-square "
-        "test, adjusted across columns.",
+        "test, adjusted across columns; value: the PSI.",
         why="The baseline coefficients were estimated over the baseline's mix of conditions. When a predictor's distribution "
         "moves, the fit is applied where it had fewer rows (wider uncertainty), and any curvature it missed matters more; "
         "when the target moves, something the predictors do not explain has changed.",
@@ -399,7 +401,7 @@ RULES = [
     Rule(
         id="drift.missing",
         summary="A model column whose share of missing values changed since the baseline (Cohen's h 0.2 or more, significant "
-        "after adjustment across columns).",
+        "after adjustment across columns); value: |h|.",
         why="Complete-case fitting drops every row with a hole. A column that is suddenly missing more often shrinks the "
         "sample and, when the holes follow a cause (a site, a sensor, a season), biases what remains.",
         remedy="ask why the column is missing more often than before",
@@ -414,8 +416,8 @@ RULES = [
     ),
     Rule(
         id="drift.coverage",
-        summary="Rows of the new extract outside the baseline's predictor ranges or levels, or off its joint cloud (leverage "
-        "beyond the baseline's largest).",
+        summary="Complete rows of the new extract outside the baseline's predictor ranges, or off its joint cloud (leverage "
+        "beyond the baseline's largest); value: their share of the rows compared (new levels are drift.levels').",
         why="The baseline fit was only checked where the baseline's data are. Rows beyond its ranges ask it to extrapolate; "
         "rows inside every range but off the cloud the predictors formed together are extrapolations too (hidden "
         "extrapolation), with a prediction variance larger than anywhere in the baseline.",
@@ -431,8 +433,8 @@ RULES = [
     Rule(
         id="drift.relationship",
         summary="Coefficients that differ between the baseline and the new extract (Chow test significant), graded by the "
-        "baseline fit's RMS prediction error on the new rows against its residual SD; with each coefficient's shift in "
-        "standard errors and Cohen's f^2.",
+        "baseline fit's RMS prediction error on the new rows over its residual SD (the value); with each coefficient's "
+        "shift in standard errors and Cohen's f^2.",
         why="Even when every column looks as before, the way energy responds to them can change (new equipment, a changed "
         "defrost schedule, a meter swapped). Then the baseline coefficients predict the new rows worse than their "
         "residual SD promises, and decisions based on them are off.",

@@ -95,6 +95,9 @@ def test_relationship_rule_reports_the_1955_to_1970_cost_function_change(tmp_pat
     # source: the 1955 fit's residual SD (statsmodels) and its prediction error on the 1970 rows
     residual = new["cost"] - fits[0].predict(new)
     np.testing.assert_allclose(details["prediction_error_ratio"], np.sqrt(np.mean(residual**2)) / np.sqrt(fits[0].scale), rtol=1e-8)
+    moved = {f.columns[0]: f.details for f in report.findings if f.rule == "drift.distribution"}
+    # source: scipy.stats.ks_2samp on log output of the 1955 and 1970 generators (AER::Electricity1955/1970)
+    assert moved["output"]["distance"] == pytest.approx(scipy.stats.ks_2samp(old["output"], new["output"]).statistic, abs=1e-12)
 
 
 def _cps1988_wages() -> tuple[np.ndarray, np.ndarray]:
