@@ -45,6 +45,7 @@ import numpy as np
 from . import __version__
 from .design import Term
 from .errors import UsageProblem
+from .findings import plain_json
 from .reading import ReadOptions, TableInfo, read_table
 from .roles import Kind
 from .stats.distribution import SAMPLE_CONFIDENCE, Distribution, dkw_rank_error
@@ -140,13 +141,13 @@ class ModelProfile:
             ],
             "complete_cases": fit.n,
             "rank": fit.rank,
-            "coefficients": dict(zip(self.column_names, _floats(fit.coef))),
-            "standard_errors": dict(zip(self.column_names, _floats(fit.se))),
-            "residual_sd": _float(fit.sigma),
+            "coefficients": dict(zip(self.column_names, fit.coef.tolist())),
+            "standard_errors": dict(zip(self.column_names, fit.se.tolist())),
+            "residual_sd": fit.sigma,
             "rss": fit.rss,
             "tss": self.tss,
             "observed_ranges": {k: list(v) for k, v in self.observed.items()},
-            "largest_leverage": _float(self.largest_leverage),
+            "largest_leverage": self.largest_leverage,
             "factor": {"scales": f.scales.tolist(), "r": f.r.tolist(), "perm": f.perm.tolist(), "qty": f.qty.tolist(), "rss_outside": f.rss_outside, "n": f.n},
         }
 
@@ -202,7 +203,7 @@ class BaselineProfile:
 
     def to_json(self) -> str:
         """The profile file's text: JSON with one key per line and each list of numbers on one line; NaN written as null."""
-        return _dumped(_plain(self.to_dict()), 0) + "\n"
+        return _dumped(plain_json(self.to_dict()), 0) + "\n"
 
     @classmethod
     def from_dict(cls, data: Mapping[str, Any], origin: str = "", digest: str | None = None) -> "BaselineProfile":
@@ -227,14 +228,6 @@ class BaselineProfile:
         return {"path": self.origin, "sha256": self.digest, "table": self.table.path, "rows": self.table.rows}
 
 
-def _float(value: float) -> float | None:
-    return float(value) if np.isfinite(value) else None
-
-
-def _floats(values: np.ndarray) -> list[float | None]:
-    return [_float(float(v)) for v in values]
-
-
 def _nan_if_none(value: Any) -> float:
     return float("nan") if value is None else float(value)
 
@@ -246,16 +239,6 @@ def _dumped(value: Any, depth: int) -> str:
         items = [f"{inner}{json.dumps(k, ensure_ascii=False)}: {_dumped(v, depth + 1)}" for k, v in value.items()]
         return "{\n" + ",\n".join(items) + "\n" + " " * depth + "}"
     return json.dumps(value, ensure_ascii=False, allow_nan=False)
-
-
-def _plain(value: Any) -> Any:
-    if isinstance(value, float):
-        return value if np.isfinite(value) else None
-    if isinstance(value, dict):
-        return {k: _plain(v) for k, v in value.items()}
-    if isinstance(value, list):
-        return [_plain(v) for v in value]
-    return value
 
 
 def _role(name: str, ctx: "RunContext") -> str:
@@ -356,9 +339,10 @@ def load_baseline(path: str, options: "CheckOptions") -> BaselineProfile:
     where = f"--baseline {path}"
     if not Path(path).is_file():
         raise UsageProblem(where, "names no file", "give a profile written by --save-baseline, or the accepted table itself")
-    raw = Path(path).read_bytes()
-    head = raw[:4096].lstrip()
-    if head.startswith(b"{") and b'"format"' in raw[:256]:
+    with open(path, "rb") as handle:
+        head = handle.read(256)
+    if head.lstrip().startswith(b"{") and b'"format"' in head:
+        raw = Path(path).read_bytes()
         try:
             data = json.loads(raw.decode("utf-8"))
         except (UnicodeDecodeError, json.JSONDecodeError) as exc:
