@@ -9,9 +9,8 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from .roles import INTERCEPT as INTERCEPT
 from .roles import Kind, Roles, label_values, numeric_values
-
-INTERCEPT = "(intercept)"
 
 
 @dataclass(frozen=True)

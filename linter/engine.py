@@ -31,10 +31,10 @@ class RuleOutcome:
 
 def select_rules(registry: Registry, options: CheckOptions) -> list[tuple[RuleLike, RuleSettings]]:
     """The rules to run, each with its configured settings, in id order."""
-    families = set(registry.families())
+    families = registry.families()
     for wanted in (*options.skip_rules, *options.rules):
         if registry.get(wanted) is None and wanted not in families:
-            raise UsageProblem(f"rule {wanted!r}", "is not a known rule or family", closest_names(wanted, sorted(registry.rules)) + "; `prefit rules` lists them")
+            raise UsageProblem(f"rule {wanted!r}", "is not a known rule or family", closest_names(wanted, sorted(registry.rules) + families, kind="rules and families") + "; `prefit rules` lists them")
     chosen: list[tuple[RuleLike, RuleSettings]] = []
     for rule in registry:
         if rule.id in options.skip_rules or rule_family(rule.id) in options.skip_rules:

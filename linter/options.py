@@ -167,8 +167,10 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("predictors", "predictors", _as_names, "exactly these predictors"),
     Setting("categorical", "categorical", _as_names, "numeric columns to treat as categories"),
     Setting("intercept", "intercept", _as_bool, "whether the model has an intercept"),
-    Setting("gate", "gate", _as_grade, "the weakest grade that fails the check"),
-    Setting("skip-rules", "skip_rules", _as_names, "rule ids (or families) not to run"),
+    Setting("fail-at", "gate", _as_grade, "the weakest grade that fails the check (as --fail-at)"),
+    Setting("skip", "skip_rules", _as_names, "rule ids (or families) not to run (as --skip)"),
+    Setting("gate", "gate", _as_grade, "older spelling of fail-at, kept for one release"),
+    Setting("skip-rules", "skip_rules", _as_names, "older spelling of skip, kept for one release"),
     Setting("rule", "rules", _as_rules, "per-rule thresholds, grade, exempt columns, enabled"),
     Setting("missing-codes", "missing_codes", _as_codes, "per-column values that mean missing ('*' for all)"),
     Setting("sep", "sep", _as_text, "the delimiter of text tables"),
@@ -185,11 +187,14 @@ SETTINGS_BY_KEY: Mapping[str, Setting] = {s.key: s for s in SETTINGS}
 def parse_settings(raw: Mapping[str, Any], where: str) -> dict[str, Any]:
     """Check a configuration table against :data:`SETTINGS`; return CheckOptions field values."""
     values: dict[str, Any] = {}
+    for old, new in (("gate", "fail-at"), ("skip-rules", "skip")):
+        if old in raw and new in raw:
+            raise UsageProblem(f"{where}: keys {new!r} and {old!r}", "both set the same thing", f"keep {new!r} (the older {old!r} goes after this release)")
     for key, value in raw.items():
         setting = SETTINGS_BY_KEY.get(key)
         if setting is None:
             raise UsageProblem(
-                f"{where}: key {key!r}", "is not a prefit setting", closest_names(key, list(SETTINGS_BY_KEY)).replace("closest", "known keys close to it")
+                f"{where}: key {key!r}", "is not a prefit setting", closest_names(key, list(SETTINGS_BY_KEY), kind="keys").replace("closest", "known keys close to it")
             )
         values[setting.field] = setting.parse(value, f"{where}: {key}")
     return values

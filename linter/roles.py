@@ -18,6 +18,8 @@ from .stats.textnumbers import numbers_as_text_reason
 FREE_TEXT_MIN_LEVELS = 50
 FREE_TEXT_LEVEL_SHARE = 0.5
 IDENTIFIER_MIN_ROWS = 20
+INTERCEPT = "intercept"
+"""The name of the model's constant term in the design, equations and reports."""
 
 
 class Kind(enum.Enum):
@@ -144,8 +146,12 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
     """Decide target, id and predictors from the options and the columns' kinds."""
     names = list(table.column_names)
     if options.target is None:
-        raise UsageProblem("--target", "is required", f"name the response column, e.g. --target {names[-1]!r}")
-    _require_columns(names, (options.target,), "--target")
+        usable = target_candidates(table)
+        example = f"e.g. --target {usable[-1]!r}" if usable else "no column of this table holds numbers"
+        raise UsageProblem("--target", "is required", f"name the response column, {example}")
+    if options.target not in names:
+        usable = target_candidates(table)
+        raise UsageProblem("--target", f"{options.target!r} is not a column of the table", closest_names(options.target, usable or names, kind="numeric columns"))
     if options.id is not None:
         _require_columns(names, (options.id,), "--id")
     _require_columns(names, options.exclude, "--exclude")
@@ -178,9 +184,15 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
                 left_out[name] = _text_reason(table.column(name))
             elif kind is Kind.DATETIME:
                 left_out[name] = "a date or time: its raw value is not a predictor; derive a trend, season or weekday column, or use it to order rows"
+            elif kind is Kind.NUMERIC and (index_reason := _numeric_index_reason(table.column(name))) is not None:
+                left_out[name] = index_reason
             else:
                 chosen.append(name)
         predictors = tuple(chosen)
+    if options.intercept and INTERCEPT in predictors:
+        raise UsageProblem(
+            f"column {INTERCEPT!r}", "has the name of the model's constant term", f"rename the column, --exclude {INTERCEPT}, or add --no-intercept"
+        )
     return Roles(
         target=options.target,
         id=options.id,
@@ -189,6 +201,37 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
         left_out=left_out,
         declared_categorical=tuple(options.categorical),
     )
+
+
+def target_candidates(table: pa.Table) -> list[str]:
+    """Columns that could be a least-squares response: numeric, and neither row numbers nor whole-number dates."""
+    return [
+        name
+        for name in table.column_names
+        if infer_kind(table.column(name), False) is Kind.NUMERIC and _numeric_index_reason(table.column(name)) is None
+    ]
+
+
+def _numeric_index_reason(column: pa.ChunkedArray) -> str | None:
+    """Why a numeric column is an index rather than a measurement: row numbers or whole-number dates; None otherwise.
+
+    Row numbers are the whole numbers 1..n (or 0..n-1) in any order, one per row; whole-number dates read as
+    YYYYMMDD with a real month and day on every row (common practice for exports from spreadsheets and databases).
+    """
+    if column.null_count or len(column) < IDENTIFIER_MIN_ROWS or not pa.types.is_integer(column.type):
+        return None
+    values = np.asarray(pc.cast(column, pa.int64()).to_numpy(zero_copy_only=False))
+    low, high = int(values.min()), int(values.max())
+    if low in (0, 1) and high - low == values.size - 1 and np.unique(values).size == values.size:
+        return f"row numbers ({low}..{high}, one per row): an index of the rows, not a property of them; use it as --id or --order"
+    if 1000_01_01 <= low and high <= 2999_12_31:
+        month, day = (values // 100) % 100, values % 100
+        if np.all((month >= 1) & (month <= 12) & (day >= 1) & (day <= 31)):
+            return (
+                f"whole numbers that read as dates (YYYYMMDD, {low} to {high}): their raw value is not a predictor; "
+                "convert the column to a date, then derive a trend or season, or use it to order rows"
+            )
+    return None
 
 
 def _text_reason(column: pa.ChunkedArray) -> str:

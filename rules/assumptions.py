@@ -149,7 +149,7 @@ def _heteroscedasticity(ctx: RunContext, settings: RuleSettings) -> Iterator[Fin
         value=change,
         threshold=limit,
         remedy=f"report heteroscedasticity-consistent (HC3) standard errors; or stabilise the variance (log of {ctx.roles.target}); "
-        f"or fit weighted least squares with weights that fall as {leader} grows",
+        f"or fit weighted least squares with {_weights_for(ctx, leader)}",
         details={
             "breusch_pagan": _test_details(koenker),
             "white": _white_details(sampled, design.p) if sampled else None,
@@ -258,7 +258,7 @@ def _residual_normality(ctx: RunContext, settings: RuleSettings) -> Iterator[Fin
         if present
     )
     consequence = (
-        f"with {n:,} complete cases t-based intervals and p-values may be off, and prediction intervals are"
+        f"with {n:,} complete cases t-based intervals and p-values may be off, and so may prediction intervals"
         if grade is Grade.WEAKENS
         else f"with {n:,} complete cases the coefficients' intervals are protected by the central limit theorem, but prediction intervals are not"
     )
@@ -366,6 +366,14 @@ AUTOCORRELATION_SOURCE = (
     "variance of its slope grows by (1 + rho) / (1 - rho), 1.86 at rho = 0.3 (AR(1) error formula)"
 )
 
+
+def _weights_for(ctx: RunContext, term: str) -> str:
+    """How weights should follow the term the spread moves with: by group for a two-valued one, else falling as it grows."""
+    column = ctx.design.X[:, ctx.design.column_names.index(term)] if term in ctx.design.column_names else None
+    if column is not None and np.unique(column).size <= 2:
+        return f"a separate residual variance (and weight) for each of the two values of {term}"
+    return f"weights that fall as {term} grows"
+
 RULES = [
     Rule(
         id="assumptions.heteroscedasticity",
@@ -410,13 +418,13 @@ RULES = [
         check=_residual_normality,
         thresholds=(
             ALPHA,
-            Threshold("skewness", 0.5, "common practice: |skewness| of 0.5 or more is at least moderate skew (Bulmer 1979, Principles of Statistics, from memory)"),
+            Threshold("skewness", 0.5, "common practice: |skewness| of 0.5 or more is at least moderate skew (Bulmer 1979, Principles of Statistics, p. 63, as quoted in secondary sources)"),
             Threshold("excess-kurtosis", 1.0, "common practice"),
             Threshold(
                 "weakens",
                 100,
                 "common practice: a hundred or more rows usually let the central limit theorem protect the coefficients "
-                "(Lumley et al. 2002, Annu. Rev. Public Health 23, from memory)",
+                "(Lumley, Diehr, Emerson & Chen 2002, Annu. Rev. Public Health 23, 151-169: valid in large samples for any distribution)",
                 Grade.WEAKENS,
                 "<",
             ),

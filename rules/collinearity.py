@@ -31,7 +31,7 @@ VIF_SOURCE = (
 )
 CONDITION_SOURCE = (
     "Belsley, Kuh & Welsch 1980, Regression Diagnostics, ch. 3: condition indices near 10 begin to affect "
-    "estimates, 30 and above are moderate to strong, with two or more variance-decomposition proportions above 0.5; from memory"
+    "estimates, 30 to 100 are moderate to strong and above 100 severe, with two or more variance-decomposition proportions above 0.5 (the ranges of their numerical experiments, as quoted by the colldiag implementations for R and Matlab)"
 )
 PAIRWISE_SOURCE = f"{COMMON_PRACTICE}: |r| of 0.9 and above between two predictors signals harmful collinearity; from memory"
 PRECISION_SOURCE = (

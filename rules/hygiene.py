@@ -11,7 +11,7 @@ import pyarrow.compute as pc
 
 from prefit.context import RunContext
 from prefit.design import category_codes
-from prefit.findings import Finding, Grade
+from prefit.findings import Finding, Grade, counted
 from prefit.roles import Kind, numeric_values
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.rowmatch import ColumnBits, candidate_rows, value_bits
@@ -186,7 +186,7 @@ def _replicates(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     listed, _, total = ctx.listed_rows(design.positions[candidates[in_groups]])
     yield settings.finding(
         Grade.NOTE,
-        f"{varying.size:,} groups of rows ({int(in_groups.sum()):,} rows) share every predictor value but differ in "
+        f"{counted(varying.size, 'group')} of rows ({counted(int(in_groups.sum()), 'row')}) share every predictor value but differ in "
         f"{ctx.roles.target}: replicate measurements, which allow a lack-of-fit test of the linear form",
         columns=[ctx.roles.target],
         rows=listed,
@@ -236,8 +236,8 @@ def _identifier(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
             f"predictor {column} looks like an identifier: {verdict}; {consequence}",
             columns=[column],
             source=COMMON_PRACTICE,
-            remedy=f"pass {column} as --id (row labels) or --exclude it; if site-level differences matter, "
-            "use the site's measured properties (area, equipment) as predictors instead",
+            remedy=f"pass {column} as --id (row labels) or --exclude it; if differences between the units it names matter, "
+            "use their measured properties as predictors instead",
         )
 
 
@@ -301,7 +301,7 @@ def _numeric_as_text(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
             if not profile.formatted:
                 continue
             grade = Grade.MISLEADS if levels - 1 >= MANY_DUMMIES else Grade.WEAKENS
-            role, effect = "predictor", f"as a category it becomes {levels - 1:,} dummies, one per distinct value"
+            role, effect = "predictor", f"as a category it becomes {counted(levels - 1, 'dummy', 'dummies')}, one per distinct value"
         else:
             if only_missing_codes or not profile.is_quantity:
                 continue
@@ -393,7 +393,7 @@ def _high_cardinality(ctx: RunContext, settings: RuleSettings) -> Iterator[Findi
         yield settings.finding(
             grade,
             f"{column} has {present.size:,} levels among {n:,} complete cases ({fmt(ratio)} levels per row, "
-            f"{fmt(n / present.size)} rows per level): its {present.size - 1:,} dummies eat the sample",
+            f"{fmt(n / present.size)} rows per level): its {counted(present.size - 1, 'dummy', 'dummies')} eat the sample",
             columns=[column],
             value=ratio,
             threshold=limit,

@@ -19,7 +19,7 @@ from prefit.stats.blas import one_blas_thread
 from prefit.stats.missingness import PatternMoments, little_mcar, pattern_index
 from prefit.stats.ranks import RankedColumn
 from prefit.stats.sentinels import Sentinel, SentinelLimits, find_sentinels
-from prefit.stats.textnumbers import is_text_type, mostly_number_like, parsed_values
+from prefit.stats.textnumbers import is_text_type, mostly_number_like, parsed_values, placeholder_levels
 
 PER_PARAMETER_SOURCE = (
     "common practice: at least 10 observations per estimated parameter "
@@ -224,6 +224,9 @@ def _disguised_codes(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
         elif is_text_type(table_column.type) and mostly_number_like(table_column) and ctx.text_numbers(column).is_numeric:
             tokens = ctx.text_numbers(column).missing_tokens
             values = parsed_values(table_column)
+        elif kind is Kind.CATEGORICAL and is_text_type(table_column.type):
+            tokens = placeholder_levels(table_column)
+            values = np.empty(0)
         else:
             continue
         sentinels = find_sentinels(values, limits)
@@ -248,13 +251,17 @@ def _codes_finding(
         for s in sentinels
     ]
     ordered_tokens = sorted(tokens, key=lambda t: (-tokens[t], t))
-    parts += [f"{t!r} in {tokens[t]:,} rows (text in a column of numbers)" for t in ordered_tokens]
+    as_levels = kind is Kind.CATEGORICAL and values.size == 0  # a text category: no numbers, only levels
+    where = "a level of a category" if as_levels else "text in a column of numbers"
+    parts += [f"{t!r} in {tokens[t]:,} rows ({where})" for t in ordered_tokens]
     affected = sum(s.count for s in sentinels) + sum(tokens.values())
     is_design = column in ctx.model_columns
     role = "target" if column == ctx.roles.target else ("predictor" if is_design else "column left out of the design")
-    grade = Grade.MISLEADS if is_design else Grade.WEAKENS
+    grade = Grade.MISLEADS if is_design and not as_levels else Grade.WEAKENS
     if kind is Kind.NUMERIC:
         effect = "left in, they act as gross outliers and pull the fit toward them"
+    elif as_levels:
+        effect = "each becomes a level of its own, with its own coefficient, instead of a hole"
     elif tokens:
         effect = "they keep the column from being read as numbers" + ("" if is_design else ", so it is left out of the model")
     else:
@@ -533,9 +540,12 @@ RULES = [
     Rule(
         id="missingness.mcar",
         summary="Little's chi-square test of missing completely at random over the numeric model columns.",
-        why="Deleting incomplete rows is harmless for bias only when the holes are missing completely at random. "
-        "Little's test compares the means of each missingness pattern with the overall maximum-likelihood means; "
-        "a small p-value says the incomplete rows differ systematically from the complete ones.",
+        why="Little's test compares the means of each missingness pattern with the overall maximum-likelihood means; "
+        "a small p-value says the incomplete rows differ systematically from the complete ones (the holes are not "
+        "missing completely at random). For regression coefficients that alone does not make deleting incomplete "
+        "rows biased: complete-case estimates stay unbiased whenever the holes do not depend on the response given "
+        "the predictors (Little 1992, JASA 87; White & Carlin 2010, Statistics in Medicine 29). It does mean the "
+        "complete rows are not a random part of the table, so check what the holes follow (missingness.informative).",
         remedy="find which columns the holes depend on (missingness.informative) and impute using them",
         check=_mcar,
         heavy=True,

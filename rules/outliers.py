@@ -276,7 +276,7 @@ RULES = [
         why="Least squares weighs squared residuals, so one row far from the line pulls the slopes and inflates the "
         "residual variance, which widens every confidence interval. A residual too large to be chance among n rows "
         "is usually a recording error or a row from a different process.",
-        remedy="check the listed rows' target values at the source (units, decimal point, meter resets); correct "
+        remedy="check the listed rows' target values at the source (units, decimal point, counter resets); correct "
         "errors, and fit with and without genuine extremes",
         check=_studentized,
         thresholds=(

@@ -7,7 +7,7 @@ from typing import Iterator
 import numpy as np
 
 from prefit.context import RunContext
-from prefit.findings import Finding, Grade
+from prefit.findings import Finding, Grade, counted
 from prefit.roles import Kind
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.mergeable import Moments
@@ -26,7 +26,7 @@ def _missing_values(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding
     if usable < limit.value:
         yield settings.finding(
             Grade.BLOCKS,
-            f"{target} has {usable} usable value(s) in {tally.rows:,} rows ({tally.missing:,} missing, {tally.nonfinite:,} not finite): nothing to fit",
+            f"{target} has {counted(usable, 'usable value')} in {tally.rows:,} rows ({tally.missing:,} missing, {tally.nonfinite:,} not finite): nothing to fit",
             columns=[target],
             value=usable,
             threshold=limit,
@@ -163,7 +163,7 @@ RULES = [
         remedy="fit the logarithm of the target and read slopes as relative changes; check the residual spread again",
         check=_skewed,
         thresholds=(
-            Threshold("skewness", 1.0, "common practice: skewness above 1 is strong skew (Bulmer 1979, Principles of Statistics, from memory)", compare=">"),
+            Threshold("skewness", 1.0, "common practice: skewness above 1 is strong skew (Bulmer 1979, Principles of Statistics, p. 63, as quoted in secondary sources)", compare=">"),
             Threshold("max-min-ratio", 10, "common practice: a positive quantity spanning an order of magnitude is a candidate for a log scale", compare=">"),
             Threshold(
                 "central-skewness",

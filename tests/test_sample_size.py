@@ -164,7 +164,7 @@ def test_per_parameter_names_each_term_and_its_dummies() -> None:
     (finding,) = _findings(check(warpbreaks, target="breaks"), "sample-size.per-parameter")
     # source: pandas level counts: wool costs 1 dummy, tension 2, plus the intercept
     assert finding.details["parameters_by_term"] == {
-        "(intercept)": 1,
+        "intercept": 1,
         "wool": warpbreaks.wool.nunique() - 1,
         "tension": warpbreaks.tension.nunique() - 1,
     }

@@ -12,7 +12,7 @@ from __future__ import annotations
 import re
 from typing import TYPE_CHECKING
 
-from ..findings import GRADES_STRONGEST_FIRST, Finding, count_by_grade
+from ..findings import GRADES_STRONGEST_FIRST, Finding, count_by_grade, counted
 from .base import ReportWriter, RunFacts, baseline_sentence, row_groups
 
 if TYPE_CHECKING:
@@ -43,7 +43,7 @@ def _rows(finding: Finding) -> str:
     items, more = row_groups(finding, LISTED_ROWS)
     shown = ", ".join(md_text(item) for item in items)
     stop = "" if finding.message.rstrip().endswith((".", ";", ":")) else "."
-    return f"{stop} Rows: {shown}" + (f" and {more:,} more rows" if more > 0 else "") + "."
+    return f"{stop} Rows: {shown}" + (f" and {counted(more, 'more row')}" if more > 0 else "") + "."
 
 
 class MarkdownWriter(ReportWriter):

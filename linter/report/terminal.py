@@ -17,6 +17,7 @@ from ..findings import (
     Finding,
     Grade,
     count_by_grade,
+    counted,
 )
 from .base import ReportWriter, RunFacts, baseline_sentence, labels_not_unique, row_groups
 
@@ -68,7 +69,7 @@ def _design_line(report: "Report") -> Text:
         parts.append(f"{numeric} numeric")
     for term in terms:
         if "reference" in term:
-            parts.append(f"{term['column']} ({term['parameters']} dummies, reference {term['reference']!r})")
+            parts.append(f"{term['column']} ({counted(term['parameters'], 'dummy', 'dummies')}, reference {term['reference']!r})")
         elif term["kind"] in ("categorical", "boolean"):
             parts.append(f"{term['column']} (no complete rows)")
     line = Text()
@@ -112,7 +113,7 @@ def _finding_lines(finding: Finding, explain: str | None, told: set[tuple[str, s
     if finding.rows:
         items, more = row_groups(finding, 10)
         shown = ", ".join(items)
-        lines.append((INDENT_BODY, Text(f"rows: {shown}" + (f" and {more:,} more rows" if more > 0 else ""), style="facts.label")))
+        lines.append((INDENT_BODY, Text(f"rows: {shown}" + (f" and {counted(more, 'more row')}" if more > 0 else ""), style="facts.label")))
     if explain:
         lines.append((INDENT_BODY, Text(_once("why", explain, told), style="finding.why")))
     if finding.remedy:

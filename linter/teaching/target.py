@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..rule import fmt
 from .base import Demonstration, Line, fit_line, floor_areas, generator
 
 
@@ -34,4 +35,70 @@ def skewed_energy() -> Demonstration:
             "usual standard errors are wrong; on the log scale the spread is even and slopes read as percentages.",
         ),
         {"spread_ratio_raw": ratios[0], "spread_ratio_log": ratios[1], "skewness": skewness},
+    )
+
+
+def flat_meter() -> Demonstration:
+    """A target that holds one value: R-squared has nothing to explain."""
+    rng = generator(46)
+    rows = 60
+    outdoor = rng.uniform(-5, 35, rows)
+    energy = np.full(rows, 12_000.0)  # a meter stuck at its last reading
+    with np.errstate(divide="ignore", invalid="ignore"):
+        line = fit_line(energy, outdoor)
+    total = float(np.sum((energy - energy.mean()) ** 2))
+    return Demonstration(
+        (
+            f"{rows} invented site-days; the energy meter was stuck and reports 12,000 kWh every day.",
+            "",
+            f"  outdoor_c slope {abs(line.coef[1]):.3g}, total sum of squares {total:g}: R-squared is 0/0, undefined",
+            "",
+            "A constant target carries no information about any predictor: every slope is zero by construction and",
+            "every test statistic is undefined. Check the meter or the export before modelling.",
+        ),
+        {"slope": float(line.coef[1]), "total_sum_of_squares": total},
+    )
+
+
+def unread_days() -> Demonstration:
+    """Rows lost when the target is missing on the hottest days, and the slope fitted on the rest."""
+    rng = generator(47)
+    rows = 240
+    outdoor = rng.uniform(-5, 35, rows)
+    energy = 6_000 + 90 * outdoor + 5 * np.maximum(outdoor - 22, 0) ** 2 + rng.normal(0, 400, rows)
+    read = outdoor < 28  # the meter gateway overheats on the hottest days
+    full, kept = fit_line(energy, outdoor), fit_line(energy[read], outdoor[read])
+    return Demonstration(
+        (
+            f"{rows} invented site-days; the energy reading is missing on the {int((~read).sum())} days above 28 C.",
+            "",
+            "                      outdoor_c slope   rows",
+            f"  every day read      {fmt(full.coef[1]):>15}   {rows:>4}",
+            f"  hot days unread     {fmt(kept.coef[1]):>15}   {int(read.sum()):>4}",
+            "",
+            "Rows without a target cannot enter the fit. When the missing readings are the unusual ones, the fit describes",
+            "only the days that were read; never impute the response just to keep the rows.",
+        ),
+        {"slope_all": float(full.coef[1]), "slope_read": float(kept.coef[1])},
+    )
+
+
+def yes_no_target() -> Demonstration:
+    """A 0/1 target (an alarm day) fitted by least squares: predictions outside 0 to 1."""
+    rng = generator(48)
+    rows = 300
+    outdoor = rng.uniform(-5, 38, rows)
+    alarm = (rng.random(rows) < 1 / (1 + np.exp(-(outdoor - 30) / 2))).astype(float)
+    line = fit_line(alarm, outdoor)
+    predicted = line.coef[0] + line.coef[1] * np.array([-5.0, 38.0])
+    return Demonstration(
+        (
+            f"{rows} invented site-days; the target is 1 on a day with a temperature alarm, else 0 ({int(alarm.sum())} alarms).",
+            "",
+            f"  least-squares 'probability' of an alarm at -5 C: {predicted[0]:.2f}; at 38 C: {predicted[1]:.2f}",
+            "",
+            "A straight line through 0/1 values predicts impossible probabilities and has errors whose spread depends",
+            "on the fitted value. Model a yes/no target with logistic regression; a text target needs a coding first.",
+        ),
+        {"predicted_cold": float(predicted[0]), "predicted_hot": float(predicted[1])},
     )
