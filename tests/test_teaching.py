@@ -23,7 +23,7 @@ from prefit.teaching.assumptions import (
 from prefit.teaching.base import fit_line
 from prefit.teaching.collinearity import area_and_racks, lost_digits, parts_and_total
 from prefit.teaching.design import codes_as_numbers, date_as_a_number
-from prefit.teaching.drift import fahrenheit_export
+from prefit.teaching.drift import changed_defrost_schedule, dropped_column, fahrenheit_export, hotter_month, new_compressor_type
 from prefit.teaching.hygiene import (
     duplicated_days,
     kwh_as_text,
@@ -57,7 +57,7 @@ ALL_DEMONSTRATIONS: list[Callable[[], Demonstration]] = [
     date_as_a_number, kwh_as_text, levels_eat_rows, one_infinite_reading, one_setpoint, site_number_as_predictor,
     two_row_level, watt_hours_beside_degrees, own_prediction_pull, one_column_with_holes, sites_that_stop_reporting,
     unusual_combination, heat_wave_beyond_the_data, mostly_one_value, too_few_to_see, flat_meter, unread_days,
-    yes_no_target, fahrenheit_export,
+    yes_no_target, fahrenheit_export, new_compressor_type, hotter_month, changed_defrost_schedule, dropped_column,
 ]
 
 
@@ -116,6 +116,14 @@ def test_collinearity_demonstration_flips_signs_until_fixed() -> None:
 def test_drift_demonstration_fahrenheit_export_multiplies_the_prediction_error() -> None:
     numbers = fahrenheit_export().numbers
     assert numbers["rms_celsius"] < 1.2 * numbers["residual_sd"] < numbers["rms_fahrenheit"] / 3
+
+
+def test_drift_demonstrations_show_the_damage_they_claim() -> None:
+    levels, hotter, schedule, dropped = new_compressor_type().numbers, hotter_month().numbers, changed_defrost_schedule().numbers, dropped_column().numbers
+    assert levels["rms_new_type"] > 3 * levels["rms_known"]
+    assert hotter["rms_july"] > 2 * hotter["residual_sd"]
+    assert schedule["rms_july"] > 1.5 * schedule["residual_sd"] and schedule["shift_in_se"] > 10
+    assert dropped["slope_without"] > dropped["slope_with"] * 1.1
 
 
 def test_influence_demonstration_one_row_moves_the_slope() -> None:
