@@ -63,6 +63,7 @@ class Report:
     findings: tuple[Finding, ...]
     outcomes: tuple[RuleOutcome, ...]
     gate: Grade
+    purpose: str = "explain"
     accepted: tuple[Finding, ...] = ()
     engine: EngineRun | None = None
     baseline: Mapping[str, Any] | None = None
@@ -114,6 +115,7 @@ class Report:
             "complete_cases": self.complete_cases,
             "design": dict(self.design),
             "gate": self.gate.word,
+            "purpose": self.purpose,
             "complete": not self.failed_rules,
             "rules_run": [o.rule for o in self.outcomes],
             "rules_not_applicable": {o.rule: o.not_applicable for o in self.outcomes if o.not_applicable is not None},
@@ -287,6 +289,7 @@ def report_for(
         findings=tuple(sorted(findings, key=Finding.sort_key)),
         outcomes=tuple(outcomes),
         gate=context.options.gate,
+        purpose=context.options.purpose,
         engine=engine,
         baseline=context.baseline.describe() if context.baseline is not None else None,
         rules=tuple(registry),
@@ -386,8 +389,8 @@ def check(
     Keyword options are the configuration keys (``id``, ``exclude``,
     ``predictors``, ``categorical``, ``intercept``, ``fail_at``,
     ``skip_rules``, ``rule``, ``missing_codes``, ``sep``, ``encoding``,
-    ``ranges``, ``anticipated_r2``, ``score``, ``baseline``: a profile written
-    by ``save_baseline`` or the accepted table itself, to vet this table against).
+    ``ranges``, ``anticipated_r2``, ``score``, ``order``, ``purpose``, ``baseline``: a
+    profile written by ``save_baseline`` or the accepted table itself, to vet this table against).
     ``accept_file`` names an accepted-findings file: findings it lists are
     counted, not gated; with ``accept_current`` today's findings are written to it.
     ``save_baseline`` writes this table's baseline profile to that path.

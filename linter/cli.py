@@ -46,6 +46,7 @@ def _build_parser() -> argparse.ArgumentParser:
     check.add_argument("--missing-codes", action="append", metavar="COL=CODE[,CODE]", help="values of COL that mean missing (COL * for every column); repeatable")
     check.add_argument("--range", action="append", dest="ranges", metavar="COL=LOW:HIGH", help="the range of COL the model is meant to cover; repeatable")
     check.add_argument("--anticipated-r2", metavar="R2", help="the R-squared expected of the model, for sample-size planning (default: the preliminary fit's adjusted R-squared)")
+    check.add_argument("--purpose", choices=("explain", "predict"), help="what the model is for: explain (default; read its coefficients) or predict (score new rows; the prediction-model sample-size criteria gate)")
     check.add_argument("--score", metavar="NEWTABLE", help="a table of new rows the model will be asked to predict, checked for extrapolation")
     check.add_argument("--baseline", metavar="BASELINE", help="vet the table against the last accepted extract: a profile written by --save-baseline, or that table itself")
     check.add_argument("--save-baseline", metavar="FILE", help="write this table's baseline profile (summaries and fit, no rows) to FILE as JSON")
@@ -151,6 +152,7 @@ def _options_from_args(args: argparse.Namespace) -> Any:
         ("anticipated-r2", args.anticipated_r2),
         ("score", args.score),
         ("baseline", args.baseline),
+        ("purpose", args.purpose),
     ):
         if value is not None:
             flags[key] = value

@@ -39,7 +39,11 @@ class CheckOptions:
     anticipated_r2: float | None = None
     score: str | None = None
     order: str | None = None
+    purpose: str = "explain"
     baseline: str | None = None
+
+
+PURPOSES = ("explain", "predict")
 
 
 def _as_text(value: Any, where: str) -> str:
@@ -97,6 +101,13 @@ def _as_share(value: Any, where: str) -> float:
     if not 0.0 < number < 1.0:
         raise UsageProblem(where, f"must lie strictly between 0 and 1, got {number:g}", "write e.g. 0.6")
     return number
+
+
+def _as_purpose(value: Any, where: str) -> str:
+    text = _as_text(value, where).strip().lower()
+    if text not in PURPOSES:
+        raise UsageProblem(where, f"must be one of {', '.join(PURPOSES)}, got {value!r}", "write explain (coefficients read as effects) or predict (new rows scored)")
+    return text
 
 
 def _as_ranges(value: Any, where: str) -> dict[str, tuple[float, float]]:
@@ -180,6 +191,7 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("score", "score", _as_text, "a table of new rows the model will be asked to predict"),
     Setting("order", "order", _as_text, "a column giving the rows' time order, for the autocorrelation preview"),
     Setting("baseline", "baseline", _as_text, "the last accepted extract (a profile from --save-baseline, or the table) to vet this one against"),
+    Setting("purpose", "purpose", _as_purpose, "what the model is for: explain (read its coefficients) or predict (score new rows)"),
 )
 SETTINGS_BY_KEY: Mapping[str, Setting] = {s.key: s for s in SETTINGS}
 

@@ -449,7 +449,8 @@ def _scale_disparity(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
         values = ctx.design_column(column)
         nonzero = np.abs(values[values != 0])
         if nonzero.size:
-            magnitudes[column] = float(np.median(nonzero * 0.5) * 2.0)  # halved: the middle pair's mean cannot overflow
+            halved = float(np.median(nonzero * 0.5) * 2.0)  # halved: the middle pair's mean cannot overflow
+            magnitudes[column] = halved if halved > 0 else float(np.median(nonzero))  # nor a subnormal halve to 0
     if len(magnitudes) < 2:
         return
     largest = max(magnitudes, key=lambda c: (magnitudes[c], c))
@@ -530,18 +531,17 @@ def _target_leak(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     y_unit = y / y_norm
     y_root = np.sqrt(_sum_of_products(y, y))
     x = np.empty_like(y)
+    ranks = _TargetRanks(design.y, rank_limit(limit.value))
     for column in ctx.numeric_predictors:
         values = ctx.design_column(column)
         with np.errstate(over="ignore", invalid="ignore"):
             np.subtract(values, values.mean(), out=x)
-            if _plainly_below(limit, x, y, y_root):
-                continue
-            x_norm = float(np.linalg.norm(x))
-        if x_norm == 0 or not np.isfinite(x_norm):
-            continue
-        r = float(np.dot(x / x_norm, y_unit))
+            plainly_below = _plainly_below(limit, x, y, y_root)
+            x_norm = float(np.linalg.norm(x)) if not plainly_below else 0.0
+        r = float(np.dot(x / x_norm, y_unit)) if x_norm > 0 and np.isfinite(x_norm) else float("nan")
         r2 = r * r
         if not limit.crossed(r2):
+            yield from _monotone_leak(ctx, settings, column, values, r2, ranks)
             continue
         slope = float(np.dot(x, y) / (x_norm * x_norm))
         intercept = float(design.y.mean() - slope * values.mean())
@@ -560,6 +560,85 @@ def _target_leak(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
             f"computed from {ctx.roles.target} (a sub-meter sum, a unit conversion, a later reading)",
             details={"r_squared": r2, "slope": slope, "intercept": intercept, "exact": exact},
         )
+
+
+def rank_limit(r2_limit: float) -> float:
+    """The rank correlation a bivariate normal pair has when its squared correlation is ``r2_limit``.
+
+    Spearman's rho of a bivariate normal pair with correlation r is
+    (6 / pi) arcsin(r / 2); R^2 = 0.99 gives rho = 0.9945. A predictor whose
+    ranks agree with the target's beyond that is as close to a copy of it as
+    the linear limit allows, whatever monotone function links the two.
+
+    References
+    ----------
+    Pearson, K. (1907). On further methods of determining correlation. Drapers' Company Research Memoirs,
+    Biometric Series IV; Kruskal, W. H. (1958). Ordinal measures of association. JASA 53(284), 814-861.
+    """
+    return float(6.0 / np.pi * np.arcsin(np.sqrt(r2_limit) / 2.0))
+
+
+SPOT_RANK_SCREEN = 0.9
+
+
+class _TargetRanks:
+    """The target's average ranks, computed once for every predictor's rank correlation (on first need)."""
+
+    def __init__(self, y: np.ndarray, limit: float) -> None:
+        self.y = y
+        self.limit = limit
+        self._full: np.ndarray | None = None
+        self._spot: np.ndarray | None = None
+
+    def correlation(self, values: np.ndarray) -> float | None:
+        """Spearman's rho of ``values`` with the target, or None when a look at evenly spaced rows rules it out.
+
+        The look ranks about 4,096 evenly spaced rows; only a predictor whose
+        rank correlation there exceeds :data:`SPOT_RANK_SCREEN` is ranked over every row.
+        """
+        from scipy.stats import rankdata
+
+        if values.size > 2 * evenly_spaced(values).size:
+            if self._spot is None:
+                self._spot = rankdata(evenly_spaced(self.y))
+            if abs(_pearson(rankdata(evenly_spaced(values)), self._spot)) <= SPOT_RANK_SCREEN:
+                return None
+        if self._full is None:
+            self._full = rankdata(self.y)
+        return _pearson(rankdata(values), self._full)
+
+
+def _pearson(a: np.ndarray, b: np.ndarray) -> float:
+    a = a - a.mean()
+    b = b - b.mean()
+    scale = float(np.sqrt(_sum_of_products(a, a) * _sum_of_products(b, b)))
+    return _sum_of_products(a, b) / scale if scale > 0 else 0.0
+
+
+def _monotone_leak(
+    ctx: RunContext, settings: RuleSettings, column: str, values: np.ndarray, r2: float, ranks: _TargetRanks
+) -> Iterator[Finding]:
+    """A predictor whose ranks copy the target's (a log, a rank or an index of it) though its R^2 stays below the limit."""
+    rho = ranks.correlation(values)
+    if rho is None or not abs(rho) > ranks.limit:
+        return
+    target = ctx.roles.target
+    if not np.isfinite(r2):
+        r2 = _pearson(values, ctx.design.y) ** 2
+    linear = f"R² = {r2:.4f}" if np.isfinite(r2) else "R² not defined"
+    yield settings.finding(
+        Grade.MISLEADS,
+        f"{column} orders the rows almost exactly as {target} does (Spearman rank correlation {rho:.4f}, {linear}): "
+        f"a monotone function of the response, such as its log, its rank or an index of it",
+        columns=[column, target],
+        value=abs(rho),
+        threshold=ranks.limit,
+        source=f"{settings.threshold('misleads').source}: the rank correlation of a bivariate normal pair at that R² "
+        "(Pearson 1907; Kruskal 1958, JASA 53)",
+        remedy=f"drop {column} unless it is truly known before {target} is measured; check whether it is computed "
+        f"from {target} (a log, a rank, a band or an index of it)",
+        details={"spearman_rho": rho, "r_squared": r2 if np.isfinite(r2) else None, "monotone": True},
+    )
 
 
 def _sum_of_products(a: np.ndarray, b: np.ndarray) -> float:
@@ -678,9 +757,11 @@ RULES = [
     ),
     Rule(
         id="hygiene.target-leak",
-        summary="A single predictor that alone explains the target with R² above 0.99, or equals a fixed multiple of it.",
+        summary="A single predictor that alone explains the target with R² above 0.99, equals a fixed multiple of it, "
+        "or orders the rows as the target does (rank correlation above 0.9945: a log, a rank or an index of it).",
         why="A predictor that is the response under another name (a unit conversion, a total that contains it, a "
-        "later reading) explains it perfectly and leaves every other coefficient near zero and meaningless.",
+        "later reading, its log or its rank) explains it perfectly and leaves every other coefficient near zero and "
+        "meaningless.",
         remedy="drop the leaking predictor",
         check=_target_leak,
         thresholds=(Threshold("misleads", 0.99, COMMON_PRACTICE, Grade.MISLEADS, ">"),),

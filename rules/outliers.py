@@ -9,7 +9,7 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.findings import MAX_LISTED_ROWS, Finding, Grade
 from prefit.roles import Kind
-from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt, meaningful_ratio
 from prefit.stats.chance import chance_check, chance_check_counts, probability_text, t_tail
 from prefit.stats.robust import (
     MODIFIED_Z_FACTOR,
@@ -143,6 +143,12 @@ def _slip(value: float, median: float, mad: float, limit: float, ordered: np.nda
     return None
 
 
+def _against_median(value: float, median: float, mad: float) -> str:
+    """``12.5x the median``, or ``the median being about 0`` when it lies within one MAD of zero."""
+    ratio = meaningful_ratio(value, median, mad)
+    return f"{fmt(ratio)}x the median" if ratio is not None else "the median being about 0"
+
+
 def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     import scipy.stats
 
@@ -173,7 +179,7 @@ def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         extreme = rows[strongest]
         text = (
             f"{column}: {total:,} value{'' if total == 1 else 's'}{_label_groups(ctx, rows)} with |modified z| above {limit.value:g} (median {fmt(median)}, MAD {fmt(mad)}; "
-            f"most extreme {fmt(float(values[extreme]))}, {fmt(float(values[extreme] / median)) if median else 'n/a'}x the median, "
+            f"most extreme {fmt(float(values[extreme]))}, {_against_median(float(values[extreme]), median, mad)}, "
             f"z = {fmt(float(row_scores[strongest]))}; {check.describe()})"
         )
         if slips:

@@ -512,3 +512,23 @@ def test_a_label_shared_by_several_rows_is_shown_once_with_its_count() -> None:
     assert row_groups(shared, 1) == (["CS-002 (3 rows)"], 6)
     unique = Finding(rule="demo.rows", grade=Grade.NOTE, message="m", rows=(4, 9, 1), row_count=3)
     assert row_groups(unique, 2) == (["4", "9"], 1)
+
+
+@pytest.mark.parametrize("purpose", ["explain", "predict"])
+def test_every_format_states_the_purpose(purpose: str) -> None:
+    report = prefit.check(invented_frame(), target="energy_kwh", id="site_id", purpose=purpose)
+    # JSON: validated against the shipped schema with jsonschema
+    document = json.loads(report.to_json())
+    jsonschema.validate(document, json.loads((ROOT / "linter" / "report" / "report.schema.json").read_text(encoding="utf-8")))
+    assert document["purpose"] == purpose
+    # SARIF: the run's table properties, the whole log valid against the OASIS schema
+    sarif = json.loads(report.to_sarif())
+    assert sarif_errors(sarif) == []
+    assert sarif["runs"][0]["properties"]["tables"][0]["purpose"] == purpose
+    # JUnit: a suite property, read back with the standard library's XML parser
+    suite = ET.fromstring(report.to_junit()).find("testsuite")
+    assert suite is not None
+    assert {p.get("name"): p.get("value") for p in suite.iter("property")}["purpose"] == purpose
+    assert f"purpose {purpose}" in report.render("text")
+    assert f"purpose {purpose}" in report.to_markdown()
+    assert f"<dt>purpose</dt><dd>{purpose}</dd>" in report.to_html(plots=False)

@@ -94,6 +94,7 @@ def _facts(report: "Report") -> str:
         ("parameters", f"{report.parameters:,}"),
         ("complete cases", f"{report.complete_cases:,}"),
         ("gate", report.gate.word),
+        ("purpose", report.purpose),
         ("accepted findings", f"{len(report.accepted):,} (counted, not listed)"),
     ]
     if report.info.sha256:

@@ -58,6 +58,7 @@ class JunitWriter(ReportWriter):
             ("complete_cases", str(report.complete_cases)),
             ("parameters", str(report.parameters)),
             ("gate", report.gate.word),
+            ("purpose", report.purpose),
             ("accepted", str(len(report.accepted))),
             *((("baseline", str(report.baseline["path"])), ("baseline_sha256", str(report.baseline["sha256"]))) if report.baseline is not None else ()),
         ):

@@ -63,7 +63,7 @@ class MarkdownWriter(ReportWriter):
         lines = [f"### prefit: {md_text(report.info.path)}: {_verdict(report)}", ""]
         lines.append(
             f"{report.info.rows:,} rows, {report.info.columns:,} columns; target {md_text(report.target)}; "
-            f"{report.parameters:,} parameters; {report.complete_cases:,} complete cases."
+            f"{report.parameters:,} parameters; {report.complete_cases:,} complete cases; purpose {report.purpose}."
         )
         sampled = report.engine.sentence() if report.engine is not None else None
         if sampled is not None:

@@ -52,6 +52,7 @@ def _facts(report: "Report") -> Text:
         ("target", report.target),
         ("parameters", f"{report.parameters:,}"),
         ("complete cases", f"{report.complete_cases:,}"),
+        ("purpose", report.purpose),
     ]
     for i, (label, value) in enumerate(pairs):
         if i:

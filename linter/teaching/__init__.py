@@ -79,6 +79,7 @@ DEMONSTRATIONS: Mapping[str, tuple[str, str]] = {
     "target.missing-values": ("target", "unread_days"),
     "target.not-numeric": ("target", "yes_no_target"),
     "target.skewed": ("target", "skewed_energy"),
+    "target.censored": ("target", "saturated_meter"),
 }
 """Demonstrations by rule id or by family (the part of a rule id before the dot): module and function."""
 

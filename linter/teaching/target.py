@@ -1,4 +1,4 @@
-"""Target: a right-skewed, multiplicative energy response fitted on its own scale and on a log scale."""
+"""Target: a right-skewed energy response on its own and on a log scale; a meter that saturates, fitted three ways."""
 
 from __future__ import annotations
 
@@ -35,6 +35,69 @@ def skewed_energy() -> Demonstration:
             "usual standard errors are wrong; on the log scale the spread is even and slopes read as percentages.",
         ),
         {"spread_ratio_raw": ratios[0], "spread_ratio_log": ratios[1], "skewness": skewness},
+    )
+
+
+def tobit_coefficients(y: np.ndarray, limit: float, *columns: np.ndarray) -> np.ndarray:
+    """Tobin's censored-regression model by maximum likelihood, ``y`` censored from above at ``limit``.
+
+    Returns the intercept, one slope per column and the error SD. A response
+    censored from below at L is the negated response censored from above at
+    -L, with negated coefficients.
+
+    References
+    ----------
+    Tobin, J. (1958). Estimation of relationships for limited dependent variables. Econometrica 26(1), 24-36.
+    """
+    from scipy import optimize, stats
+
+    X = np.column_stack([np.ones(y.size), *columns])
+    censored = y >= limit
+    start = fit_line(y, *columns)
+
+    def negative_log_likelihood(theta: np.ndarray) -> float:
+        coef, log_sigma = theta[:-1], theta[-1]
+        z = (y - X @ coef) / np.exp(log_sigma)
+        inside = stats.norm.logpdf(z[~censored]) - log_sigma
+        beyond = stats.norm.logsf(z[censored])
+        return -float(inside.sum() + beyond.sum())
+
+    theta = np.append(start.coef, np.log(start.sigma))
+    result = optimize.minimize(negative_log_likelihood, theta, method="BFGS", options={"gtol": 1e-8, "maxiter": 10_000})
+    return np.append(result.x[:-1], np.exp(result.x[-1]))
+
+
+def saturated_meter() -> Demonstration:
+    """Slope of energy on outdoor temperature when the meter stops at its largest reading: full, censored, Tobit."""
+    rng = generator(9)
+    outdoor = rng.uniform(-5, 35, 400).round(1)
+    energy = 9_000 + 150 * outdoor + rng.normal(0, 900, outdoor.size)
+    limit = float(np.quantile(energy, 0.8).round(-2))
+    logged = np.minimum(energy, limit)
+    kept = logged < limit
+    slopes = (
+        fit_line(energy, outdoor).coef[1],
+        fit_line(logged, outdoor).coef[1],
+        fit_line(logged[kept], outdoor[kept]).coef[1],
+        float(tobit_coefficients(logged, limit, outdoor)[1]),
+    )
+    share = float(np.mean(~kept))
+    return Demonstration(
+        (
+            f"400 invented site-days; every degree warmer costs 150 kWh, but the meter logs at most {limit:,.0f} kWh a day,",
+            f"so {share:.0%} of the days read exactly {limit:,.0f}.",
+            "",
+            "                                          slope, kWh per degree",
+            f"  true readings (unknown in practice)      {slopes[0]:>6.0f}",
+            f"  logged readings, least squares           {slopes[1]:>6.0f}",
+            f"  limit days dropped, least squares        {slopes[2]:>6.0f}",
+            f"  logged readings, censored regression     {slopes[3]:>6.0f}",
+            "",
+            f"Least squares takes {limit:,.0f} for the truth on the hottest days and flattens the slope by",
+            f"{1 - slopes[1] / slopes[0]:.0%}; dropping those days flattens it too. Tobin's censored-regression model reads",
+            "them as 'at least the limit' and recovers the slope.",
+        ),
+        {"slope_true": slopes[0], "slope_censored": slopes[1], "slope_dropped": slopes[2], "slope_tobit": slopes[3], "censored_share": share},
     )
 
 
