@@ -278,6 +278,7 @@ def report_for(
     description["id"] = roles.id
     if roles.id is not None:
         description["id_values"] = distinct_labels(context.table.column(roles.id))
+    description["groups"] = group_description(context)
     if replaced:
         description["missing_codes_applied"] = dict(replaced)
     return Report(
@@ -304,6 +305,28 @@ def write_baseline(report: Report, path: str | Path) -> BaselineProfile:
     profile = profile_of(report.context)
     save_profile(profile, path)
     return profile
+
+
+def group_description(context: RunContext) -> dict[str, Any] | None:
+    """The grouping of the complete cases, said out loud: column, where it came from, groups and their sizes (None: off)."""
+    roles = context.roles
+    if roles.group is None:
+        return None
+    try:
+        factors = context.group_factors
+    except Exception:  # noqa: BLE001  (the design failed; every rule that reads it reports why)
+        factors = None
+    sizes = factors.counts if factors is not None else np.zeros(0, dtype=np.int64)
+    return {
+        "column": roles.group,
+        "from": roles.group_origin,
+        "groups": int(sizes.size),
+        "sizes": {
+            "min": int(sizes.min()) if sizes.size else 0,
+            "median": float(np.median(sizes)) if sizes.size else 0.0,
+            "max": int(sizes.max()) if sizes.size else 0,
+        },
+    }
 
 
 def heavy_first(selected: Sequence[tuple[RuleLike, RuleSettings]]) -> list[tuple[RuleLike, RuleSettings]]:
@@ -391,6 +414,9 @@ def check(
     ``skip_rules``, ``rule``, ``missing_codes``, ``sep``, ``encoding``,
     ``ranges``, ``anticipated_r2``, ``score``, ``order``, ``purpose``, ``baseline``: a
     profile written by ``save_baseline`` or the accepted table itself, to vet this table against).
+
+
+    ``ranges``, ``anticipated_r2``, ``score``, ``order``, ``purpose``, ``group``).
     ``accept_file`` names an accepted-findings file: findings it lists are
     counted, not gated; with ``accept_current`` today's findings are written to it.
     ``save_baseline`` writes this table's baseline profile to that path.

@@ -53,6 +53,7 @@ def _build_parser() -> argparse.ArgumentParser:
     check.add_argument("--sep", help="delimiter of a text table (sniffed when absent)")
     check.add_argument("--encoding", help="encoding of a text table (default utf-8)")
     check.add_argument("--order", metavar="COL", help="the column giving the rows' time order, for the autocorrelation preview (default: the first date column)")
+    check.add_argument("--group", metavar="COL", help="rows with equal COL values form a group (site, customer, machine); default: a repeating --id column; none turns grouping off")
     check.add_argument("--format", action="append", help="text (default), json, sarif, junit, markdown or html: the report on stdout, or in a single --output whose extension names no format")
     check.add_argument("--output", action="append", metavar="FILE", help="write the report to FILE instead of stdout; repeatable, each in the format its extension names (.txt .json .sarif .xml .md .html)")
     check.add_argument("--accept-file", metavar="FILE", help="findings listed in FILE are counted, not gated; only new findings fail")
@@ -149,6 +150,7 @@ def _options_from_args(args: argparse.Namespace) -> Any:
         ("sep", args.sep),
         ("encoding", args.encoding),
         ("order", args.order),
+        ("group", args.group),
         ("anticipated-r2", args.anticipated_r2),
         ("score", args.score),
         ("baseline", args.baseline),

@@ -39,6 +39,7 @@ class CheckOptions:
     anticipated_r2: float | None = None
     score: str | None = None
     order: str | None = None
+    group: str | None = None
     purpose: str = "explain"
     baseline: str | None = None
 
@@ -192,6 +193,7 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("order", "order", _as_text, "a column giving the rows' time order, for the autocorrelation preview"),
     Setting("baseline", "baseline", _as_text, "the last accepted extract (a profile from --save-baseline, or the table) to vet this one against"),
     Setting("purpose", "purpose", _as_purpose, "what the model is for: explain (read its coefficients) or predict (score new rows)"),
+    Setting("group", "group", _as_text, "a column whose equal values mark rows of one group (site, customer, machine); \"none\" turns grouping off"),
 )
 SETTINGS_BY_KEY: Mapping[str, Setting] = {s.key: s for s in SETTINGS}
 

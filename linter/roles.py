@@ -45,6 +45,8 @@ class Roles:
     kinds: Mapping[str, Kind]
     left_out: Mapping[str, str] = field(default_factory=dict)
     declared_categorical: tuple[str, ...] = ()
+    group: str | None = None
+    group_origin: str | None = None
 
 
 def _is_text_type(t: pa.DataType) -> bool:
@@ -158,9 +160,10 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
     _require_columns(names, options.categorical, "--categorical")
     if options.order is not None:
         _require_columns(names, (options.order,), "--order")
+    group, group_origin = _group_column(table, options)
     if options.predictors is not None:
         _require_columns(names, options.predictors, "--predictors")
-        for special, flag in ((options.target, "--target"), (options.id, "--id")):
+        for special, flag in ((options.target, "--target"), (options.id, "--id"), (group, "--group")):
             if special in options.predictors:
                 raise UsageProblem("--predictors", f"lists {special!r}, which is the {flag} column", "remove it from --predictors")
     declared = set(options.categorical)
@@ -174,7 +177,7 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
     else:
         chosen: list[str] = []
         for name in names:
-            if name in (options.target, options.id) or name in options.exclude:
+            if name in (options.target, options.id, group) or name in options.exclude:
                 continue
             kind = kinds[name]
             numbers_reason = numbers_as_text_reason(table.column(name)) if kind in (Kind.TEXT, Kind.CATEGORICAL) and name not in declared else None
@@ -200,7 +203,31 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
         kinds=kinds,
         left_out=left_out,
         declared_categorical=tuple(options.categorical),
+        group=group,
+        group_origin=group_origin,
     )
+
+
+NO_GROUP = "none"
+
+
+def _group_column(table: pa.Table, options: CheckOptions) -> tuple[str | None, str | None]:
+    """The column whose equal values mark a group of rows, and where that choice came from.
+
+    ``--group COL`` names it (``--group none`` turns grouping off); without
+    it a ``--id`` column whose values repeat is the group (one row per site
+    and day: the site).
+    """
+    if options.group is not None:
+        if options.group.strip().lower() == NO_GROUP:
+            return None, None
+        _require_columns(list(table.column_names), (options.group,), "--group")
+        if options.group == options.target:
+            raise UsageProblem("--group", f"names the --target column {options.target!r}", "name the column that marks each row's site, customer or machine")
+        return options.group, "--group"
+    if options.id is not None and distinct_labels(table.column(options.id)) < table.num_rows:
+        return options.id, "the repeating --id"
+    return None, None
 
 
 def target_candidates(table: pa.Table) -> list[str]:
@@ -255,8 +282,10 @@ def numeric_values(column: pa.ChunkedArray) -> np.ndarray:
         return np.asarray(seconds.to_numpy(zero_copy_only=False), dtype=np.float64) / 86400.0
     if pa.types.is_boolean(t):
         column = pc.cast(column, pa.int8())
-    # Integers beyond 2**53 round to the nearest double, as every statistics package does.
-    values = pc.cast(column, pa.float64(), safe=False).to_numpy(zero_copy_only=False)
+    # Integers beyond 2**53 round to the nearest double, as every statistics package does. A float64 column is
+    # converted directly: the cast's result converts about a hundred times slower for short columns.
+    floats = column if pa.types.is_float64(t) else pc.cast(column, pa.float64(), safe=False)
+    values = floats.to_numpy(zero_copy_only=False)
     return np.asarray(values, dtype=np.float64)
 
 
@@ -281,6 +310,14 @@ def label_values(column: pa.ChunkedArray) -> list[str | None]:
     if pa.types.is_floating(column.type):
         return [None if v is None else _float_label(v) for v in column.to_pylist()]
     return [None if v is None else (v if isinstance(v, str) else str(v)) for v in column.to_pylist()]
+
+
+MISSING_GROUP = "(missing)"
+
+
+def group_labels(column: pa.ChunkedArray) -> list[str]:
+    """A group column as text labels, a missing value being a group of its own (:data:`MISSING_GROUP`)."""
+    return [MISSING_GROUP if v is None else v for v in label_values(column)]
 
 
 def _float_label(value: float) -> str:

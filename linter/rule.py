@@ -253,6 +253,21 @@ def fmt(value: float, digits: int = 3) -> str:
     return f"{value:.{digits - 1}e}"
 
 
+LISTED_NAMES = 10
+
+
+def capped_names(names: Sequence[str], limit: int = LISTED_NAMES) -> str:
+    """Names for a message or a text report: all of them up to ``limit``, else the first few and a count of the rest.
+
+    ``x1, x2, x3`` for three names; ``x0001, x0002, ..., x0008 and 992 more``
+    beyond the limit, so a wide table's report stays readable (the JSON
+    report's ``columns`` keep the complete list).
+    """
+    if len(names) <= limit:
+        return ", ".join(names)
+    shown = max(limit - 2, 1)
+    return ", ".join(names[:shown]) + f", ... and {len(names) - shown:,} more"
+
 
 def meaningful_ratio(value: float, reference: float, scale: float) -> float | None:
     """``value / reference``, or None when the ratio would mislead a reader.

@@ -108,11 +108,11 @@ def _se_ratios(ctx: RunContext, residual: np.ndarray, df_resid: int) -> tuple[np
     fit, design = ctx.fit, ctx.design
     usual = np.sqrt(np.diag(fit.cov_unscaled) * float(residual @ residual) / df_resid)
     ratio = hc3_standard_errors(fit, design.X, residual, ctx.row_scores.hat) / usual
-    candidates = [j for j, name in enumerate(design.column_names) if name != INTERCEPT and np.isfinite(ratio[j]) and ratio[j] > 0]
-    if not candidates:
-        return ratio, candidates, -1, float("nan")
-    worst = max(candidates, key=lambda j: (max(ratio[j], 1 / ratio[j]), -j))
-    return ratio, candidates, worst, float(max(ratio[worst], 1 / ratio[worst]))
+    compared = worst_se_ratio(design.column_names, ratio)
+    if compared is None:
+        return ratio, [], -1, float("nan")
+    candidates, worst, change = compared
+    return ratio, candidates, worst, change
 
 
 def _heteroscedasticity(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
@@ -197,6 +197,16 @@ def _heteroscedasticity(ctx: RunContext, settings: RuleSettings) -> Iterator[Fin
             "after_bends_in": bent,
         },
     )
+
+
+def worst_se_ratio(names: Sequence[str], ratio: np.ndarray) -> tuple[list[int], int, float] | None:
+    """The slopes with a finite positive ratio of a robust to the usual standard error, the one furthest from 1, and
+    how far (the ratio or its inverse, whichever is larger); None when no slope has one."""
+    candidates = [j for j, name in enumerate(names) if name != INTERCEPT and np.isfinite(ratio[j]) and ratio[j] > 0]
+    if not candidates:
+        return None
+    worst = max(candidates, key=lambda j: (max(ratio[j], 1 / ratio[j]), -j))
+    return candidates, worst, float(max(ratio[worst], 1 / ratio[worst]))
 
 
 def _row_sample_reason(sampled: SampledTest, p: int) -> str | None:
@@ -333,11 +343,18 @@ def order_column(ctx: RunContext) -> str | None:
 def _series_order(ctx: RunContext, when: np.ndarray) -> tuple[np.ndarray, np.ndarray | None]:
     """Complete cases with an order value, in time order, and the series code of each.
 
-    When the row labels repeat and several rows share a time (one row per
-    site and day), each label is its own series: rows are ordered by label,
-    then time, so that neighbours are the same site on consecutive days.
+    With grouped rows (``--group``, or a repeating ``--id``) each group is its
+    own series: rows are ordered by group, then time, so that neighbours are
+    the same site on consecutive days and no lag crosses a group boundary.
+    Without grouping, when the row labels repeat and several rows share a
+    time, each label is its own series likewise.
     """
     placed = np.flatnonzero(np.isfinite(when))
+    grouped = ctx.group_rows
+    if grouped is not None:
+        codes = grouped.codes[placed]
+        order = np.lexsort((when[placed], codes))
+        return placed[order], codes[order]
     if ctx.roles.id is not None and np.unique(when[placed]).size < placed.size:
         labels = np.array([str(ctx.row_label(int(p))) for p in ctx.design.positions[placed]])
         codes = np.unique(labels, return_inverse=True)[1]
@@ -359,6 +376,9 @@ def _autocorrelation(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
     if order.size < 10:
         return
     X, e = design.X[order], residual[order]
+    if ctx.group_rows is not None and groups is not None:
+        # A shared group effect is not serial correlation: the order within each group is read from deviations from its mean.
+        e = e - (np.bincount(groups, weights=e) / np.bincount(groups))[groups]
     factor = ctx.factor if order.size == design.n else DesignFactor.of(X, e)
     lags = default_lags(order.size, int(settings.limit("lags")))
     test = breusch_godfrey(factor, X, e, lags, design.intercept, groups)
@@ -372,7 +392,8 @@ def _autocorrelation(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
         return
     grade, limit = graded
     watson = durbin_watson(e, groups)
-    series = f" within each {ctx.roles.id}" if groups is not None else ""
+    series_by = ctx.roles.group or ctx.roles.id
+    series = f" within each {series_by}" if groups is not None else ""
     after = f" (after allowing for the bend in {', '.join(bent)})" if bent else ""
     yield settings.finding(
         grade,
@@ -387,7 +408,7 @@ def _autocorrelation(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
         f"seasonal terms in {column}; or model the errors (generalised least squares with autoregressive errors)",
         details={
             "order_column": column,
-            "series_by": ctx.roles.id if groups is not None else None,
+            "series_by": series_by if groups is not None else None,
             "series": int(np.unique(groups).size) if groups is not None else 1,
             "durbin_watson": watson,
             "autocorrelations": [float(c) for c in correlations],

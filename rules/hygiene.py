@@ -202,7 +202,8 @@ def _replicate_candidates(ctx: RunContext) -> np.ndarray:
     """Design rows that may share every design value with another row: measured columns first, the intercept skipped."""
     design = ctx.design
     measured = [t.columns[0] for t in design.terms if t.kind in (Kind.NUMERIC, Kind.DATETIME) and t.reference is None and t.columns]
-    coded = [c for t in design.terms if t.kind is not None for c in t.columns if c not in measured]
+    taken = set(measured)
+    coded = [c for t in design.terms if t.kind is not None for c in t.columns if c not in taken]
 
     def bits_of(name: str) -> ColumnBits:
         return lambda rows: value_bits(ctx.design_column(name) if rows is None else ctx.design_column(name)[rows])

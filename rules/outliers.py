@@ -8,7 +8,6 @@ import numpy as np
 
 from prefit.context import RunContext
 from prefit.findings import MAX_LISTED_ROWS, Finding, Grade
-from prefit.roles import Kind
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt, meaningful_ratio
 from prefit.stats.chance import chance_check, chance_check_counts, probability_text, t_tail
 from prefit.stats.robust import (
@@ -153,8 +152,7 @@ def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     import scipy.stats
 
     limit = settings.threshold("weakens")
-    target = ctx.roles.target
-    columns = ([target] if ctx.roles.kinds[target] is Kind.NUMERIC else []) + list(ctx.numeric_predictors)
+    columns = ctx.value_screened_columns
     normal_cross = float(2.0 * scipy.stats.norm.sf(limit.value))
     for column in columns:
         values = ctx.values(column)

@@ -11,7 +11,7 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.design import Design
 from prefit.findings import Finding, Grade
-from prefit.rule import Rule, RuleSettings, Threshold, fmt
+from prefit.rule import Rule, RuleSettings, Threshold, capped_names, fmt
 from prefit.stats import planning
 
 RILEY_SOURCE = (
@@ -43,7 +43,7 @@ def counted_parameters(design: Design) -> list[str]:
     if len(singles) == 1:
         parts.append(f"{singles[0]} 1")
     elif singles:
-        parts.append(f"1 each: {', '.join(singles)}")
+        parts.append(f"1 each: {capped_names(singles)}")
     for term in design.terms:
         if term.reference is not None and term.df:
             parts.append(f"{term.source} {term.df} (dummies for {term.df + 1} levels, reference {term.reference})")

@@ -24,6 +24,14 @@ from prefit.teaching.base import fit_line
 from prefit.teaching.collinearity import area_and_racks, lost_digits, parts_and_total
 from prefit.teaching.design import codes_as_numbers, date_as_a_number
 from prefit.teaching.drift import changed_defrost_schedule, dropped_column, fahrenheit_export, hotter_month, new_compressor_type
+from prefit.teaching.grouping import (
+    few_sites,
+    noise_site_facts,
+    one_large_site,
+    one_site_decides,
+    shared_site_effect,
+    warm_sites_cold_days,
+)
 from prefit.teaching.hygiene import (
     duplicated_days,
     kwh_as_text,
@@ -49,7 +57,7 @@ from prefit.teaching.ranges import heat_wave_beyond_the_data, mostly_one_value, 
 from prefit.teaching.sample_size import small_extract, too_few_to_see
 from prefit.teaching.target import flat_meter, skewed_energy, unread_days, yes_no_target
 
-BUILT_IN_FAMILIES = ("assumptions", "collinearity", "design", "drift", "hygiene", "influence", "missingness", "outliers", "range", "sample-size", "target")
+BUILT_IN_FAMILIES = ("assumptions", "collinearity", "design", "drift", "grouping", "hygiene", "influence", "missingness", "outliers", "range", "sample-size", "target")
 ALL_DEMONSTRATIONS: list[Callable[[], Demonstration]] = [
     area_and_racks, mega_site, tenfold_reading, dropout_codes, duplicated_days, narrow_setpoint, small_extract,
     skewed_energy, codes_as_numbers, uneven_spread, heat_bend, skewed_errors, autocorrelated_days,
@@ -58,6 +66,7 @@ ALL_DEMONSTRATIONS: list[Callable[[], Demonstration]] = [
     two_row_level, watt_hours_beside_degrees, own_prediction_pull, one_column_with_holes, sites_that_stop_reporting,
     unusual_combination, heat_wave_beyond_the_data, mostly_one_value, too_few_to_see, flat_meter, unread_days,
     yes_no_target, fahrenheit_export, new_compressor_type, hotter_month, changed_defrost_schedule, dropped_column,
+    shared_site_effect, noise_site_facts, few_sites, warm_sites_cold_days, one_large_site, one_site_decides,
 ]
 
 
@@ -276,6 +285,14 @@ def test_why_family_lists_its_rules_and_shows_its_demonstration(cli: Any, regist
     assert str(mega_site()) in run.out
 
 
+def test_grouping_demonstration_shows_the_usual_standard_error_too_small() -> None:
+    shown = shared_site_effect()
+    # source: Kish (1965), Survey Sampling, sec. 5.4: the variance of a cluster-level estimate grows by the design effect,
+    # so the real spread over draws is about sqrt(design effect) times the usual standard error
+    assert shown.numbers["se_ratio"] > 3
+    assert_allclose(shown.numbers["se_ratio"], np.sqrt(shown.numbers["design_effect"]), rtol=0.25)
+
+
 def test_complete_cases_demonstration_loses_precision_not_the_slope() -> None:
     shown = deleted_rows().numbers
     # reference: least-squares algebra; with random deletion the SE grows about as sqrt(n / kept)
@@ -367,3 +384,14 @@ def test_missingness_and_target_demonstrations_show_their_damage() -> None:
     assert yes_no["predicted_cold"] < 0
     dated = date_as_a_number().numbers
     assert abs(dated["intercept"]) > 10 * 6_000
+
+
+def test_grouping_demonstrations_show_the_damage_they_claim() -> None:
+    assert noise_site_facts().numbers["noise_significant"] > 5 * noise_site_facts().numbers["expected"]
+    assert few_sites().numbers["understated"] > 1
+    slopes = warm_sites_cold_days().numbers
+    # source: the invented slopes, +80 within and -120 between (least squares on centred data and on site means)
+    assert_allclose([slopes["within"], slopes["between"]], [80, -120], rtol=0.1)
+    assert one_large_site().numbers == {"row_flags": 90, "site_flags": 1}
+    decided = one_site_decides().numbers
+    assert abs(decided["one_day"] - decided["all"]) < 0.01 * decided["all"] and decided["whole_site"] > 1.8 * decided["all"]

@@ -12,8 +12,8 @@ import html
 from typing import TYPE_CHECKING, Any
 
 from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade, counted
-from ..rule import fmt
-from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
+from ..rule import capped_names, fmt
+from .base import ReportWriter, RunFacts, groups_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -91,6 +91,7 @@ def _facts(report: "Report") -> str:
         ("columns", f"{report.info.columns:,}"),
         ("target", report.target),
         ("row labels", _label_source(report)),
+        ("groups", groups_sentence(report) or "none (rows treated as independent)"),
         ("parameters", f"{report.parameters:,}"),
         ("complete cases", f"{report.complete_cases:,}"),
         ("gate", report.gate.word),
@@ -157,7 +158,7 @@ def rule_entry(rule: "RuleLike", anchor: str) -> str:
 def _finding(finding: Finding, why: str, prefix: str) -> str:
     opened = " open" if finding.grade > Grade.NOTE else ""
     parts = [f'<details class="finding grade-{finding.grade.word}"{opened}>']
-    columns = f' <span class="columns">{esc(", ".join(finding.columns))}</span>' if finding.columns else ""
+    columns = f' <span class="columns">{esc(capped_names(finding.columns))}</span>' if finding.columns else ""
     link = f'<a class="rule" href="#{rule_anchor(finding.rule, prefix)}" title="the rule in the catalogue below">{esc(finding.rule)}</a>'
     parts.append(f'<summary><span class="tag grade-{finding.grade.word}">{esc(finding.grade.word)}</span> {link}{columns}</summary>')
     parts.append(f"<p>{esc(finding.message)}</p>")

@@ -13,6 +13,7 @@ import re
 from typing import TYPE_CHECKING
 
 from ..findings import GRADES_STRONGEST_FIRST, Finding, count_by_grade, counted
+from ..rule import capped_names
 from .base import ReportWriter, RunFacts, baseline_sentence, row_groups
 
 if TYPE_CHECKING:
@@ -82,7 +83,7 @@ class MarkdownWriter(ReportWriter):
             lines.append("| grade | rule | columns | finding |")
             lines.append("|---|---|---|---|")
             for f in self.findings:
-                columns = ", ".join(md_text(c) for c in f.columns) or "-"
+                columns = md_text(capped_names(f.columns)) or "-"
                 lines.append(f"| {f.grade.word} | `{f.rule}` | {columns} | {md_text(f.message)}{_rows(f)} |")
             lines.append("")
             remedies: list[str] = []

@@ -19,7 +19,8 @@ from ..findings import (
     count_by_grade,
     counted,
 )
-from .base import ReportWriter, RunFacts, baseline_sentence, labels_not_unique, row_groups
+from ..rule import LISTED_NAMES, capped_names
+from .base import ReportWriter, RunFacts, baseline_sentence, groups_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -68,19 +69,25 @@ def _design_line(report: "Report") -> Text:
     numeric = sum(1 for t in terms if t["kind"] in ("numeric", "datetime"))
     if numeric:
         parts.append(f"{numeric} numeric")
+    coded: list[str] = []
     for term in terms:
         if "reference" in term:
-            parts.append(f"{term['column']} ({counted(term['parameters'], 'dummy', 'dummies')}, reference {term['reference']!r})")
+            coded.append(f"{term['column']} ({counted(term['parameters'], 'dummy', 'dummies')}, reference {term['reference']!r})")
         elif term["kind"] in ("categorical", "boolean"):
-            parts.append(f"{term['column']} (no complete rows)")
+            coded.append(f"{term['column']} (no complete rows)")
+    shown = coded if len(coded) <= LISTED_NAMES else coded[: LISTED_NAMES - 2] + [f"{len(coded) - LISTED_NAMES + 2:,} more categories"]
+    parts += shown
     line = Text()
     line.append("design ", style="facts.label")
     line.append(" + ".join(parts) or "empty")
     left_out = report.design.get("left_out", {})
     if report.design.get("id"):
         line.append(f"; row labels from {report.design['id']!r}{_shared_labels(report)}")
+    grouping = groups_sentence(report)
+    if grouping:
+        line.append(f"; {grouping}")
     if left_out:
-        line.append("; left out: " + ", ".join(left_out))
+        line.append("; left out: " + capped_names(list(left_out)))
     return line
 
 
@@ -105,7 +112,7 @@ def _once(label: str, text: str, told: set[tuple[str, str]]) -> str:
 def _finding_lines(finding: Finding, explain: str | None, told: set[tuple[str, str]]) -> list[tuple[int, RenderableType]]:
     title = Text(finding.rule, style="finding.rule")
     if finding.columns:
-        title.append("  " + ", ".join(finding.columns), style="finding.columns")
+        title.append("  " + capped_names(finding.columns), style="finding.columns")
     head = Table.grid(padding=(0, 1))
     head.add_column(no_wrap=True)
     head.add_column()
