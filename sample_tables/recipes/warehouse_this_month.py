@@ -15,7 +15,7 @@ EXPECTED = [
     ("drift.units", "misleads", ("outdoor_c",)),
     ("drift.levels", "misleads", ("compressor_type",)),
     ("drift.coverage", "note", ("outdoor_c", "door_openings", "pallets_stored")),
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles")),
+    ("grouping.between-predictors", "weakens", ("floor_area_m2", "compressor_type")),
 ]
 EXIT_CODE = 1
 NEW_TYPE = "magnetic centrifugal"
