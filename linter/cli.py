@@ -48,6 +48,8 @@ def _build_parser() -> argparse.ArgumentParser:
     check.add_argument("--anticipated-r2", metavar="R2", help="the R-squared expected of the model, for sample-size planning (default: the preliminary fit's adjusted R-squared)")
     check.add_argument("--purpose", choices=("explain", "predict"), help="what the model is for: explain (default; read its coefficients) or predict (score new rows; the prediction-model sample-size criteria gate)")
     check.add_argument("--score", metavar="NEWTABLE", help="a table of new rows the model will be asked to predict, checked for extrapolation")
+    check.add_argument("--baseline", metavar="BASELINE", help="vet the table against the last accepted extract: a profile written by --save-baseline, or that table itself")
+    check.add_argument("--save-baseline", metavar="FILE", help="write this table's baseline profile (summaries and fit, no rows) to FILE as JSON")
     check.add_argument("--sep", help="delimiter of a text table (sniffed when absent)")
     check.add_argument("--encoding", help="encoding of a text table (default utf-8)")
     check.add_argument("--order", metavar="COL", help="the column giving the rows' time order, for the autocorrelation preview (default: the first date column)")
@@ -151,6 +153,7 @@ def _options_from_args(args: argparse.Namespace) -> Any:
         ("group", args.group),
         ("anticipated-r2", args.anticipated_r2),
         ("score", args.score),
+        ("baseline", args.baseline),
         ("purpose", args.purpose),
     ):
         if value is not None:
@@ -188,7 +191,7 @@ def _colour(choice: str, output: str | None) -> bool:
 
 def _command_check(args: argparse.Namespace) -> int:
     from .accepted import load_accepted
-    from .api import apply_accepted, check_file
+    from .api import apply_accepted, check_file, write_baseline
     from .progress import progress_for
     from .report import FORMATS, WriterSettings, render
 
@@ -206,8 +209,12 @@ def _command_check(args: argparse.Namespace) -> int:
         raise UsageProblem("--scheduler", "only applies to the Dask engine", "add --engine dask")
     if args.row_budget is not None and args.row_budget < 1:
         raise UsageProblem("--row-budget", "must be a positive number of rows", "e.g. --row-budget 500000")
+    if args.save_baseline is not None and len(args.tables) > 1:
+        raise UsageProblem("--save-baseline", f"writes the profile of one table, got {len(args.tables)} tables", "check the accepted table alone")
     for path in args.tables:
-        reports.append(check_file(path, options, args.engine, args.scheduler, args.debug, progress_for(), args.row_budget))
+        reports.append(check_file(path, options, args.engine, args.scheduler, args.debug, progress_for(), args.row_budget, args.save_baseline is not None))
+    if args.save_baseline is not None:
+        write_baseline(reports[0], args.save_baseline)
     reports = apply_accepted(reports, args.accept_file, args.accept_current)
     for format, output in destinations:
         settings = WriterSettings(colour=_colour(args.colour, output), explain=args.explain)

@@ -9,6 +9,8 @@ from typing import Sequence
 import numpy as np
 import pyarrow as pa
 
+from .baseline import BaselineProfile
+from .comparison import ColumnComparison, ModelComparison, compare_columns, compare_model
 from .design import Design, build_design
 from .findings import MAX_LISTED_ROWS, RowLabel
 from .options import CheckOptions
@@ -53,7 +55,9 @@ class RunContext:
     options: CheckOptions
     replaced_codes: dict[str, int] = field(default_factory=dict)
     score: ScoreTable | None = None
+    baseline: BaselineProfile | None = None
     statistics: TableStatistics | None = field(default=None, repr=False)
+    whole_statistics: TableStatistics | None = field(default=None, repr=False)
     file_positions: np.ndarray | None = field(default=None, repr=False)
     table_model: IndicatorFactor | None = field(default=None, repr=False)
     _summaries: dict[str, ColumnSummary] = field(default_factory=dict, init=False, repr=False)
@@ -194,6 +198,21 @@ class RunContext:
         if self.score is None:
             return None
         return score_rows(self.score, self.design, self.roles, self.fit, self.row_scores.hat)
+
+    @cached_property
+    def comparison(self) -> ColumnComparison | None:
+        """The columns matched with the baseline's, unit changes recognised, shifts tested; None without ``--baseline``."""
+        if self.baseline is None:
+            return None
+        return compare_columns(self, self.baseline)
+
+    @cached_property
+    def model_comparison(self) -> ModelComparison | None:
+        """The new rows through the baseline's design and fit (O(n p^2)); None without a baseline fit to compare with."""
+        columns = self.comparison
+        if columns is None:
+            return None
+        return compare_model(self, columns)
 
     def summary(self, column: str) -> ColumnSummary:
         """Counts, moments and mode of one table column (all rows)."""

@@ -224,13 +224,17 @@ def keep_rows(runner: PassRunner, limit: int) -> KeptRows:
     return runner.map_merge(lambda batch, offset: KeptRows.of(batch, offset, limit), merge_all, "reading")
 
 
-def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | None = None) -> tuple[RunContext, EngineRun]:
+def scaled_context(
+    runner: PassRunner, options: CheckOptions, row_budget: int | None = None, tallies: bool = False
+) -> tuple[RunContext, EngineRun]:
     """Run the passes of the stream or Dask engine and build the context the rules read.
 
     Within the row budget (``row_budget`` rows, default ``SAMPLE_CELLS``
     cells) the context holds every row, and its column summaries and R factor
     are the merged pass-1 statistics; beyond it, the context holds the hashed
     sample and pass 2 screens every row against the whole table's fit.
+    ``tallies`` has pass 1 tally every column even beyond the budget (for a
+    baseline profile); the merged statistics are on the context as ``whole_statistics``.
     """
     from .api import build_context
 
@@ -243,13 +247,14 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
     whole = kept.whole
 
     def pass_one(batch: pa.Table, offset: int) -> TableStatistics:
-        return first_pass(conformed(batch, schema, codes), roles, intercept, tallies=whole)
+        return first_pass(conformed(batch, schema, codes), roles, intercept, tallies=whole or tallies)
 
     if kept.whole and runner.reads_in_process:
         # Every row is already in memory: pass 1 runs over the kept rows' batches instead of reading the file again.
         statistics = merge_all([first_pass(batch, roles, intercept) for batch in _batches(context.table)])
     else:
         statistics = runner.map_merge(pass_one, merge_all, "pass 1")
+    context.whole_statistics = statistics
     if kept.whole:
         context.statistics = statistics
         return context, EngineRun(runner.name, kept.seen, kept.seen, statistics.model.rows)

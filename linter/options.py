@@ -41,6 +41,7 @@ class CheckOptions:
     order: str | None = None
     group: str | None = None
     purpose: str = "explain"
+    baseline: str | None = None
 
 
 PURPOSES = ("explain", "predict")
@@ -190,6 +191,7 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("anticipated-r2", "anticipated_r2", _as_share, "the R-squared expected of the model, for sample-size planning"),
     Setting("score", "score", _as_text, "a table of new rows the model will be asked to predict"),
     Setting("order", "order", _as_text, "a column giving the rows' time order, for the autocorrelation preview"),
+    Setting("baseline", "baseline", _as_text, "the last accepted extract (a profile from --save-baseline, or the table) to vet this one against"),
     Setting("purpose", "purpose", _as_purpose, "what the model is for: explain (read its coefficients) or predict (score new rows)"),
     Setting("group", "group", _as_text, "a column whose equal values mark rows of one group (site, customer, machine); \"none\" turns grouping off"),
 )

@@ -23,6 +23,7 @@ import pyarrow as pa
 
 from .design import INTERCEPT, ModelColumns, Term, treatment_term
 from .roles import Kind, Roles, group_labels, label_values
+from .stats.distribution import dkw_rank_error
 from .stats.factor import DesignFactor
 from .stats.fit import PreliminaryFit
 from .stats.grouping import GroupFactors, GroupRows
@@ -335,11 +336,6 @@ class ColumnFences:
                 for name, fence, m in zip(self.columns, self.fences, self.sample_values)
             },
         }
-
-
-def dkw_rank_error(values: int, confidence: float) -> float:
-    """``eps`` with ``P(sup |F_m - F| > eps) <= 1 - confidence`` for ``m = values`` sampled values (Massart 1990)."""
-    return float(np.sqrt(np.log(2.0 / (1.0 - confidence)) / (2.0 * values))) if values > 0 else float("inf")
 
 
 def second_pass(

@@ -100,6 +100,9 @@ def _facts(report: "Report") -> str:
     ]
     if report.info.sha256:
         pairs.append(("sha256", report.info.sha256))
+    if report.baseline is not None:
+        pairs.append(("baseline", str(report.baseline["path"])))
+        pairs.append(("baseline sha256", str(report.baseline["sha256"])))
     body = "".join(f"<dt>{esc(k)}</dt><dd>{esc(v)}</dd>" for k, v in pairs)
     return f'<dl class="facts">{body}</dl>'
 

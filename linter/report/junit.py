@@ -60,6 +60,7 @@ class JunitWriter(ReportWriter):
             ("gate", report.gate.word),
             ("purpose", report.purpose),
             ("accepted", str(len(report.accepted))),
+            *((("baseline", str(report.baseline["path"])), ("baseline_sha256", str(report.baseline["sha256"]))) if report.baseline is not None else ()),
         ):
             ET.SubElement(properties, "property", {"name": name, "value": xml_text(value)})
         counts = {"tests": 0, "failures": 0, "errors": 0, "skipped": 0}

@@ -14,7 +14,7 @@ from typing import TYPE_CHECKING
 
 from ..findings import GRADES_STRONGEST_FIRST, Finding, count_by_grade, counted
 from ..rule import capped_names
-from .base import ReportWriter, RunFacts, row_groups
+from .base import ReportWriter, RunFacts, baseline_sentence, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -69,6 +69,9 @@ class MarkdownWriter(ReportWriter):
         sampled = report.engine.sentence() if report.engine is not None else None
         if sampled is not None:
             lines.append(f"Note: {md_text(sampled)}.")
+        against = baseline_sentence(report)
+        if against is not None:
+            lines.append(f"{md_text(against[0].upper() + against[1:])}.")
         lines.append("")
         counts = count_by_grade(self.findings)
         words = [g.word for g in GRADES_STRONGEST_FIRST]

@@ -167,6 +167,7 @@ class SarifWriter(ReportWriter):
                 "accepted": len(report.accepted),
                 "exitCode": report.exit_code,
                 "design": report.design,
+                **({"baseline": dict(report.baseline)} if report.baseline is not None else {}),
             }
         )
 

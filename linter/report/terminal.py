@@ -20,7 +20,7 @@ from ..findings import (
     counted,
 )
 from ..rule import LISTED_NAMES, capped_names
-from .base import ReportWriter, RunFacts, groups_sentence, labels_not_unique, row_groups
+from .base import ReportWriter, RunFacts, baseline_sentence, groups_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -150,6 +150,9 @@ def render_terminal(report: "Report", colour: bool, width: int | None = None, ex
     sampled = report.engine.sentence() if report.engine is not None else None
     if sampled is not None:
         console.print(Padding(Text(sampled), (0, 0, 0, INDENT_HEAD)))
+    against = baseline_sentence(report)
+    if against is not None:
+        console.print(Padding(Text(against), (0, 0, 0, INDENT_HEAD)))
     counts = count_by_grade(report.findings)
     told: set[tuple[str, str]] = set()
     for grade in GRADES_STRONGEST_FIRST:
