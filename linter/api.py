@@ -35,6 +35,7 @@ from .roles import apply_missing_codes, distinct_labels, resolve_roles
 from .rule import RuleLike, RuleSettings
 from .scoring import check_declared_ranges, read_score_table
 from .stats.blas import one_blas_thread
+from .text import cut_texts, json_inert
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -102,8 +103,8 @@ class Report:
         return replace(self, findings=kept, accepted=self.accepted + matched)
 
     def to_dict(self) -> dict[str, Any]:
-        """The report as plain JSON types, in the documented schema."""
-        return {
+        """The report as plain JSON types, in the documented schema; long texts cut (:func:`prefit.text.cut_texts`)."""
+        return cut_texts({
             "schema": REPORT_SCHEMA_VERSION,
             "tool": {"name": TOOL_NAME, "version": __version__},
             "table": {"path": self.info.path, "format": self.info.format, "rows": self.info.rows, "columns": self.info.columns, "sha256": self.info.sha256},
@@ -119,11 +120,11 @@ class Report:
             "summary": count_by_grade(self.findings),
             "accepted": len(self.accepted),
             **({"engine": self.engine.to_dict()} if self.engine is not None else {}),
-        }
+        })
 
     def to_json(self) -> str:
         """The JSON report: sorted findings, NaN and infinities as null, stable bytes."""
-        return json.dumps(self.to_dict(), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+        return json_inert(json.dumps(self.to_dict(), indent=2, ensure_ascii=False, allow_nan=False)) + "\n"
 
     def render(self, format: str, **settings: Any) -> str:
         """The report in any registered format (``text``, ``json``, ``sarif``, ``junit``, ``markdown``, ``html``)."""

@@ -18,6 +18,7 @@ from ..findings import (
     Grade,
     count_by_grade,
 )
+from ..text import inert
 from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
@@ -48,7 +49,7 @@ def _facts(report: "Report") -> Text:
     pairs = [
         ("rows", f"{report.info.rows:,}"),
         ("columns", f"{report.info.columns:,}"),
-        ("target", report.target),
+        ("target", inert(report.target)),
         ("parameters", f"{report.parameters:,}"),
         ("complete cases", f"{report.complete_cases:,}"),
     ]
@@ -68,17 +69,17 @@ def _design_line(report: "Report") -> Text:
         parts.append(f"{numeric} numeric")
     for term in terms:
         if "reference" in term:
-            parts.append(f"{term['column']} ({term['parameters']} dummies, reference {term['reference']!r})")
+            parts.append(f"{inert(term['column'])} ({term['parameters']} dummies, reference {inert(repr(term['reference']))})")
         elif term["kind"] in ("categorical", "boolean"):
-            parts.append(f"{term['column']} (no complete rows)")
+            parts.append(f"{inert(term['column'])} (no complete rows)")
     line = Text()
     line.append("design ", style="facts.label")
     line.append(" + ".join(parts) or "empty")
     left_out = report.design.get("left_out", {})
     if report.design.get("id"):
-        line.append(f"; row labels from {report.design['id']!r}{_shared_labels(report)}")
+        line.append(f"; row labels from {inert(repr(report.design['id']))}{_shared_labels(report)}")
     if left_out:
-        line.append("; left out: " + ", ".join(left_out))
+        line.append("; left out: " + ", ".join(inert(name) for name in left_out))
     return line
 
 
@@ -101,6 +102,7 @@ def _once(label: str, text: str, told: set[tuple[str, str]]) -> str:
 
 
 def _finding_lines(finding: Finding, explain: str | None, told: set[tuple[str, str]]) -> list[tuple[int, RenderableType]]:
+    finding = finding.shown()
     title = Text(finding.rule, style="finding.rule")
     if finding.columns:
         title.append("  " + ", ".join(finding.columns), style="finding.columns")
@@ -135,7 +137,7 @@ def render_terminal(report: "Report", colour: bool, width: int | None = None, ex
         emoji=False,
         soft_wrap=False,
     )
-    console.print(Text(f"prefit {report.info.path}", style="bold"))
+    console.print(Text(f"prefit {inert(report.info.path, None)}", style="bold"))
     console.print(Padding(_facts(report), (0, 0, 0, INDENT_HEAD)))
     console.print(Padding(_design_line(report), (0, 0, 0, INDENT_HEAD)))
     sampled = report.engine.sentence() if report.engine is not None else None
