@@ -204,10 +204,30 @@ def check_file(
     keep in memory for the rules.
     """
     from .batches import choose_engine
-    from .engines import StreamRunner, scaled_context
 
     read = ReadOptions(sep=options.sep, encoding=options.encoding)
     chosen = choose_engine(engine, path)
+    try:
+        return _check_with(chosen, path, read, options, scheduler, debug, progress, row_budget)
+    except MemoryError:
+        if chosen == "memory" or path == "-":
+            raise UsageProblem(path, "does not fit in this process's memory", "rerun with --engine stream, which reads the table in row batches") from None
+        raise UsageProblem(path, "the rows kept for the rules do not fit in this process's memory", "lower --row-budget, e.g. --row-budget 100000") from None
+
+
+def _check_with(
+    chosen: str,
+    path: str,
+    read: ReadOptions,
+    options: CheckOptions,
+    scheduler: str | None,
+    debug: bool,
+    progress: RunProgress | None,
+    row_budget: int | None,
+) -> Report:
+    """:func:`check_file` with the engine chosen."""
+    from .engines import StreamRunner, scaled_context
+
     if chosen == "memory" or path == "-":
         table, info = read_table(path, read)
         # Started after the read: the reader already keeps both cores busy.

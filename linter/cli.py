@@ -178,6 +178,7 @@ def _command_check(args: argparse.Namespace) -> int:
         raise UsageProblem("--accept-current", "needs a file to write", "add --accept-file FILE")
     if args.accept_file is not None and not args.accept_current:
         load_accepted(args.accept_file)
+    _refuse_overwriting_inputs(args, options)
     reports = []
     if args.scheduler is not None and args.engine != "dask":
         raise UsageProblem("--scheduler", "only applies to the Dask engine", "add --engine dask")
@@ -189,6 +190,28 @@ def _command_check(args: argparse.Namespace) -> int:
     settings = WriterSettings(colour=_colour(args.colour, args.output), explain=args.explain)
     _write(render(args.format, reports, settings), args.output)
     return max(report.exit_code for report in reports)
+
+
+def _same_file(first: str, second: str) -> bool:
+    """Whether two paths name one file (an existing one, through links too, or the same path)."""
+    if first == "-" or second == "-":
+        return False
+    try:
+        return os.path.samefile(first, second)
+    except OSError:
+        return os.path.abspath(first) == os.path.abspath(second)
+
+
+def _refuse_overwriting_inputs(args: argparse.Namespace, options: Any) -> None:
+    """Raise when ``--output`` or a written ``--accept-file`` names a table this run reads."""
+    inputs = [*args.tables, *([options.score] if options.score else [])]
+    written = [("--output", args.output)] + ([("--accept-file", args.accept_file)] if args.accept_current else [])
+    for flag, target in written:
+        if target is None:
+            continue
+        for table in inputs:
+            if _same_file(target, table):
+                raise UsageProblem(f"{flag} {target}", "is a table this run reads, and would be overwritten", f"give {flag} another path")
 
 
 def _command_rules(args: argparse.Namespace) -> int:
@@ -259,6 +282,31 @@ def _report_failure(debug: bool, line: str) -> None:
     _say(line)
 
 
+M_ARENA_MAX = -8  # glibc mallopt parameter number (malloc.h)
+
+
+def fit_address_space_limit() -> None:
+    """Under an address-space limit (``ulimit -v``), keep glibc to one malloc arena.
+
+    Each thread otherwise reserves an arena of up to 128 MB of address space
+    (reserved, not used), so that a few worker threads exhaust a limit the
+    data alone would fit; OpenBLAS, which retries a failed allocation without
+    end, then hangs instead of failing. With one arena the run either fits or
+    ends with a MemoryError, which :func:`main` turns into one line.
+    """
+    import resource
+
+    soft, _ = resource.getrlimit(resource.RLIMIT_AS)
+    if soft == resource.RLIM_INFINITY:
+        return
+    import ctypes
+
+    try:
+        ctypes.CDLL(None).mallopt(M_ARENA_MAX, 1)
+    except (OSError, AttributeError):  # not glibc: nothing to tune
+        pass
+
+
 def run() -> NoReturn:
     """The ``prefit`` command: run, flush the report, and leave without tearing down the interpreter.
 
@@ -266,6 +314,7 @@ def run() -> NoReturn:
     freeing them one by one at interpreter exit takes up to half a second and
     changes nothing, so once the output is flushed the process ends at once.
     """
+    fit_address_space_limit()
     code = main()
     for stream in (sys.stdout, sys.stderr):
         try:
