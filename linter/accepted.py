@@ -1,13 +1,14 @@
 """Accepted findings: fingerprints of known findings, kept in a file, so that a gate fails only on new ones.
 
 A fingerprint is the rule, the grade, the columns (sorted) and a digest of
-the values of the rows the finding names. The row digest hashes each flagged
+the values of the rows the finding lists. The row digest hashes each listed
 row's values (target, predictors and the finding's columns, keyed by column
 name) and then hashes the sorted row hashes, so it survives any reordering of
-rows and columns, while a changed value in a flagged row, a row more or less,
-or a stronger grade make the finding new again. A finding that names more
+rows and columns, while a changed value in a listed row, a listed row more or
+less, or a stronger grade make the finding new again. A finding that names more
 rows than it lists digests only the listed rows any row order would list
-(see :func:`stable_rows`); the others count by number.
+(see :func:`stable_rows`); the unlisted, least extreme rows do not count, since
+their number drifts whenever an edit elsewhere moves an estimate.
 """
 
 from __future__ import annotations
@@ -105,7 +106,7 @@ class RowDigester:
             text = json.dumps(row, sort_keys=True, ensure_ascii=False)
             row_hashes.append(hashlib.sha256(text.encode("utf-8")).hexdigest())
         unmatched = sorted(str(label) for label in labels) if labels and not positions else []
-        body = "\n".join(sorted(row_hashes) + unmatched + [rest, f"rows={finding.row_count}"])
+        body = "\n".join(sorted(row_hashes) + unmatched + [rest])
         return "sha256:" + hashlib.sha256(body.encode("utf-8")).hexdigest()
 
 
@@ -115,7 +116,9 @@ def stable_rows(finding: Finding) -> tuple[list[RowLabel], str]:
     A finding lists at most ``MAX_LISTED_ROWS`` rows, the most extreme first
     with ties broken by position; when it names more rows than it lists, the
     rows tied at the cut-off depend on the row order, so they enter the
-    digest only as their count and the cut-off value (10 significant digits).
+    digest only as their count. Measured values never enter it: they move
+    when any other row changes (a robust centre, a fit), and an edit to a row
+    the finding does not name must leave it accepted.
     Without measured values the listed subset is order-dependent as a whole.
     """
     listed = list(finding.rows)
@@ -126,7 +129,7 @@ def stable_rows(finding: Finding) -> tuple[list[RowLabel], str]:
     magnitudes = [abs(v) if v is not None and math.isfinite(v) else -math.inf for v in finding.row_values]
     cutoff = min(magnitudes)
     kept = [label for label, size in zip(listed, magnitudes) if size > cutoff]
-    return kept, f"{len(listed) - len(kept)} listed at |value| {cutoff:.10g}"
+    return kept, f"{len(listed) - len(kept)} listed at the cut-off"
 
 
 def fingerprint(finding: Finding, digester: RowDigester | None) -> Fingerprint:
@@ -134,7 +137,7 @@ def fingerprint(finding: Finding, digester: RowDigester | None) -> Fingerprint:
     if digester is not None:
         rows = digester.digest(finding)
     elif finding.rows:
-        body = "\n".join(sorted(str(label) for label in finding.rows) + [f"rows={finding.row_count}"])
+        body = "\n".join(sorted(str(label) for label in finding.rows))
         rows = "labels:" + hashlib.sha256(body.encode("utf-8")).hexdigest()
     else:
         rows = None

@@ -63,6 +63,7 @@ class Report:
     findings: tuple[Finding, ...]
     outcomes: tuple[RuleOutcome, ...]
     gate: Grade
+    purpose: str = "explain"
     accepted: tuple[Finding, ...] = ()
     engine: EngineRun | None = None
     rules: tuple[RuleLike, ...] = field(default=(), compare=False, repr=False)
@@ -113,6 +114,7 @@ class Report:
             "complete_cases": self.complete_cases,
             "design": dict(self.design),
             "gate": self.gate.word,
+            "purpose": self.purpose,
             "complete": not self.failed_rules,
             "rules_run": [o.rule for o in self.outcomes],
             "rules_not_applicable": {o.rule: o.not_applicable for o in self.outcomes if o.not_applicable is not None},
@@ -291,6 +293,7 @@ def report_for(
     description["id"] = roles.id
     if roles.id is not None:
         description["id_values"] = distinct_labels(context.table.column(roles.id))
+    description["groups"] = group_description(context)
     if replaced:
         description["missing_codes_applied"] = dict(replaced)
     return Report(
@@ -302,10 +305,33 @@ def report_for(
         findings=tuple(sorted(findings, key=Finding.sort_key)),
         outcomes=tuple(outcomes),
         gate=context.options.gate,
+        purpose=context.options.purpose,
         engine=engine,
         rules=tuple(registry),
         context=context,
     )
+
+
+def group_description(context: RunContext) -> dict[str, Any] | None:
+    """The grouping of the complete cases, said out loud: column, where it came from, groups and their sizes (None: off)."""
+    roles = context.roles
+    if roles.group is None:
+        return None
+    try:
+        factors = context.group_factors
+    except Exception:  # noqa: BLE001  (the design failed; every rule that reads it reports why)
+        factors = None
+    sizes = factors.counts if factors is not None else np.zeros(0, dtype=np.int64)
+    return {
+        "column": roles.group,
+        "from": roles.group_origin,
+        "groups": int(sizes.size),
+        "sizes": {
+            "min": int(sizes.min()) if sizes.size else 0,
+            "median": float(np.median(sizes)) if sizes.size else 0.0,
+            "max": int(sizes.max()) if sizes.size else 0,
+        },
+    }
 
 
 def heavy_first(selected: Sequence[tuple[RuleLike, RuleSettings]]) -> list[tuple[RuleLike, RuleSettings]]:
@@ -390,7 +416,7 @@ def check(
     Keyword options are the configuration keys (``id``, ``exclude``,
     ``predictors``, ``categorical``, ``intercept``, ``fail_at``,
     ``skip_rules``, ``rule``, ``missing_codes``, ``sep``, ``encoding``,
-    ``ranges``, ``anticipated_r2``, ``score``).
+    ``ranges``, ``anticipated_r2``, ``score``, ``order``, ``purpose``, ``group``).
     ``accept_file`` names an accepted-findings file: findings it lists are
     counted, not gated; with ``accept_current`` today's findings are written to it.
     """

@@ -37,6 +37,29 @@ def catalogue_json(registry: Registry | None = None) -> str:
     return json.dumps({"rules": rules}, indent=2, ensure_ascii=False) + "\n"
 
 
+def catalogue_html(registry: Registry | None = None) -> str:
+    """Every rule as a self-contained HTML page, one entry per rule (anchor ``rule-family-name``), grouped by family.
+
+    HTML reports carry the same entries for the rules behind their findings, and link each finding to its entry.
+    """
+    from .report.html import CONTENT_POLICY, STYLE, esc, rule_anchor, rule_entry
+
+    registry = registry or discover()
+    sections = []
+    for family in registry.families():
+        entries = [rule_entry(rule, rule_anchor(rule.id)) for rule in registry if rule_family(rule.id) == family]
+        sections.append(f'<section id="family-{esc(family)}"><h2>{esc(family)}</h2>{"".join(entries)}</section>')
+    contents = "".join(f'<li><a href="#family-{esc(f)}">{esc(f)}</a></li>' for f in registry.families())
+    return (
+        "<!DOCTYPE html>\n"
+        '<html lang="en"><head><meta charset="utf-8">'
+        f'<meta http-equiv="Content-Security-Policy" content="{CONTENT_POLICY}">'
+        f"<title>prefit rule catalogue</title><style>{STYLE}</style></head>\n"
+        f'<body><main class="prefit-report"><h1>prefit rule catalogue</h1><nav class="toc"><ul>{contents}</ul></nav>'
+        f"{''.join(sections)}</main></body></html>\n"
+    )
+
+
 def catalogue_text(registry: Registry | None = None) -> str:
     """Every rule, one paragraph each, grouped by family."""
     registry = registry or discover()
@@ -64,7 +87,8 @@ def explain_rule(rule_id: str, registry: Registry | None = None) -> str:
     if rule is None and rule_id in registry.families():
         return _explain_family(rule_id, registry)
     if rule is None:
-        raise UsageProblem(f"rule {rule_id!r}", "is not a known rule", closest_names(rule_id, sorted(registry.rules)) + "; `prefit why` lists them")
+        known = sorted(registry.rules) + registry.families()
+        raise UsageProblem(f"{rule_id!r}", "is not a known rule or family", closest_names(rule_id, known, kind="rules and families") + "; `prefit rules` lists them")
     out = [*textwrap.wrap(f"{rule.id}: {rule.summary}", WRAP, subsequent_indent="  "), ""]
     out += ["What it does to a fit:"] + textwrap.wrap(rule.why, WRAP, initial_indent="  ", subsequent_indent="  ") + [""]
     if rule.thresholds:

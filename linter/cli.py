@@ -20,7 +20,8 @@ class _Parser(argparse.ArgumentParser):
     """argparse with one-line errors and exit code 2."""
 
     def error(self, message: str) -> NoReturn:
-        raise UsageProblem(self.prog, message, f"see `{self.prog} --help`")
+        command = self.prog.partition(" ")[2] or "arguments"
+        raise UsageProblem(command, message, f"see `{self.prog} --help`")
 
 
 def _names(text: str) -> list[str]:
@@ -47,12 +48,14 @@ def _build_parser() -> argparse.ArgumentParser:
     check.add_argument("--missing-codes", action="append", metavar="COL=CODE[,CODE]", help="values of COL that mean missing (COL * for every column); repeatable")
     check.add_argument("--range", action="append", dest="ranges", metavar="COL=LOW:HIGH", help="the range of COL the model is meant to cover; repeatable")
     check.add_argument("--anticipated-r2", metavar="R2", help="the R-squared expected of the model, for sample-size planning (default: the preliminary fit's adjusted R-squared)")
+    check.add_argument("--purpose", choices=("explain", "predict"), help="what the model is for: explain (default; read its coefficients) or predict (score new rows; the prediction-model sample-size criteria gate)")
     check.add_argument("--score", metavar="NEWTABLE", help="a table of new rows the model will be asked to predict, checked for extrapolation")
     check.add_argument("--sep", help="delimiter of a text table (sniffed when absent)")
     check.add_argument("--encoding", help="encoding of a text table (default utf-8)")
     check.add_argument("--order", metavar="COL", help="the column giving the rows' time order, for the autocorrelation preview (default: the first date column)")
-    check.add_argument("--format", default="text", help="text (default), json, sarif, junit, markdown or html")
-    check.add_argument("--output", metavar="FILE", help="write the report to FILE instead of stdout")
+    check.add_argument("--group", metavar="COL", help="rows with equal COL values form a group (site, customer, machine); default: a repeating --id column; none turns grouping off")
+    check.add_argument("--format", action="append", help="text (default), json, sarif, junit, markdown or html: the report on stdout, or in a single --output whose extension names no format")
+    check.add_argument("--output", action="append", metavar="FILE", help="write the report to FILE instead of stdout; repeatable, each in the format its extension names (.txt .json .sarif .xml .md .html)")
     check.add_argument("--accept-file", metavar="FILE", help="findings listed in FILE are counted, not gated; only new findings fail")
     check.add_argument("--accept-current", action="store_true", help="write today's findings to the --accept-file, keeping reasons already given")
     check.add_argument("--config", metavar="FILE", help="a prefit.toml or pyproject.toml (default: searched upward from here)")
@@ -64,11 +67,48 @@ def _build_parser() -> argparse.ArgumentParser:
     check.add_argument("--colour", choices=("auto", "always", "never"), default="auto", help="colour in the text report")
 
     rules = commands.add_parser("rules", help="list the rule catalogue")
-    rules.add_argument("--format", default="text", choices=("text", "json"))
+    rules.add_argument("--format", default="text", choices=("text", "json", "html"), help="html: one page with an entry per rule")
 
     why = commands.add_parser("why", help="explain a rule: what it does to a fit, thresholds, sources, remedy")
     why.add_argument("rule", nargs="?", metavar="RULE", help="a rule id, or a family to list its rules; without it, every rule by family")
+
+    commands.add_parser("schema", help="print the JSON schema of the JSON report")
+
+    init = commands.add_parser("init", help="write a commented prefit.toml proposing the settings prefit infers from a table")
+    init.add_argument("table", metavar="TABLE", help="the table to learn from")
+    init.add_argument("--target", help="the response column (proposed from the table when absent)")
+    init.add_argument("--sep", help="delimiter of a text table (sniffed when absent)")
+    init.add_argument("--encoding", help="encoding of a text table (default utf-8)")
+    init.add_argument("--output", default="prefit.toml", metavar="FILE", help="where to write (default prefit.toml)")
+    init.add_argument("--force", action="store_true", help="overwrite an existing file")
     return parser
+
+
+EXTENSION_FORMATS = {".txt": "text", ".json": "json", ".sarif": "sarif", ".xml": "junit", ".md": "markdown", ".html": "html", ".htm": "html"}
+
+
+def _destinations(formats: list[str] | None, outputs: list[str] | None) -> list[tuple[str, str | None]]:
+    """(format, path or None for stdout) for each report to write: one run, several outputs."""
+    if formats is not None and len(formats) > 1:
+        raise UsageProblem("--format", f"is given {len(formats)} times", "give it once; for several reports repeat --output FILE with extensions naming the formats")
+    chosen = formats[0] if formats else None
+    if not outputs:
+        return [(chosen or "text", None)]
+    if len(set(outputs)) < len(outputs):
+        raise UsageProblem("--output", "names the same file twice", "give each report its own file")
+    if len(outputs) == 1:
+        named = EXTENSION_FORMATS.get(Path(outputs[0]).suffix.lower())
+        return [(chosen or named or "text", outputs[0])]
+    if chosen is not None:
+        raise UsageProblem("--format", "cannot choose one format for several --output files", "drop --format: each file's extension names its format")
+    destinations: list[tuple[str, str | None]] = []
+    for output in outputs:
+        named = EXTENSION_FORMATS.get(Path(output).suffix.lower())
+        if named is None:
+            known = ", ".join(EXTENSION_FORMATS)
+            raise UsageProblem(f"--output {output}", "has an extension that names no report format", f"end it in one of {known}")
+        destinations.append((named, output))
+    return destinations
 
 
 def _missing_codes(specs: list[str] | None) -> dict[str, list[str]]:
@@ -110,8 +150,10 @@ def _options_from_args(args: argparse.Namespace) -> Any:
         ("sep", args.sep),
         ("encoding", args.encoding),
         ("order", args.order),
+        ("group", args.group),
         ("anticipated-r2", args.anticipated_r2),
         ("score", args.score),
+        ("purpose", args.purpose),
     ):
         if value is not None:
             flags[key] = value
@@ -171,8 +213,10 @@ def _command_check(args: argparse.Namespace) -> int:
     from .progress import progress_for
     from .report import FORMATS, WriterSettings, render
 
-    if args.format not in FORMATS:
-        raise UsageProblem(f"--format {args.format}", "is not a report format", f"use one of {', '.join(FORMATS)}")
+    destinations = _destinations(args.format, args.output)
+    for format, _ in destinations:
+        if format not in FORMATS:
+            raise UsageProblem(f"--format {format}", "is not a report format", f"use one of {', '.join(FORMATS)}")
     options = _options_from_args(args)
     if args.accept_current and args.accept_file is None:
         raise UsageProblem("--accept-current", "needs a file to write", "add --accept-file FILE")
@@ -187,8 +231,9 @@ def _command_check(args: argparse.Namespace) -> int:
     for path in args.tables:
         reports.append(check_file(path, options, args.engine, args.scheduler, args.debug, progress_for(), args.row_budget))
     reports = apply_accepted(reports, args.accept_file, args.accept_current)
-    settings = WriterSettings(colour=_colour(args.colour, args.output), explain=args.explain)
-    _write(render(args.format, reports, settings), args.output)
+    for format, output in destinations:
+        settings = WriterSettings(colour=_colour(args.colour, output), explain=args.explain)
+        _write(render(format, reports, settings), output)
     return max(report.exit_code for report in reports)
 
 
@@ -205,7 +250,7 @@ def _same_file(first: str, second: str) -> bool:
 def _refuse_overwriting_inputs(args: argparse.Namespace, options: Any) -> None:
     """Raise when ``--output`` or a written ``--accept-file`` names a table this run reads."""
     inputs = [*args.tables, *([options.score] if options.score else [])]
-    written = [("--output", args.output)] + ([("--accept-file", args.accept_file)] if args.accept_current else [])
+    written = [("--output", output) for output in args.output or []] + ([("--accept-file", args.accept_file)] if args.accept_current else [])
     for flag, target in written:
         if target is None:
             continue
@@ -214,10 +259,29 @@ def _refuse_overwriting_inputs(args: argparse.Namespace, options: Any) -> None:
                 raise UsageProblem(f"{flag} {target}", "is a table this run reads, and would be overwritten", f"give {flag} another path")
 
 
-def _command_rules(args: argparse.Namespace) -> int:
-    from .catalogue import catalogue_json, catalogue_text
+def _command_schema(args: argparse.Namespace) -> int:
+    from importlib import resources
 
-    _write(catalogue_json() if args.format == "json" else catalogue_text(), None)
+    _write(resources.files("prefit").joinpath("report/report.schema.json").read_text(encoding="utf-8"), None)
+    return EXIT_OK
+
+
+def _command_init(args: argparse.Namespace) -> int:
+    from .proposal import propose_config
+
+    destination = Path(args.output)
+    if destination.exists() and not args.force:
+        raise UsageProblem(f"{destination}", "already exists", "add --force to overwrite it, or --output another path")
+    text = propose_config(args.table, target=args.target, sep=args.sep, encoding=args.encoding)
+    _write(text, str(destination))
+    print(f"prefit: wrote {destination}; review it, then run `prefit check {args.table}`", file=sys.stderr)
+    return EXIT_OK
+
+
+def _command_rules(args: argparse.Namespace) -> int:
+    from .catalogue import catalogue_html, catalogue_json, catalogue_text
+
+    _write({"json": catalogue_json, "html": catalogue_html}.get(args.format, catalogue_text)(), None)
     return EXIT_OK
 
 
@@ -255,7 +319,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         args = parser.parse_args(argv)
         if args.command is None:
             raise UsageProblem("command", "is missing", "run `prefit check TABLE --target COLUMN`, `prefit rules` or `prefit why`")
-        handler = {"check": _command_check, "rules": _command_rules, "why": _command_why}[args.command]
+        handler = {"check": _command_check, "rules": _command_rules, "why": _command_why, "schema": _command_schema, "init": _command_init}[args.command]
         return handler(args)
     except KeyboardInterrupt:
         _say("prefit: interrupted")

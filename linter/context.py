@@ -12,9 +12,9 @@ import pyarrow as pa
 from .design import Design, build_design
 from .findings import MAX_LISTED_ROWS, RowLabel
 from .options import CheckOptions
-from .passes import TableStatistics, row_labels
+from .passes import IndicatorFactor, TableStatistics, row_labels
 from .reading import TableInfo
-from .roles import Kind, Roles, numeric_values
+from .roles import Kind, Roles, group_labels, numeric_values
 from .rule import top_rows
 from .scoring import ScoredRows, ScoreTable, score_rows
 from .stats.blas import one_blas_thread
@@ -22,6 +22,7 @@ from .stats.collinearity import Collinearity
 from .stats.curvature import CurvatureCheck, curvature_checks
 from .stats.factor import DesignFactor
 from .stats.fit import PreliminaryFit, RowScores
+from .stats.grouping import BETWEEN_ONLY, GroupFactors, GroupRows
 from .stats.influence import RowInfluence, row_influence
 from .stats.mergeable import Moments
 from .stats.missingness import Holes
@@ -41,7 +42,8 @@ class RunContext:
     row batches (stream and Dask engines): the column summaries and the R
     factor come from them instead of from ``table``. ``file_positions`` maps
     the rows of ``table`` to their positions in the file when ``table`` is a
-    sample of it.
+    sample of it; ``table_model`` then holds the whole table's pass-1 factor,
+    whose per-group factors the grouping rules read instead of the sample's.
     """
 
     table: pa.Table
@@ -52,6 +54,7 @@ class RunContext:
     score: ScoreTable | None = None
     statistics: TableStatistics | None = field(default=None, repr=False)
     file_positions: np.ndarray | None = field(default=None, repr=False)
+    table_model: IndicatorFactor | None = field(default=None, repr=False)
     _summaries: dict[str, ColumnSummary] = field(default_factory=dict, init=False, repr=False)
     _text_numbers: dict[str, TextNumbers] = field(default_factory=dict, init=False, repr=False)
     _values: dict[str, np.ndarray] = field(default_factory=dict, init=False, repr=False)
@@ -82,6 +85,46 @@ class RunContext:
         return PreliminaryFit(self.factor, tss, self.options.intercept, self.design.X, y)
 
     @cached_property
+    def group_rows(self) -> GroupRows | None:
+        """The group of each complete case (None without grouping: no ``--group`` and no repeating ``--id``)."""
+        if self.roles.group is None:
+            return None
+        labels = group_labels(self.table.column(self.roles.group))
+        positions = self.design.positions
+        return GroupRows.of([labels[int(p)] for p in positions])
+
+    @cached_property
+    def group_factors(self) -> GroupFactors | None:
+        """Per group of complete cases: rows, means and centred R factor of ``[design | target]``; O(n p^2).
+
+        From the merged pass-1 statistics when the engine computed them (every
+        row of the table, whatever the rules see), else from the design.
+        """
+        if self.roles.group is None:
+            return None
+        model = self.statistics.model if self.statistics is not None else self.table_model
+        if model is not None and model.groups is not None:
+            return model.design_groups(self.design.terms)
+        rows = self.group_rows
+        assert rows is not None
+        with one_blas_thread():
+            return GroupFactors.of(self.design.X, self.design.y, rows)
+
+    @cached_property
+    def between_group_columns(self) -> tuple[str, ...]:
+        """Predictors constant within every group, but not overall (site facts repeated on each site-day); empty without grouping."""
+        factors = self.group_factors
+        if factors is None:
+            return ()
+        share = factors.within_share()
+        design = self.design
+        constant: dict[str, bool] = {}
+        for j, (name, source) in enumerate(zip(design.column_names, design.column_sources)):
+            if source in self.roles.predictors:
+                constant[source] = constant.get(source, True) and not np.nan_to_num(share[j], nan=1.0) > BETWEEN_ONLY
+        return tuple(name for name, flag in constant.items() if flag)
+
+    @cached_property
     def collinearity(self) -> Collinearity:
         """VIFs, predictor correlations and condition indices of the estimable design, from :attr:`factor`; O(p^3)."""
         return Collinearity.of(self.design, self.factor)
@@ -105,16 +148,21 @@ class RunContext:
     def robust_columns(self) -> RobustColumns:
         """The numeric predictors over the complete cases, without those whose MAD is zero, with each one's median and MAD.
 
+        With grouped rows the predictors constant within groups are left out:
+        they hold one value per group, repeated on its rows, and are measured
+        one point per group by ``grouping.group-outliers``.
+
         The medians and MADs are the shared whole-column ones
         (:meth:`median_and_mad`), so a row called unremarkable in every single
         column is one that ``outliers.univariate`` does not flag.
         """
         design = self.design
-        names = design.column_names
-        chosen = [c for c in self.numeric_predictors if c in names]
+        index = design.column_index
+        repeated = set(self.between_group_columns)
+        chosen = [c for c in self.numeric_predictors if c in index and c not in repeated]
         if not chosen:
             return RobustColumns((), np.empty((design.n, 0)), np.empty(0), np.empty(0))
-        indices = [names.index(c) for c in chosen]
+        indices = [index[c] for c in chosen]
         consecutive = indices == list(range(indices[0], indices[0] + len(indices)))
         data = design.X[:, indices[0] : indices[0] + len(indices)] if consecutive else design.X[:, indices]
         spread = np.array([self.median_and_mad(c) for c in chosen]).reshape(-1, 2)
@@ -177,11 +225,12 @@ class RunContext:
         whole-column pass read the entire matrix.
         """
         design = self.design
-        term = design.term(design.column_sources[design.column_names.index(name)])
+        index = design.column_index[name]
+        term = design.term(design.column_sources[index])
         if term.kind in (Kind.NUMERIC, Kind.DATETIME) and term.reference is None:
             values = self.values(term.source)
             return values if design.n == values.size else values[design.positions]
-        return np.ascontiguousarray(design.X[:, design.column_names.index(name)])
+        return np.ascontiguousarray(design.X[:, index])
 
     @cached_property
     def holes(self) -> Holes:
@@ -212,6 +261,14 @@ class RunContext:
     def target_is_numeric(self) -> bool:
         """Whether the target can enter a least-squares fit (numeric or true/false)."""
         return self.roles.kinds[self.roles.target] in (Kind.NUMERIC, Kind.BOOLEAN)
+
+    @property
+    def value_screened_columns(self) -> tuple[str, ...]:
+        """The columns ``outliers.univariate`` measures value by value: a numeric target and the numeric predictors,
+        without those constant within groups (one value per group, measured one point per group instead)."""
+        repeated = set(self.between_group_columns)
+        target = [self.roles.target] if self.roles.kinds[self.roles.target] is Kind.NUMERIC else []
+        return tuple(target + [c for c in self.numeric_predictors if c not in repeated])
 
     @property
     def model_columns(self) -> tuple[str, ...]:

@@ -3,15 +3,15 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Callable, Mapping
 
 import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from .roles import INTERCEPT as INTERCEPT
 from .roles import Kind, Roles, label_values, numeric_values
-
-INTERCEPT = "(intercept)"
 
 
 @dataclass(frozen=True)
@@ -59,22 +59,28 @@ class Design:
         """Estimated parameters, the intercept and every dummy included."""
         return int(self.X.shape[1])
 
-    @property
+    @cached_property
     def column_names(self) -> tuple[str, ...]:
         """Names of the design columns, in order."""
         return tuple(c for t in self.terms for c in t.columns)
 
-    @property
+    @cached_property
     def column_sources(self) -> tuple[str, ...]:
         """For each design column, the table column (or the intercept) it comes from."""
         return tuple(t.source for t in self.terms for _ in t.columns)
 
+    @cached_property
+    def column_index(self) -> Mapping[str, int]:
+        """Each design column's position, by name."""
+        return {name: j for j, name in enumerate(self.column_names)}
+
+    @cached_property
+    def _terms_by_source(self) -> Mapping[str, Term]:
+        return {t.source: t for t in self.terms}
+
     def term(self, source: str) -> Term:
         """The term built from table column ``source``."""
-        for t in self.terms:
-            if t.source == source:
-                return t
-        raise KeyError(source)
+        return self._terms_by_source[source]
 
     def describe(self) -> dict[str, object]:
         """The hidden choices, said out loud for every report."""

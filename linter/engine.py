@@ -31,10 +31,10 @@ class RuleOutcome:
 
 def select_rules(registry: Registry, options: CheckOptions) -> list[tuple[RuleLike, RuleSettings]]:
     """The rules to run, each with its configured settings, in id order."""
-    families = set(registry.families())
+    families = registry.families()
     for wanted in (*options.skip_rules, *options.rules):
         if registry.get(wanted) is None and wanted not in families:
-            raise UsageProblem(f"rule {wanted!r}", "is not a known rule or family", closest_names(wanted, sorted(registry.rules)) + "; `prefit rules` lists them")
+            raise UsageProblem(f"rule {wanted!r}", "is not a known rule or family", closest_names(wanted, sorted(registry.rules) + families, kind="rules and families") + "; `prefit rules` lists them")
     chosen: list[tuple[RuleLike, RuleSettings]] = []
     for rule in registry:
         if rule.id in options.skip_rules or rule_family(rule.id) in options.skip_rules:
@@ -78,7 +78,7 @@ def run_rule(rule: RuleLike, settings: RuleSettings, context: RunContext, debug:
     quiet = nullcontext() if debug else np.errstate(all="ignore")
     try:
         with quiet:
-            _require(rule, context)
+            require_fit(rule, context)
             produced = list(rule.check(context, settings))
         for item in produced:
             if not isinstance(item, Finding):
@@ -95,7 +95,7 @@ def run_rule(rule: RuleLike, settings: RuleSettings, context: RunContext, debug:
     return RuleOutcome(rule.id, kept)
 
 
-def _require(rule: RuleLike, context: RunContext) -> None:
+def require_fit(rule: RuleLike, context: RunContext) -> None:
     """Raise NotApplicable when a per-row diagnostic of the fit has no fit to diagnose."""
     needs: frozenset[str] = getattr(rule, "needs", frozenset())
     if not {"rows", "fit"} <= needs:

@@ -252,6 +252,7 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
         context.statistics = statistics
         return context, EngineRun(runner.name, kept.seen, kept.seen, statistics.model.rows)
     context.file_positions = kept.positions
+    context.table_model = statistics.model
     screens: tuple[MeasureScreen, ...] = ()
     fit = whole_fit(statistics, roles.kinds, intercept) if context.target_is_numeric else None
     if fit is not None and not (fit.rank > 0 and fit.df_resid > 1):
@@ -270,9 +271,7 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
 
 def column_fences(context: RunContext) -> ColumnFences | None:
     """The sample's median and MAD of each column ``outliers.univariate`` measures (those with a nonzero MAD), or None."""
-    target = context.roles.target
-    names = ([target] if context.roles.kinds[target] is Kind.NUMERIC else []) + list(context.numeric_predictors)
-    spreads = [(name, *context.median_and_mad(name)) for name in names]
+    spreads = [(name, *context.median_and_mad(name)) for name in context.value_screened_columns]
     kept = [(name, median, mad) for name, median, mad in spreads if np.isfinite(mad) and mad > 0]
     if not kept:
         return None

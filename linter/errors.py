@@ -21,15 +21,15 @@ class PluginProblem(UsageProblem):
     """A rule plugin that cannot be loaded or does not honour the rule contract."""
 
 
-def closest_names(wanted: str, names: list[str], limit: int = 3) -> str:
-    """A hint such as ``closest: 'energy_kwh', 'energy'`` for an unknown name."""
+def closest_names(wanted: str, names: list[str], limit: int = 3, kind: str = "columns") -> str:
+    """A hint such as ``closest: 'energy_kwh', 'energy'`` for an unknown name, else the known ``kind`` (a plural noun)."""
     import difflib
 
-    close = difflib.get_close_matches(wanted, names, n=limit, cutoff=0.4)
+    close = difflib.get_close_matches(wanted, names, n=limit, cutoff=0.6)
     if not close:
         lowered = {n.lower(): n for n in names}
         close = [lowered[wanted.lower()]] if wanted.lower() in lowered else []
     if close:
         return "closest: " + ", ".join(repr(c) for c in close)
     shown = ", ".join(repr(n) for n in names[:8])
-    return f"columns are {shown}" + (" ..." if len(names) > 8 else "")
+    return f"{kind} are {shown}" + (" ..." if len(names) > 8 else "")

@@ -4,13 +4,18 @@ from __future__ import annotations
 
 import enum
 import math
-from dataclasses import dataclass, field, fields, replace
+from dataclasses import dataclass, field, replace
 from typing import Any, Mapping, Sequence
 
 JSONScalar = str | int | float | bool | None
 RowLabel = str | int
 
-MAX_LISTED_ROWS = 50
+MAX_LISTED_ROWS = 10_000
+"""The most row labels one finding lists (the most extreme first); far above what a finding names in typical use.
+
+Text, Markdown and HTML show the first few; JSON, SARIF and fingerprints keep every listed row. A finding that
+concerns more rows says so: ``row_count`` is the total and ``rows_capped`` is true in the JSON report.
+"""
 
 
 class Grade(enum.IntEnum):
@@ -25,6 +30,9 @@ class Grade(enum.IntEnum):
     def word(self) -> str:
         """The grade as printed and written in every report."""
         return self.name.lower()
+
+    def __str__(self) -> str:
+        return self.word
 
     @classmethod
     def parse(cls, word: str) -> "Grade":
@@ -45,6 +53,11 @@ GRADE_MEANINGS: Mapping[Grade, str] = {
     Grade.WEAKENS: "precision, power or generality suffer",
     Grade.NOTE: "worth knowing; no action needed",
 }
+
+
+def counted(count: int, noun: str, plural: str | None = None) -> str:
+    """``1 row``, ``12 rows``, ``1,204 dummies`` (``plural`` for nouns that do not just add an s)."""
+    return f"{count:,} {noun if count == 1 else (plural or noun + 's')}"
 
 
 def json_number(value: float | int | None) -> float | int | None:
@@ -130,6 +143,7 @@ class Finding:
             "rows": list(self.rows),
             "row_values": [json_number(v) for v in self.row_values],
             "row_count": self.row_count,
+            "rows_capped": self.row_count > len(self.rows) > 0,
             "value": json_number(self.value),
             "threshold": json_number(self.threshold),
             "message": self.message,
@@ -137,28 +151,6 @@ class Finding:
             "source": self.source,
             "details": plain_json(self.details),
         }
-
-    @classmethod
-    def from_dict(cls, data: Mapping[str, Any]) -> "Finding":
-        """Rebuild a finding written by :meth:`to_dict`."""
-        known = {f.name for f in fields(cls)}
-        unknown = set(data) - known
-        if unknown:
-            raise ValueError(f"finding has unknown keys: {', '.join(sorted(unknown))}")
-        return cls(
-            rule=data["rule"],
-            grade=Grade.parse(data["grade"]),
-            message=data["message"],
-            columns=tuple(data.get("columns", ())),
-            rows=tuple(data.get("rows", ())),
-            row_values=tuple(data.get("row_values", ())),
-            row_count=int(data.get("row_count", 0)),
-            value=data.get("value"),
-            threshold=data.get("threshold"),
-            source=data.get("source", ""),
-            remedy=data.get("remedy", ""),
-            details=dict(data.get("details", {})),
-        )
 
 
 def count_by_grade(findings: Sequence[Finding]) -> dict[str, int]:

@@ -39,6 +39,11 @@ class CheckOptions:
     anticipated_r2: float | None = None
     score: str | None = None
     order: str | None = None
+    group: str | None = None
+    purpose: str = "explain"
+
+
+PURPOSES = ("explain", "predict")
 
 
 def _as_text(value: Any, where: str) -> str:
@@ -97,6 +102,13 @@ def _as_share(value: Any, where: str) -> float:
     if not 0.0 < number < 1.0:
         raise UsageProblem(where, f"must lie strictly between 0 and 1, got {number:g}", "write e.g. 0.6")
     return number
+
+
+def _as_purpose(value: Any, where: str) -> str:
+    text = _as_text(value, where).strip().lower()
+    if text not in PURPOSES:
+        raise UsageProblem(where, f"must be one of {', '.join(PURPOSES)}, got {value!r}", "write explain (coefficients read as effects) or predict (new rows scored)")
+    return text
 
 
 def _as_ranges(value: Any, where: str) -> dict[str, tuple[float, float]]:
@@ -165,8 +177,10 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("predictors", "predictors", _as_names, "exactly these predictors"),
     Setting("categorical", "categorical", _as_names, "numeric columns to treat as categories"),
     Setting("intercept", "intercept", _as_bool, "whether the model has an intercept"),
-    Setting("gate", "gate", _as_grade, "the weakest grade that fails the check"),
-    Setting("skip-rules", "skip_rules", _as_names, "rule ids (or families) not to run"),
+    Setting("fail-at", "gate", _as_grade, "the weakest grade that fails the check (as --fail-at)"),
+    Setting("skip", "skip_rules", _as_names, "rule ids (or families) not to run (as --skip)"),
+    Setting("gate", "gate", _as_grade, "older spelling of fail-at, kept for one release"),
+    Setting("skip-rules", "skip_rules", _as_names, "older spelling of skip, kept for one release"),
     Setting("rule", "rules", _as_rules, "per-rule thresholds, grade, exempt columns, enabled"),
     Setting("missing-codes", "missing_codes", _as_codes, "per-column values that mean missing ('*' for all)"),
     Setting("sep", "sep", _as_text, "the delimiter of text tables"),
@@ -175,6 +189,8 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("anticipated-r2", "anticipated_r2", _as_share, "the R-squared expected of the model, for sample-size planning"),
     Setting("score", "score", _as_text, "a table of new rows the model will be asked to predict"),
     Setting("order", "order", _as_text, "a column giving the rows' time order, for the autocorrelation preview"),
+    Setting("purpose", "purpose", _as_purpose, "what the model is for: explain (read its coefficients) or predict (score new rows)"),
+    Setting("group", "group", _as_text, "a column whose equal values mark rows of one group (site, customer, machine); \"none\" turns grouping off"),
 )
 SETTINGS_BY_KEY: Mapping[str, Setting] = {s.key: s for s in SETTINGS}
 
@@ -182,11 +198,14 @@ SETTINGS_BY_KEY: Mapping[str, Setting] = {s.key: s for s in SETTINGS}
 def parse_settings(raw: Mapping[str, Any], where: str) -> dict[str, Any]:
     """Check a configuration table against :data:`SETTINGS`; return CheckOptions field values."""
     values: dict[str, Any] = {}
+    for old, new in (("gate", "fail-at"), ("skip-rules", "skip")):
+        if old in raw and new in raw:
+            raise UsageProblem(f"{where}: keys {new!r} and {old!r}", "both set the same thing", f"keep {new!r} (the older {old!r} goes after this release)")
     for key, value in raw.items():
         setting = SETTINGS_BY_KEY.get(key)
         if setting is None:
             raise UsageProblem(
-                f"{where}: key {key!r}", "is not a prefit setting", closest_names(key, list(SETTINGS_BY_KEY)).replace("closest", "known keys close to it")
+                f"{where}: key {key!r}", "is not a prefit setting", closest_names(key, list(SETTINGS_BY_KEY), kind="keys").replace("closest", "known keys close to it")
             )
         values[setting.field] = setting.parse(value, f"{where}: {key}")
     return values

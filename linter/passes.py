@@ -4,7 +4,9 @@ Pass 1 (:func:`first_pass`) tallies every column, counts missing-value
 patterns and accumulates the R factor of the complete rows with every level
 of every category as its own indicator column; the treatment coding (whose
 reference level is the most frequent one among complete rows, known only at
-the end) is then a choice of columns of that factor. Pass 2
+the end) is then a choice of columns of that factor; with grouped rows it
+also accumulates each group's centred factor in the same columns
+(:class:`prefit.stats.grouping.GroupFactors`). Pass 2
 (:func:`second_pass`) scores every complete row against the fit pass 1 fixed
 and keeps the counts beyond each cutoff and the most extreme rows.
 Merging the statistics of the batches of a table, in table order, gives
@@ -20,9 +22,10 @@ import numpy as np
 import pyarrow as pa
 
 from .design import INTERCEPT, ModelColumns, Term, treatment_term
-from .roles import Kind, Roles, label_values
+from .roles import Kind, Roles, group_labels, label_values
 from .stats.factor import DesignFactor
 from .stats.fit import PreliminaryFit
+from .stats.grouping import GroupFactors, GroupRows
 from .stats.influence import row_influence
 from .stats.mergeable import Moments, TriangularFactor, triangular
 from .stats.robust import MODIFIED_Z_LIMIT, modified_z, squared_distances
@@ -57,19 +60,21 @@ class IndicatorFactor:
     level_counts: Mapping[str, Mapping[str, int]]
     factor: TriangularFactor
     target: Moments
+    groups: GroupFactors | None = None
 
     @classmethod
-    def of(cls, columns: ModelColumns, roles: Roles, intercept: bool) -> "IndicatorFactor":
-        """The factor of one batch's complete rows."""
+    def of(cls, columns: ModelColumns, roles: Roles, intercept: bool, groups_of_rows: Sequence[str] | None = None) -> "IndicatorFactor":
+        """The factor of one batch's complete rows; with ``groups_of_rows`` (each batch row's group) also the per-group factors."""
         levels: dict[str, tuple[str, ...]] = {}
         counts: dict[str, dict[str, int]] = {}
         for name, (codes, labels) in columns.categories.items():
             tally = np.bincount(codes[columns.complete], minlength=len(labels))
             counts[name] = {labels[i]: int(c) for i, c in enumerate(tally) if c > 0}
             levels[name] = tuple(sorted(counts[name]))
-        X, y, _ = columns.coded(roles, intercept, levels)
+        X, y, positions = columns.coded(roles, intercept, levels)
         block = np.column_stack([X, y])
-        return cls(roles.predictors, intercept, levels, counts, TriangularFactor.of(block), Moments.of(y))
+        groups = None if groups_of_rows is None else GroupFactors.of(X, y, GroupRows.of([groups_of_rows[int(p)] for p in positions]))
+        return cls(roles.predictors, intercept, levels, counts, TriangularFactor.of(block), Moments.of(y), groups)
 
     def layout(self) -> dict[tuple[str, str | None], int]:
         """The column index of each (predictor, level) pair; numeric predictors have level None, the target is last."""
@@ -89,17 +94,22 @@ class IndicatorFactor:
         union = merged.layout()
         width = len(union) + 1
         stacked = np.vstack([part._placed(union, width) for part in (self, other)])
+        groups = None
+        if self.groups is not None and other.groups is not None:
+            groups = self.groups.placed(self._destination(union, width), width).merge(other.groups.placed(other._destination(union, width), width))
         return IndicatorFactor(
             self.predictors, self.intercept, levels, counts,
             TriangularFactor(triangular(stacked), self.factor.rows + other.factor.rows),
             merged.target,
+            groups,
         )
+
+    def _destination(self, union: Mapping[tuple[str, str | None], int], width: int) -> list[int]:
+        return [union[key] for key in self.layout()] + [width - 1]
 
     def _placed(self, union: Mapping[tuple[str, str | None], int], width: int) -> np.ndarray:
         placed = np.zeros((self.factor.r.shape[0], width))
-        own = self.layout()
-        destination = [union[key] for key in own] + [width - 1]
-        placed[:, destination] = self.factor.r
+        placed[:, self._destination(union, width)] = self.factor.r
         return placed
 
     @property
@@ -124,12 +134,8 @@ class IndicatorFactor:
                 terms.append(treatment_term(name, kinds[name], self.level_counts[name]))
         return tuple(terms)
 
-    def design_factor(self, terms: Sequence[Term]) -> DesignFactor:
-        """The pivoted QR factor of the treatment-coded design: the R of the chosen columns, re-factored and unit-scaled.
-
-        ``X[:, S] = Q R[:, S]``, so the R factor of any column subset follows
-        from this one; column norms of R are those of the design.
-        """
+    def _chosen(self, terms: Sequence[Term]) -> list[int]:
+        """The columns of the treatment-coded design in this factor's layout, then the target's."""
         index = self.layout()
         chosen: list[int] = []
         for term in terms:
@@ -140,6 +146,19 @@ class IndicatorFactor:
             else:
                 chosen.extend(index[(term.source, level)] for level in term.levels)
         chosen.append(len(index))
+        return chosen
+
+    def design_groups(self, terms: Sequence[Term]) -> GroupFactors | None:
+        """The per-group factors of the treatment-coded design and the target (None when pass 1 kept no groups)."""
+        return None if self.groups is None else self.groups.select(self._chosen(terms))
+
+    def design_factor(self, terms: Sequence[Term]) -> DesignFactor:
+        """The pivoted QR factor of the treatment-coded design: the R of the chosen columns, re-factored and unit-scaled.
+
+        ``X[:, S] = Q R[:, S]``, so the R factor of any column subset follows
+        from this one; column norms of R are those of the design.
+        """
+        chosen = self._chosen(terms)
         r = triangular(self.factor.r[:, chosen])
         p = len(chosen) - 1
         norms = np.sqrt(np.einsum("ij,ij->j", r[:, :p], r[:, :p]))
@@ -179,7 +198,8 @@ def first_pass(batch: pa.Table, roles: Roles, intercept: bool, tallies: bool = T
     only the factor of the whole table, so the engines leave the tallies out.
     """
     counts = {name: ColumnTally.of(batch.column(name), roles.kinds[name], cap=0) for name in batch.column_names} if tallies else {}
-    return TableStatistics(batch.num_rows, counts, IndicatorFactor.of(ModelColumns.of(batch, roles), roles, intercept))
+    labels = group_labels(batch.column(roles.group)) if roles.group is not None else None
+    return TableStatistics(batch.num_rows, counts, IndicatorFactor.of(ModelColumns.of(batch, roles), roles, intercept, labels))
 
 
 class Mergeable(Protocol):

@@ -18,6 +18,8 @@ from .stats.textnumbers import numbers_as_text_reason
 FREE_TEXT_MIN_LEVELS = 50
 FREE_TEXT_LEVEL_SHARE = 0.5
 IDENTIFIER_MIN_ROWS = 20
+INTERCEPT = "intercept"
+"""The name of the model's constant term in the design, equations and reports."""
 
 
 class Kind(enum.Enum):
@@ -43,6 +45,8 @@ class Roles:
     kinds: Mapping[str, Kind]
     left_out: Mapping[str, str] = field(default_factory=dict)
     declared_categorical: tuple[str, ...] = ()
+    group: str | None = None
+    group_origin: str | None = None
 
 
 def _is_text_type(t: pa.DataType) -> bool:
@@ -157,17 +161,22 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
     """Decide target, id and predictors from the options and the columns' kinds."""
     names = list(table.column_names)
     if options.target is None:
-        raise UsageProblem("--target", "is required", f"name the response column, e.g. --target {names[-1]!r}")
-    _require_columns(names, (options.target,), "--target")
+        usable = target_candidates(table)
+        example = f"e.g. --target {usable[-1]!r}" if usable else "no column of this table holds numbers"
+        raise UsageProblem("--target", "is required", f"name the response column, {example}")
+    if options.target not in names:
+        usable = target_candidates(table)
+        raise UsageProblem("--target", f"{options.target!r} is not a column of the table", closest_names(options.target, usable or names, kind="numeric columns"))
     if options.id is not None:
         _require_columns(names, (options.id,), "--id")
     _require_columns(names, options.exclude, "--exclude")
     _require_columns(names, options.categorical, "--categorical")
     if options.order is not None:
         _require_columns(names, (options.order,), "--order")
+    group, group_origin = _group_column(table, options)
     if options.predictors is not None:
         _require_columns(names, options.predictors, "--predictors")
-        for special, flag in ((options.target, "--target"), (options.id, "--id")):
+        for special, flag in ((options.target, "--target"), (options.id, "--id"), (group, "--group")):
             if special in options.predictors:
                 raise UsageProblem("--predictors", f"lists {special!r}, which is the {flag} column", "remove it from --predictors")
     _check_conflicts(names, options)
@@ -182,7 +191,7 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
     else:
         chosen: list[str] = []
         for name in names:
-            if name in (options.target, options.id) or name in options.exclude:
+            if name in (options.target, options.id, group) or name in options.exclude:
                 continue
             kind = kinds[name]
             numbers_reason = numbers_as_text_reason(table.column(name)) if kind in (Kind.TEXT, Kind.CATEGORICAL) and name not in declared else None
@@ -192,9 +201,15 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
                 left_out[name] = _text_reason(table.column(name))
             elif kind is Kind.DATETIME:
                 left_out[name] = "a date or time: its raw value is not a predictor; derive a trend, season or weekday column, or use it to order rows"
+            elif kind is Kind.NUMERIC and (index_reason := _numeric_index_reason(table.column(name))) is not None:
+                left_out[name] = index_reason
             else:
                 chosen.append(name)
         predictors = tuple(chosen)
+    if options.intercept and INTERCEPT in predictors:
+        raise UsageProblem(
+            f"column {INTERCEPT!r}", "has the name of the model's constant term", f"rename the column, --exclude {INTERCEPT}, or add --no-intercept"
+        )
     return Roles(
         target=options.target,
         id=options.id,
@@ -202,7 +217,62 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
         kinds=kinds,
         left_out=left_out,
         declared_categorical=tuple(options.categorical),
+        group=group,
+        group_origin=group_origin,
     )
+
+
+NO_GROUP = "none"
+
+
+def _group_column(table: pa.Table, options: CheckOptions) -> tuple[str | None, str | None]:
+    """The column whose equal values mark a group of rows, and where that choice came from.
+
+    ``--group COL`` names it (``--group none`` turns grouping off); without
+    it a ``--id`` column whose values repeat is the group (one row per site
+    and day: the site).
+    """
+    if options.group is not None:
+        if options.group.strip().lower() == NO_GROUP:
+            return None, None
+        _require_columns(list(table.column_names), (options.group,), "--group")
+        if options.group == options.target:
+            raise UsageProblem("--group", f"names the --target column {options.target!r}", "name the column that marks each row's site, customer or machine")
+        return options.group, "--group"
+    if options.id is not None and distinct_labels(table.column(options.id)) < table.num_rows:
+        return options.id, "the repeating --id"
+    return None, None
+
+
+def target_candidates(table: pa.Table) -> list[str]:
+    """Columns that could be a least-squares response: numeric, and neither row numbers nor whole-number dates."""
+    return [
+        name
+        for name in table.column_names
+        if infer_kind(table.column(name), False) is Kind.NUMERIC and _numeric_index_reason(table.column(name)) is None
+    ]
+
+
+def _numeric_index_reason(column: pa.ChunkedArray) -> str | None:
+    """Why a numeric column is an index rather than a measurement: row numbers or whole-number dates; None otherwise.
+
+    Row numbers are the whole numbers 1..n (or 0..n-1) in any order, one per row; whole-number dates read as
+    YYYYMMDD with a real month and day on every row (common practice for exports from spreadsheets and databases).
+    """
+    if column.null_count or len(column) < IDENTIFIER_MIN_ROWS or not pa.types.is_integer(column.type):
+        return None
+    values = np.asarray(pc.cast(column, pa.int64()).to_numpy(zero_copy_only=False))
+    low, high = int(values.min()), int(values.max())
+    if low in (0, 1) and high - low == values.size - 1 and np.unique(values).size == values.size:
+        return f"row numbers ({low}..{high}, one per row): an index of the rows, not a property of them; use it as --id or --order"
+    if 1000_01_01 <= low and high <= 2999_12_31:
+        month, day = (values // 100) % 100, values % 100
+        if np.all((month >= 1) & (month <= 12) & (day >= 1) & (day <= 31)):
+            return (
+                f"whole numbers that read as dates (YYYYMMDD, {low} to {high}): their raw value is not a predictor; "
+                "convert the column to a date, then derive a trend or season, or use it to order rows"
+            )
+    return None
 
 
 def _text_reason(column: pa.ChunkedArray) -> str:
@@ -226,8 +296,10 @@ def numeric_values(column: pa.ChunkedArray) -> np.ndarray:
         return np.asarray(seconds.to_numpy(zero_copy_only=False), dtype=np.float64) / 86400.0
     if pa.types.is_boolean(t):
         column = pc.cast(column, pa.int8())
-    # Integers beyond 2**53 round to the nearest double, as every statistics package does.
-    values = pc.cast(column, pa.float64(), safe=False).to_numpy(zero_copy_only=False)
+    # Integers beyond 2**53 round to the nearest double, as every statistics package does. A float64 column is
+    # converted directly: the cast's result converts about a hundred times slower for short columns.
+    floats = column if pa.types.is_float64(t) else pc.cast(column, pa.float64(), safe=False)
+    values = floats.to_numpy(zero_copy_only=False)
     return np.asarray(values, dtype=np.float64)
 
 
@@ -252,6 +324,14 @@ def label_values(column: pa.ChunkedArray) -> list[str | None]:
     if pa.types.is_floating(column.type):
         return [None if v is None else _float_label(v) for v in column.to_pylist()]
     return [None if v is None else (v if isinstance(v, str) else str(v)) for v in column.to_pylist()]
+
+
+MISSING_GROUP = "(missing)"
+
+
+def group_labels(column: pa.ChunkedArray) -> list[str]:
+    """A group column as text labels, a missing value being a group of its own (:data:`MISSING_GROUP`)."""
+    return [MISSING_GROUP if v is None else v for v in label_values(column)]
 
 
 def _float_label(value: float) -> str:

@@ -8,6 +8,7 @@ from typing import (
     TYPE_CHECKING,
     Any,
     Callable,
+    Collection,
     Iterable,
     Mapping,
     Protocol,
@@ -179,9 +180,15 @@ class RuleSettings:
         """The value of the threshold called ``name``."""
         return self.threshold(name).value
 
-    def grade_of(self, measured: float) -> tuple[Grade, Threshold] | None:
-        """The strongest grade whose threshold ``measured`` crosses, with that threshold."""
-        crossed = [t for t in self.thresholds if t.grade is not None and t.crossed(measured)]
+    def grade_of(self, measured: float, among: Collection[str] | None = None) -> tuple[Grade, Threshold] | None:
+        """The strongest grade whose threshold ``measured`` crosses, with that threshold.
+
+        ``among``, when given, names the graded thresholds that apply (a rule
+        whose limits depend on a setting, such as the model's purpose).
+        """
+        crossed = [
+            t for t in self.thresholds if t.grade is not None and (among is None or t.name in among) and t.crossed(measured)
+        ]
         if not crossed:
             return None
         worst = max(crossed, key=lambda t: int(t.grade or 0))
@@ -244,3 +251,32 @@ def fmt(value: float, digits: int = 3) -> str:
         decimals = max(0, digits - 1 - int(np.floor(np.log10(magnitude))))
         return f"{value:,.{decimals}f}"
     return f"{value:.{digits - 1}e}"
+
+
+LISTED_NAMES = 10
+
+
+def capped_names(names: Sequence[str], limit: int = LISTED_NAMES) -> str:
+    """Names for a message or a text report: all of them up to ``limit``, else the first few and a count of the rest.
+
+    ``x1, x2, x3`` for three names; ``x0001, x0002, ..., x0008 and 992 more``
+    beyond the limit, so a wide table's report stays readable (the JSON
+    report's ``columns`` keep the complete list).
+    """
+    if len(names) <= limit:
+        return ", ".join(names)
+    shown = max(limit - 2, 1)
+    return ", ".join(names[:shown]) + f", ... and {len(names) - shown:,} more"
+
+
+def meaningful_ratio(value: float, reference: float, scale: float) -> float | None:
+    """``value / reference``, or None when the ratio would mislead a reader.
+
+    A ratio to a reference within ``scale`` (a spread of the same column) of
+    zero is large only because the reference is about 0, and a negative or
+    undefined ratio reads as nonsense; messages then say the reference is about 0.
+    """
+    if reference == 0 or abs(reference) < scale:
+        return None
+    ratio = value / reference
+    return ratio if np.isfinite(ratio) and ratio > 0 else None

@@ -9,6 +9,7 @@ import numpy as np
 
 from prefit.context import RunContext
 from prefit.design import INTERCEPT
+from prefit.findings import counted
 from prefit.rule import RuleSettings, Threshold, fmt
 from prefit.stats.chance import ChanceCheck
 from prefit.stats.influence import GroupDeletion, deleted_variance, deletion_shift
@@ -26,7 +27,7 @@ GROUP_UNIT = "SE (of the fit without them)"
 
 def rows_text(count: int) -> str:
     """``1 row`` or ``12 rows``."""
-    return f"{count:,} row" if count == 1 else f"{count:,} rows"
+    return counted(count, "row")
 
 
 def beyond_chance(settings: RuleSettings, check: ChanceCheck) -> bool:

@@ -41,6 +41,7 @@ from prefit.stats.residual_tests import (
     SampledTest,
     breusch_godfrey,
     breusch_pagan,
+    breusch_pagan_and_spread,
     default_lags,
     jarque_bera,
     reset,
@@ -102,13 +103,28 @@ def _residual_after_bends(ctx: RunContext) -> tuple[np.ndarray, list[str], int]:
     return fit.residual, bent, fit.added_rank
 
 
+def _se_ratios(ctx: RunContext, residual: np.ndarray, df_resid: int) -> tuple[np.ndarray, list[int], int, float]:
+    """HC3 over usual standard errors from ``residual``: per column, the slopes compared, the worst slope and its change."""
+    fit, design = ctx.fit, ctx.design
+    usual = np.sqrt(np.diag(fit.cov_unscaled) * float(residual @ residual) / df_resid)
+    ratio = hc3_standard_errors(fit, design.X, residual, ctx.row_scores.hat) / usual
+    compared = worst_se_ratio(design.column_names, ratio)
+    if compared is None:
+        return ratio, [], -1, float("nan")
+    candidates, worst, change = compared
+    return ratio, candidates, worst, change
+
+
 def _heteroscedasticity(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     if not _fit_ready(ctx):
         return
     design, fit, scores = ctx.design, ctx.fit, ctx.row_scores
     X = design.X
     residual, bent, extra = _residual_after_bends(ctx)
-    koenker = breusch_pagan(ctx.factor, X, residual, design.intercept)
+    df_resid = fit.df_resid - extra
+    if df_resid <= 0:
+        return
+    koenker, spread_ratio = breusch_pagan_and_spread(ctx.factor, X, residual, design.intercept)
     intercept = _intercept_column(ctx)
     others = design.p - 1
     sampled: SampledTest | None = None
@@ -116,49 +132,81 @@ def _heteroscedasticity(ctx: RunContext, settings: RuleSettings) -> Iterator[Fin
         sampled = white_within_budget(ctx.factor, X, residual, intercept, design.positions)
     general = sampled.test if sampled else None
     p_value = min(koenker.p_value, general.p_value if general else 1.0)
+    before = None
     if not p_value < settings.limit("alpha"):
-        return
-    df_resid = fit.df_resid - extra
-    if df_resid <= 0:
-        return
-    usual = np.sqrt(np.diag(fit.cov_unscaled) * float(residual @ residual) / df_resid)
-    robust = hc3_standard_errors(fit, X, residual, scores.hat)
-    ratio = robust / usual
-    candidates = [j for j, name in enumerate(design.column_names) if name != INTERCEPT and np.isfinite(ratio[j]) and ratio[j] > 0]
-    if not candidates:
-        return
-    worst = max(candidates, key=lambda j: (max(ratio[j], 1 / ratio[j]), -j))
-    change = float(max(ratio[worst], 1 / ratio[worst]))
-    graded = settings.grade_of(change)
+        if not bent:
+            return
+        # The spread test after allowing for a bend is quiet; the model as specified (without the bend) may still
+        # have usual standard errors far off. Report that when the spread test before allowing for the bend agrees.
+        residual, df_resid = scores.residual, fit.df_resid
+        ratio, candidates, worst, change = _se_ratios(ctx, residual, df_resid)
+        if not candidates or not settings.threshold("misleads").crossed(change):
+            return
+        before = breusch_pagan(ctx.factor, X, residual, design.intercept)
+        if not before.p_value < settings.limit("alpha"):
+            return
+        spread_ratio = float("nan")
+    else:
+        ratio, candidates, worst, change = _se_ratios(ctx, residual, df_resid)
+        if not candidates:
+            return
+    by_errors = settings.grade_of(change, ("misleads", "weakens"))
+    by_spread = settings.grade_of(spread_ratio, ("spread-ratio",)) if np.isfinite(spread_ratio) else None
+    graded = max((g for g in (by_errors, by_spread) if g is not None), key=lambda g: (int(g[0]), g is by_errors), default=None)
     if graded is None:
         return
     grade, limit = graded
+    value = change if graded is by_errors else spread_ratio
     shares = _spread_share_by_term(ctx, residual**2)
     leader = max(shares, key=lambda name: (shares[name], name))
     coefficient = design.column_names[worst]
     direction = "too small" if ratio[worst] > 1 else "too large"
     white_text = f"; White LM = {fmt(general.statistic)} (df {general.df}, {_p(general.p_value)}{_on_rows(sampled, design.p)})" if general else ""
     after = f" (after allowing for the bend in {', '.join(bent)})" if bent else ""
+    tested = (
+        f"Breusch-Pagan (Koenker) LM = {fmt(koenker.statistic)} (df {koenker.df}, {_p(koenker.p_value)}){white_text}"
+        if before is None
+        else f"Breusch-Pagan (Koenker) LM = {fmt(before.statistic)} for the model as specified (df {before.df}, "
+        f"{_p(before.p_value)}; {_p(koenker.p_value)} once the bend in {', '.join(bent)} is allowed for)"
+    )
+    spread_text = (
+        f"; the residual SD where the spread is largest (a fifth of the rows) is {fmt(spread_ratio)} times that where it is smallest, "
+        "so one pooled SD gives prediction intervals too narrow there and weighted least squares would estimate the slopes more precisely"
+        if np.isfinite(spread_ratio)
+        else ""
+    )
     yield settings.finding(
         grade,
-        f"residual spread is not constant{after}: Breusch-Pagan (Koenker) LM = {fmt(koenker.statistic)} (df {koenker.df}, "
-        f"{_p(koenker.p_value)}){white_text}; the spread moves most with {leader} "
+        f"residual spread is not constant{after if before is None else ''}: {tested}; the spread moves most with {leader} "
         f"(R^2 of squared residuals on it {fmt(shares[leader], 2)}); the usual standard error of {coefficient} is {direction}: "
-        f"HC3 gives {fmt(float(ratio[worst]))} times it",
+        f"HC3 gives {fmt(float(ratio[worst]))} times it{spread_text}",
         columns=[leader],
-        value=change,
+        value=value,
         threshold=limit,
         remedy=f"report heteroscedasticity-consistent (HC3) standard errors; or stabilise the variance (log of {ctx.roles.target}); "
-        f"or fit weighted least squares with weights that fall as {leader} grows",
+        f"or fit weighted least squares with {_weights_for(ctx, leader)}",
         details={
+            "graded_by": "se_ratio" if graded is by_errors else "spread_ratio",
             "breusch_pagan": _test_details(koenker),
+            "breusch_pagan_before_bends": _test_details(before) if before is not None else None,
             "white": _white_details(sampled, design.p) if sampled else None,
             "se_ratio_hc3_to_usual": {design.column_names[j]: float(ratio[j]) for j in candidates},
+            "spread_ratio": spread_ratio if np.isfinite(spread_ratio) else None,
             "spread_r_squared_by_predictor": shares,
             "alpha": settings.limit("alpha"),
             "after_bends_in": bent,
         },
     )
+
+
+def worst_se_ratio(names: Sequence[str], ratio: np.ndarray) -> tuple[list[int], int, float] | None:
+    """The slopes with a finite positive ratio of a robust to the usual standard error, the one furthest from 1, and
+    how far (the ratio or its inverse, whichever is larger); None when no slope has one."""
+    candidates = [j for j, name in enumerate(names) if name != INTERCEPT and np.isfinite(ratio[j]) and ratio[j] > 0]
+    if not candidates:
+        return None
+    worst = max(candidates, key=lambda j: (max(ratio[j], 1 / ratio[j]), -j))
+    return candidates, worst, float(max(ratio[worst], 1 / ratio[worst]))
 
 
 def _row_sample_reason(sampled: SampledTest, p: int) -> str | None:
@@ -258,7 +306,7 @@ def _residual_normality(ctx: RunContext, settings: RuleSettings) -> Iterator[Fin
         if present
     )
     consequence = (
-        f"with {n:,} complete cases t-based intervals and p-values may be off, and prediction intervals are"
+        f"with {n:,} complete cases t-based intervals and p-values may be off, and so may prediction intervals"
         if grade is Grade.WEAKENS
         else f"with {n:,} complete cases the coefficients' intervals are protected by the central limit theorem, but prediction intervals are not"
     )
@@ -295,11 +343,18 @@ def order_column(ctx: RunContext) -> str | None:
 def _series_order(ctx: RunContext, when: np.ndarray) -> tuple[np.ndarray, np.ndarray | None]:
     """Complete cases with an order value, in time order, and the series code of each.
 
-    When the row labels repeat and several rows share a time (one row per
-    site and day), each label is its own series: rows are ordered by label,
-    then time, so that neighbours are the same site on consecutive days.
+    With grouped rows (``--group``, or a repeating ``--id``) each group is its
+    own series: rows are ordered by group, then time, so that neighbours are
+    the same site on consecutive days and no lag crosses a group boundary.
+    Without grouping, when the row labels repeat and several rows share a
+    time, each label is its own series likewise.
     """
     placed = np.flatnonzero(np.isfinite(when))
+    grouped = ctx.group_rows
+    if grouped is not None:
+        codes = grouped.codes[placed]
+        order = np.lexsort((when[placed], codes))
+        return placed[order], codes[order]
     if ctx.roles.id is not None and np.unique(when[placed]).size < placed.size:
         labels = np.array([str(ctx.row_label(int(p))) for p in ctx.design.positions[placed]])
         codes = np.unique(labels, return_inverse=True)[1]
@@ -321,6 +376,9 @@ def _autocorrelation(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
     if order.size < 10:
         return
     X, e = design.X[order], residual[order]
+    if ctx.group_rows is not None and groups is not None:
+        # A shared group effect is not serial correlation: the order within each group is read from deviations from its mean.
+        e = e - (np.bincount(groups, weights=e) / np.bincount(groups))[groups]
     factor = ctx.factor if order.size == design.n else DesignFactor.of(X, e)
     lags = default_lags(order.size, int(settings.limit("lags")))
     test = breusch_godfrey(factor, X, e, lags, design.intercept, groups)
@@ -334,7 +392,8 @@ def _autocorrelation(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
         return
     grade, limit = graded
     watson = durbin_watson(e, groups)
-    series = f" within each {ctx.roles.id}" if groups is not None else ""
+    series_by = ctx.roles.group or ctx.roles.id
+    series = f" within each {series_by}" if groups is not None else ""
     after = f" (after allowing for the bend in {', '.join(bent)})" if bent else ""
     yield settings.finding(
         grade,
@@ -349,7 +408,7 @@ def _autocorrelation(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
         f"seasonal terms in {column}; or model the errors (generalised least squares with autoregressive errors)",
         details={
             "order_column": column,
-            "series_by": ctx.roles.id if groups is not None else None,
+            "series_by": series_by if groups is not None else None,
             "series": int(np.unique(groups).size) if groups is not None else 1,
             "durbin_watson": watson,
             "autocorrelations": [float(c) for c in correlations],
@@ -366,10 +425,20 @@ AUTOCORRELATION_SOURCE = (
     "variance of its slope grows by (1 + rho) / (1 - rho), 1.86 at rho = 0.3 (AR(1) error formula)"
 )
 
+
+def _weights_for(ctx: RunContext, term: str) -> str:
+    """How weights should follow the term the spread moves with: by group for a two-valued one, else falling as it grows."""
+    column = ctx.design.X[:, ctx.design.column_names.index(term)] if term in ctx.design.column_names else None
+    if column is not None and np.unique(column).size <= 2:
+        return f"a separate residual variance (and weight) for each of the two values of {term}"
+    return f"weights that fall as {term} grows"
+
 RULES = [
     Rule(
         id="assumptions.heteroscedasticity",
-        summary="Residual spread that changes with the predictors (Breusch-Pagan and White tests), when it moves the usual standard errors.",
+        summary="Residual spread that changes with the predictors (Breusch-Pagan and White tests), when it moves the usual "
+        "standard errors (HC3 against usual) or the spread differs twofold between rows; a large standard-error ratio is "
+        "reported even when the test after allowing for bends is not significant.",
         why="The usual standard errors assume every row's error has the same variance. When the spread grows with a "
         "predictor (bigger sites vary more), least squares still gives unbiased coefficients, but the usual standard "
         "errors are wrong, so confidence intervals and p-values are too narrow or too wide, and rows with large "
@@ -380,10 +449,24 @@ RULES = [
         thresholds=(
             ALPHA,
             Threshold(
+                "misleads",
+                2.0,
+                "common practice: a standard error half its HC3 value turns a nominal 95% interval into about 68% coverage (normal "
+                "quantiles); HC3 as in Long & Ervin (2000), Am. Stat. 54(3)",
+                Grade.MISLEADS,
+            ),
+            Threshold(
                 "weakens",
                 1.2,
                 "common practice: a standard error 20% too small turns a nominal 95% interval into about 90% coverage (normal quantiles); "
                 "HC3 as in Long & Ervin (2000), Am. Stat. 54(3)",
+                Grade.WEAKENS,
+            ),
+            Threshold(
+                "spread-ratio",
+                2.0,
+                "common practice: group SDs within a factor of 2 (variances within 4) are tolerated by the pooled-variance "
+                "analysis (Moore & McCabe, Introduction to the Practice of Statistics, one-way ANOVA, from memory)",
                 Grade.WEAKENS,
             ),
         ),
@@ -410,13 +493,13 @@ RULES = [
         check=_residual_normality,
         thresholds=(
             ALPHA,
-            Threshold("skewness", 0.5, "common practice: |skewness| of 0.5 or more is at least moderate skew (Bulmer 1979, Principles of Statistics, from memory)"),
+            Threshold("skewness", 0.5, "common practice: |skewness| of 0.5 or more is at least moderate skew (Bulmer 1979, Principles of Statistics, p. 63, as quoted in secondary sources)"),
             Threshold("excess-kurtosis", 1.0, "common practice"),
             Threshold(
                 "weakens",
                 100,
                 "common practice: a hundred or more rows usually let the central limit theorem protect the coefficients "
-                "(Lumley et al. 2002, Annu. Rev. Public Health 23, from memory)",
+                "(Lumley, Diehr, Emerson & Chen 2002, Annu. Rev. Public Health 23, 151-169: valid in large samples for any distribution)",
                 Grade.WEAKENS,
                 "<",
             ),

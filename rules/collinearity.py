@@ -15,7 +15,7 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.design import INTERCEPT, Design
 from prefit.findings import Finding, Grade
-from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import COMMON_PRACTICE, NotApplicable, Rule, RuleSettings, Threshold, capped_names, fmt
 from prefit.stats.collinearity import NearDependency, TermInflation
 from prefit.stats.factor import EPS, DesignFactor, Relation
 
@@ -31,7 +31,7 @@ VIF_SOURCE = (
 )
 CONDITION_SOURCE = (
     "Belsley, Kuh & Welsch 1980, Regression Diagnostics, ch. 3: condition indices near 10 begin to affect "
-    "estimates, 30 and above are moderate to strong, with two or more variance-decomposition proportions above 0.5; from memory"
+    "estimates, 30 to 100 are moderate to strong and above 100 severe, with two or more variance-decomposition proportions above 0.5 (the ranges of their numerical experiments, as quoted by the colldiag implementations for R and Matlab)"
 )
 PAIRWISE_SOURCE = f"{COMMON_PRACTICE}: |r| of 0.9 and above between two predictors signals harmful collinearity; from memory"
 PRECISION_SOURCE = (
@@ -42,6 +42,90 @@ PRECISION_SOURCE = (
 
 
 TRUSTED_DIGITS = 10
+CHANCE_CROSSINGS = 1.0
+ROOT_RULE = "sample-size.per-parameter"
+CHANCE_VIF_SOURCE = (
+    "for a predictor unrelated to the k - 1 others, 1 - R^2 of its auxiliary regression on n complete cases "
+    "(intercept kept) is Beta((n - k)/2, (k - 1)/2) under normality, so E[VIF] = (n - 3)/(n - k - 2) "
+    "(Kendall & Stuart, The Advanced Theory of Statistics, vol. 2, sec. 27.29, from memory); the rule stands aside "
+    "when at least one of the k predictors is expected to cross its limit by chance (prefit: a flood of per-column "
+    "findings would measure the shortage of rows)"
+)
+
+
+def _shortage(ctx: RunContext) -> str | None:
+    """Why no dependency rule can describe this design but the sample-size rule: no more complete rows than parameters.
+
+    With ``n <= p`` the design has rank at most ``n``, so ``p - rank`` columns
+    are combinations of the others whatever the data; any set of columns kept
+    to compute VIFs or condition indices would be an arbitrary choice.
+    """
+    design = ctx.design
+    if 0 < design.n <= design.p:
+        return (
+            f"{design.n:,} complete cases for {design.p:,} parameters: with no more rows than parameters the design "
+            f"is singular whatever its values; {ROOT_RULE} reports the cause"
+        )
+    return None
+
+
+def _inflation_by_chance(ctx: RunContext, vif_limit: float) -> str | None:
+    """Why VIFs cannot single out a predictor: so few rows per predictor that unrelated ones would reach ``vif_limit``.
+
+    Returns the reason when at least :data:`CHANCE_CROSSINGS` of the ``k``
+    predictors of a pure-noise table of this shape are expected to reach
+    ``vif_limit``, else None.
+    """
+    shortage = _shortage(ctx)
+    if shortage is not None:
+        return shortage
+    design = ctx.design
+    k = design.p - 1 if design.intercept else design.p
+    a, b = (design.n - k) / 2, (k - 1) / 2
+    if k < 2 or a <= 1:
+        return None if k < 2 else _chance_reason(design, k, float("inf"), float(k), vif_limit)
+    import scipy.stats
+
+    expected = (design.n - 3) / (design.n - k - 2)
+    crossings = k * float(scipy.stats.beta.cdf(1.0 / vif_limit, a, b))
+    return _chance_reason(design, k, expected, crossings, vif_limit) if crossings >= CHANCE_CROSSINGS else None
+
+
+def _chance_reason(design: Design, k: int, expected: float, crossings: float, vif_limit: float) -> str:
+    return (
+        f"{design.n:,} complete cases for {k:,} predictors: even predictors unrelated to each other would have VIFs "
+        f"near {fmt(expected)} (about {fmt(crossings)} of them above {fmt(vif_limit)}), so high VIFs here measure "
+        f"the shortage of rows, not collinearity; {ROOT_RULE} reports the cause (source: {CHANCE_VIF_SOURCE})"
+    )
+
+
+def _null_space(ctx: RunContext, settings: RuleSettings) -> Finding:
+    """One finding for a design with no more rows than parameters: its rank and a basis of its null space, named briefly.
+
+    The columns the pivoted QR placed beyond the rank are each an exact
+    combination of the independent ones; naming them (with the independent
+    columns in ``details``) names a basis of the null space without writing
+    out ``p - rank`` equations of ``rank`` terms each.
+    """
+    design, factor = ctx.design, ctx.factor
+    names, sources = design.column_names, design.column_sources
+    rank = factor.rank
+    dependent = [names[j] for j in sorted(int(j) for j in factor.perm[rank:])]
+    independent = [names[j] for j in sorted(int(j) for j in factor.perm[:rank])]
+    columns = list(dict.fromkeys(sources[design.column_index[name]] for name in dependent if name != INTERCEPT))
+    return settings.finding(
+        Grade.BLOCKS,
+        f"{design.n:,} complete cases for {design.p:,} parameters: the design has rank {rank:,}, so {len(dependent):,} "
+        f"columns ({capped_names(dependent)}) are each an exact combination of the {rank:,} others whatever their "
+        f"values; this follows from the shortage of rows ({ROOT_RULE}), not from a relation in the data",
+        columns=columns,
+        value=float(rank),
+        threshold=float(design.p),
+        source="rank of an n x p matrix is at most min(n, p) (Golub & Van Loan 2013, sec. 2.1)",
+        remedy=f"collect more complete rows than parameters, or keep at most {max(design.n - 2, 1):,} predictors; "
+        "the exact dependencies in the data, if any, can only be told apart once the design has more rows than columns",
+        details={"rank": rank, "parameters": design.p, "cause": ROOT_RULE, "dependent": dependent, "independent": independent},
+    )
 
 
 def _coefficient(c: float) -> str:
@@ -98,6 +182,9 @@ def _only_constant(design: Design, left: int, right: list[tuple[int, float]]) ->
 def _exact(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     design, factor = ctx.design, ctx.factor
     if design.n == 0 or design.p == 0:
+        return
+    if _shortage(ctx) is not None:
+        yield _null_space(ctx, settings)
         return
     relative_tolerance = max(design.n, design.p) * EPS
     top = abs(factor.r[0, 0]) or 1.0
@@ -171,6 +258,9 @@ def _vif_message(term: TermInflation, named: list[tuple[str, float]]) -> str:
 def _vif(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     if not _ready(ctx):
         return
+    by_chance = _inflation_by_chance(ctx, settings.limit("weakens"))
+    if by_chance is not None:
+        raise NotApplicable(by_chance)
     diagnostics = ctx.collinearity
     for term in diagnostics.terms:
         graded = settings.grade_of(term.vif_scale)
@@ -231,7 +321,7 @@ def _settings_as_run(ctx: RunContext, rule: Rule) -> RuleSettings | None:
 
 def _pairs_reported_by_vif(ctx: RunContext) -> set[frozenset[str]]:
     settings = _settings_as_run(ctx, VIF_RULE)
-    if settings is None:
+    if settings is None or _inflation_by_chance(ctx, settings.limit("weakens")) is not None:
         return set()
     covered: set[frozenset[str]] = set()
     for finding in _vif(ctx, settings):
@@ -245,6 +335,9 @@ def _pairs_reported_by_vif(ctx: RunContext) -> set[frozenset[str]]:
 def _pairwise(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     if not _ready(ctx):
         return
+    shortage = _shortage(ctx)
+    if shortage is not None:
+        raise NotApplicable(shortage)
     diagnostics = ctx.collinearity
     singles = [term for term in diagnostics.terms if term.df == 1]
     if len(singles) < 2:
@@ -284,6 +377,9 @@ def _sources(ctx: RunContext) -> dict[str, str]:
 def _condition(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     if not _ready(ctx):
         return
+    by_chance = _inflation_by_chance(ctx, settings.limit("weak-vif"))
+    if by_chance is not None:
+        raise NotApplicable(by_chance)
     diagnostics = ctx.collinearity
     graded_thresholds = [t for t in settings.thresholds if t.grade is not None]
     strongest = max(t.grade for t in graded_thresholds if t.grade is not None)
@@ -341,6 +437,9 @@ def _trust_phrase(coef_digits: float, se_digits: float) -> str:
 def _precision(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     if not _ready(ctx):
         return
+    shortage = _shortage(ctx)
+    if shortage is not None:
+        raise NotApplicable(shortage)
     diagnostics = ctx.collinearity
     worst = diagnostics.raw_dependency()
     kappa = worst.index

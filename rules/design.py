@@ -9,18 +9,24 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.findings import Finding, Grade
 from prefit.roles import Kind
-from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold
+from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.spot import finite_spot
 
 
 def _excluded(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    labels_offered = False
     for column, reason in sorted(ctx.roles.left_out.items()):
+        remedy = f"if {column} should be a predictor, convert it to numbers or name it in --predictors (text becomes a category)"
+        unique_text = ctx.roles.kinds[column] is Kind.TEXT and reason.startswith("text with a different value in each")
+        if ctx.roles.id is None and unique_text and not labels_offered:
+            remedy = f"pass --id {column} to name rows by it in every finding; " + remedy
+            labels_offered = True
         yield settings.finding(
             Grade.NOTE,
             f"{column} left out of the design: {reason}",
             columns=[column],
             source="prefit column roles",
-            remedy=f"if {column} should be a predictor, convert it to numbers or name it in --predictors (text becomes a category)",
+            remedy=remedy,
         )
 
 
@@ -32,6 +38,8 @@ def _possible_code(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]
             continue
         values = ctx.values(column)
         if _spot_check_fails(values, most):
+            if (code_finding := _wide_codes(ctx, settings, column, values)) is not None:
+                yield code_finding
             continue
         summary = ctx.summary(column)
         if not 3 <= summary.distinct <= most:
@@ -48,6 +56,36 @@ def _possible_code(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]
             threshold=settings.threshold("max-distinct"),
             remedy=f"if {column} is a code, declare it with --categorical {column}; if it is a count or a level, keep it numeric",
         )
+
+
+def _wide_codes(ctx: RunContext, settings: RuleSettings, column: str, values: np.ndarray) -> Finding | None:
+    """A finding for whole numbers that look like wide codes (station or occupation codes), else None.
+
+    Codes share one digit width (three or more), repeat on many rows and use a small share of the whole numbers
+    between their smallest and largest value; counts and amounts fill their range far more densely.
+    """
+    finite = values[np.isfinite(values)]
+    if finite.size < ctx.table.num_rows or finite.size == 0 or finite.min() < 100 or np.any(finite != np.round(finite)):
+        return None
+    low, high = float(finite.min()), float(finite.max())
+    if len(f"{low:.0f}") != len(f"{high:.0f}"):
+        return None
+    distinct = np.unique(finite)
+    share_of_range = distinct.size / (high - low + 1)
+    if distinct.size < 3 or distinct.size * settings.limit("rows-per-code") > finite.size or share_of_range > settings.limit("range-share"):
+        return None
+    shown = ", ".join(f"{v:.0f}" for v in distinct[:6]) + (f", ... ({distinct.size:,} codes)" if distinct.size > 6 else "")
+    return settings.finding(
+        Grade.NOTE,
+        f"{column} holds {distinct.size:,} whole numbers of one width ({shown}), each on {fmt(finite.size / distinct.size)} rows "
+        f"on average and using {share_of_range:.1%} of the numbers between {low:.0f} and {high:.0f}: they look like codes "
+        "of categories (stations, occupations, sites), for which a single slope is meaningless",
+        columns=[column],
+        value=share_of_range,
+        threshold=settings.threshold("range-share"),
+        remedy=f"if {column} is a code, declare it with --categorical {column} (or leave it out, or use --id for a site code); "
+        "if it is a measured amount, keep it numeric",
+    )
 
 
 def _spot_check_fails(values: np.ndarray, most: float) -> bool:
@@ -78,7 +116,11 @@ RULES = [
         "that the step from 1 to 2 equals the step from 2 to 3, which is meaningless for categories.",
         remedy="declare codes with --categorical so that each level gets its own parameter",
         check=_possible_code,
-        thresholds=(Threshold("max-distinct", 5, COMMON_PRACTICE),),
+        thresholds=(
+            Threshold("max-distinct", 5, COMMON_PRACTICE),
+            Threshold("rows-per-code", 5, COMMON_PRACTICE + ": wider codes count only when each repeats on five or more rows on average"),
+            Threshold("range-share", 0.2, COMMON_PRACTICE + ": codes use at most a fifth of the whole numbers in their range; counts fill it"),
+        ),
         grades=(Grade.NOTE,),
     ),
 ]

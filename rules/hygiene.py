@@ -11,7 +11,7 @@ import pyarrow.compute as pc
 
 from prefit.context import RunContext
 from prefit.design import category_codes
-from prefit.findings import Finding, Grade
+from prefit.findings import Finding, Grade, counted
 from prefit.roles import Kind, numeric_values
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.rowmatch import ColumnBits, candidate_rows, value_bits
@@ -186,7 +186,7 @@ def _replicates(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     listed, _, total = ctx.listed_rows(design.positions[candidates[in_groups]])
     yield settings.finding(
         Grade.NOTE,
-        f"{varying.size:,} groups of rows ({int(in_groups.sum()):,} rows) share every predictor value but differ in "
+        f"{counted(varying.size, 'group')} of rows ({counted(int(in_groups.sum()), 'row')}) share every predictor value but differ in "
         f"{ctx.roles.target}: replicate measurements, which allow a lack-of-fit test of the linear form",
         columns=[ctx.roles.target],
         rows=listed,
@@ -202,7 +202,8 @@ def _replicate_candidates(ctx: RunContext) -> np.ndarray:
     """Design rows that may share every design value with another row: measured columns first, the intercept skipped."""
     design = ctx.design
     measured = [t.columns[0] for t in design.terms if t.kind in (Kind.NUMERIC, Kind.DATETIME) and t.reference is None and t.columns]
-    coded = [c for t in design.terms if t.kind is not None for c in t.columns if c not in measured]
+    taken = set(measured)
+    coded = [c for t in design.terms if t.kind is not None for c in t.columns if c not in taken]
 
     def bits_of(name: str) -> ColumnBits:
         return lambda rows: value_bits(ctx.design_column(name) if rows is None else ctx.design_column(name)[rows])
@@ -236,8 +237,8 @@ def _identifier(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
             f"predictor {column} looks like an identifier: {verdict}; {consequence}",
             columns=[column],
             source=COMMON_PRACTICE,
-            remedy=f"pass {column} as --id (row labels) or --exclude it; if site-level differences matter, "
-            "use the site's measured properties (area, equipment) as predictors instead",
+            remedy=f"pass {column} as --id (row labels) or --exclude it; if differences between the units it names matter, "
+            "use their measured properties as predictors instead",
         )
 
 
@@ -301,7 +302,7 @@ def _numeric_as_text(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
             if not profile.formatted:
                 continue
             grade = Grade.MISLEADS if levels - 1 >= MANY_DUMMIES else Grade.WEAKENS
-            role, effect = "predictor", f"as a category it becomes {levels - 1:,} dummies, one per distinct value"
+            role, effect = "predictor", f"as a category it becomes {counted(levels - 1, 'dummy', 'dummies')}, one per distinct value"
         else:
             if only_missing_codes or not profile.is_quantity:
                 continue
@@ -393,7 +394,7 @@ def _high_cardinality(ctx: RunContext, settings: RuleSettings) -> Iterator[Findi
         yield settings.finding(
             grade,
             f"{column} has {present.size:,} levels among {n:,} complete cases ({fmt(ratio)} levels per row, "
-            f"{fmt(n / present.size)} rows per level): its {present.size - 1:,} dummies eat the sample",
+            f"{fmt(n / present.size)} rows per level): its {counted(present.size - 1, 'dummy', 'dummies')} eat the sample",
             columns=[column],
             value=ratio,
             threshold=limit,
@@ -449,7 +450,8 @@ def _scale_disparity(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
         values = ctx.design_column(column)
         nonzero = np.abs(values[values != 0])
         if nonzero.size:
-            magnitudes[column] = float(np.median(nonzero * 0.5) * 2.0)  # halved: the middle pair's mean cannot overflow
+            halved = float(np.median(nonzero * 0.5) * 2.0)  # halved: the middle pair's mean cannot overflow
+            magnitudes[column] = halved if halved > 0 else float(np.median(nonzero))  # nor a subnormal halve to 0
     if len(magnitudes) < 2:
         return
     largest = max(magnitudes, key=lambda c: (magnitudes[c], c))
@@ -530,18 +532,17 @@ def _target_leak(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     y_unit = y / y_norm
     y_root = np.sqrt(_sum_of_products(y, y))
     x = np.empty_like(y)
+    ranks = _TargetRanks(design.y, rank_limit(limit.value))
     for column in ctx.numeric_predictors:
         values = ctx.design_column(column)
         with np.errstate(over="ignore", invalid="ignore"):
             np.subtract(values, values.mean(), out=x)
-            if _plainly_below(limit, x, y, y_root):
-                continue
-            x_norm = float(np.linalg.norm(x))
-        if x_norm == 0 or not np.isfinite(x_norm):
-            continue
-        r = float(np.dot(x / x_norm, y_unit))
+            plainly_below = _plainly_below(limit, x, y, y_root)
+            x_norm = float(np.linalg.norm(x)) if not plainly_below else 0.0
+        r = float(np.dot(x / x_norm, y_unit)) if x_norm > 0 and np.isfinite(x_norm) else float("nan")
         r2 = r * r
         if not limit.crossed(r2):
+            yield from _monotone_leak(ctx, settings, column, values, r2, ranks)
             continue
         slope = float(np.dot(x, y) / (x_norm * x_norm))
         intercept = float(design.y.mean() - slope * values.mean())
@@ -560,6 +561,85 @@ def _target_leak(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
             f"computed from {ctx.roles.target} (a sub-meter sum, a unit conversion, a later reading)",
             details={"r_squared": r2, "slope": slope, "intercept": intercept, "exact": exact},
         )
+
+
+def rank_limit(r2_limit: float) -> float:
+    """The rank correlation a bivariate normal pair has when its squared correlation is ``r2_limit``.
+
+    Spearman's rho of a bivariate normal pair with correlation r is
+    (6 / pi) arcsin(r / 2); R^2 = 0.99 gives rho = 0.9945. A predictor whose
+    ranks agree with the target's beyond that is as close to a copy of it as
+    the linear limit allows, whatever monotone function links the two.
+
+    References
+    ----------
+    Pearson, K. (1907). On further methods of determining correlation. Drapers' Company Research Memoirs,
+    Biometric Series IV; Kruskal, W. H. (1958). Ordinal measures of association. JASA 53(284), 814-861.
+    """
+    return float(6.0 / np.pi * np.arcsin(np.sqrt(r2_limit) / 2.0))
+
+
+SPOT_RANK_SCREEN = 0.9
+
+
+class _TargetRanks:
+    """The target's average ranks, computed once for every predictor's rank correlation (on first need)."""
+
+    def __init__(self, y: np.ndarray, limit: float) -> None:
+        self.y = y
+        self.limit = limit
+        self._full: np.ndarray | None = None
+        self._spot: np.ndarray | None = None
+
+    def correlation(self, values: np.ndarray) -> float | None:
+        """Spearman's rho of ``values`` with the target, or None when a look at evenly spaced rows rules it out.
+
+        The look ranks about 4,096 evenly spaced rows; only a predictor whose
+        rank correlation there exceeds :data:`SPOT_RANK_SCREEN` is ranked over every row.
+        """
+        from scipy.stats import rankdata
+
+        if values.size > 2 * evenly_spaced(values).size:
+            if self._spot is None:
+                self._spot = rankdata(evenly_spaced(self.y))
+            if abs(_pearson(rankdata(evenly_spaced(values)), self._spot)) <= SPOT_RANK_SCREEN:
+                return None
+        if self._full is None:
+            self._full = rankdata(self.y)
+        return _pearson(rankdata(values), self._full)
+
+
+def _pearson(a: np.ndarray, b: np.ndarray) -> float:
+    a = a - a.mean()
+    b = b - b.mean()
+    scale = float(np.sqrt(_sum_of_products(a, a) * _sum_of_products(b, b)))
+    return _sum_of_products(a, b) / scale if scale > 0 else 0.0
+
+
+def _monotone_leak(
+    ctx: RunContext, settings: RuleSettings, column: str, values: np.ndarray, r2: float, ranks: _TargetRanks
+) -> Iterator[Finding]:
+    """A predictor whose ranks copy the target's (a log, a rank or an index of it) though its R^2 stays below the limit."""
+    rho = ranks.correlation(values)
+    if rho is None or not abs(rho) > ranks.limit:
+        return
+    target = ctx.roles.target
+    if not np.isfinite(r2):
+        r2 = _pearson(values, ctx.design.y) ** 2
+    linear = f"R² = {r2:.4f}" if np.isfinite(r2) else "R² not defined"
+    yield settings.finding(
+        Grade.MISLEADS,
+        f"{column} orders the rows almost exactly as {target} does (Spearman rank correlation {rho:.4f}, {linear}): "
+        f"a monotone function of the response, such as its log, its rank or an index of it",
+        columns=[column, target],
+        value=abs(rho),
+        threshold=ranks.limit,
+        source=f"{settings.threshold('misleads').source}: the rank correlation of a bivariate normal pair at that R² "
+        "(Pearson 1907; Kruskal 1958, JASA 53)",
+        remedy=f"drop {column} unless it is truly known before {target} is measured; check whether it is computed "
+        f"from {target} (a log, a rank, a band or an index of it)",
+        details={"spearman_rho": rho, "r_squared": r2 if np.isfinite(r2) else None, "monotone": True},
+    )
 
 
 def _sum_of_products(a: np.ndarray, b: np.ndarray) -> float:
@@ -678,9 +758,11 @@ RULES = [
     ),
     Rule(
         id="hygiene.target-leak",
-        summary="A single predictor that alone explains the target with R² above 0.99, or equals a fixed multiple of it.",
+        summary="A single predictor that alone explains the target with R² above 0.99, equals a fixed multiple of it, "
+        "or orders the rows as the target does (rank correlation above 0.9945: a log, a rank or an index of it).",
         why="A predictor that is the response under another name (a unit conversion, a total that contains it, a "
-        "later reading) explains it perfectly and leaves every other coefficient near zero and meaningless.",
+        "later reading, its log or its rank) explains it perfectly and leaves every other coefficient near zero and "
+        "meaningless.",
         remedy="drop the leaking predictor",
         check=_target_leak,
         thresholds=(Threshold("misleads", 0.99, COMMON_PRACTICE, Grade.MISLEADS, ">"),),

@@ -14,12 +14,12 @@ from prefit.context import RunContext
 from prefit.design import category_codes
 from prefit.findings import Finding, Grade
 from prefit.roles import Kind
-from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, capped_names, fmt
 from prefit.stats.blas import one_blas_thread
 from prefit.stats.missingness import PatternMoments, little_mcar, pattern_index
 from prefit.stats.ranks import RankedColumn
 from prefit.stats.sentinels import Sentinel, SentinelLimits, find_sentinels
-from prefit.stats.textnumbers import is_text_type, mostly_number_like, parsed_values
+from prefit.stats.textnumbers import is_text_type, mostly_number_like, parsed_values, placeholder_levels
 
 PER_PARAMETER_SOURCE = (
     "common practice: at least 10 observations per estimated parameter "
@@ -40,6 +40,28 @@ COMPLETE_CASE_BIAS_SOURCE = (
 PATTERN_SHOWN = 5
 SQUARE_SAFE = float(np.sqrt(np.finfo(np.float64).max))
 INFORMATIVE_MIN_GROUP = 5
+BOUND_SOURCE = (
+    "prefit: a bound on the work, so that a table of thousands of columns costs what one of this many does; "
+    "the test stays valid on any subset of the columns, it only sees fewer of the columns the holes might depend on"
+)
+
+
+def bounded_columns(columns: tuple[str, ...], holes: dict[str, int], first: str | None, limit: int) -> tuple[str, ...]:
+    """At most ``limit`` of ``columns``, in their order: those with the most holes, then ``first``, then the rest in order.
+
+    All of them when there are no more than ``limit``. Used by the tests whose
+    cost grows faster than the number of columns (Little's EM, the pairwise
+    informative-missingness comparisons) to stay within a fixed width.
+    """
+    if len(columns) <= limit:
+        return columns
+    position = {column: i for i, column in enumerate(columns)}
+    holed = sorted((c for c in columns if holes.get(c, 0) > 0), key=lambda c: (-holes[c], position[c]))
+    rest = [c for c in columns if holes.get(c, 0) == 0]
+    if first in position and first in rest:
+        rest = [first] + [c for c in rest if c != first]
+    chosen = (holed + rest)[:limit]
+    return tuple(sorted(chosen, key=position.__getitem__))
 
 
 def _code_label(value: float) -> str:
@@ -224,6 +246,9 @@ def _disguised_codes(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
         elif is_text_type(table_column.type) and mostly_number_like(table_column) and ctx.text_numbers(column).is_numeric:
             tokens = ctx.text_numbers(column).missing_tokens
             values = parsed_values(table_column)
+        elif kind is Kind.CATEGORICAL and is_text_type(table_column.type):
+            tokens = placeholder_levels(table_column)
+            values = np.empty(0)
         else:
             continue
         sentinels = find_sentinels(values, limits)
@@ -248,13 +273,17 @@ def _codes_finding(
         for s in sentinels
     ]
     ordered_tokens = sorted(tokens, key=lambda t: (-tokens[t], t))
-    parts += [f"{t!r} in {tokens[t]:,} rows (text in a column of numbers)" for t in ordered_tokens]
+    as_levels = kind is Kind.CATEGORICAL and values.size == 0  # a text category: no numbers, only levels
+    where = "a level of a category" if as_levels else "text in a column of numbers"
+    parts += [f"{t!r} in {tokens[t]:,} rows ({where})" for t in ordered_tokens]
     affected = sum(s.count for s in sentinels) + sum(tokens.values())
     is_design = column in ctx.model_columns
     role = "target" if column == ctx.roles.target else ("predictor" if is_design else "column left out of the design")
-    grade = Grade.MISLEADS if is_design else Grade.WEAKENS
+    grade = Grade.MISLEADS if is_design and not as_levels else Grade.WEAKENS
     if kind is Kind.NUMERIC:
         effect = "left in, they act as gross outliers and pull the fit toward them"
+    elif as_levels:
+        effect = "each becomes a level of its own, with its own coefficient, instead of a hole"
     elif tokens:
         effect = "they keep the column from being read as numbers" + ("" if is_design else ", so it is left out of the model")
     else:
@@ -299,7 +328,9 @@ def _mcar(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         extra_holes |= count < ctx.table.num_rows - hole_counts[column]
         if spread > 0:
             arrays[column], present[column] = values, count
-    columns = tuple(arrays)
+    usable = tuple(arrays)
+    holes_by_column = {c: ctx.table.num_rows - present[c] for c in usable}
+    columns = bounded_columns(usable, holes_by_column, ctx.roles.target, int(settings.limit("columns")))
     missing = [c for c in columns if present[c] < ctx.table.num_rows]
     if len(columns) < 2 or not missing:
         return
@@ -316,9 +347,15 @@ def _mcar(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     if not limit.crossed(test.p_value):
         return
     converged = "" if test.converged else " (the EM estimate did not converge; treat the statistic with care)"
+    over = f"{len(columns)} numeric columns"
+    if len(columns) < len(usable):
+        over = (
+            f"{len(columns)} of the {len(usable):,} numeric columns ({len(missing)} with holes, {len(columns) - len(missing)} "
+            f"without; the test is bounded to {len(columns)} columns: {capped_names(list(columns))})"
+        )
     yield settings.finding(
         Grade.WEAKENS,
-        f"Little's test rejects missing completely at random over {len(columns)} numeric columns: chi-square "
+        f"Little's test rejects missing completely at random over {over}: chi-square "
         f"{fmt(test.statistic)} on {test.df} df, p = {test.p_value:.3g} ({test.patterns} patterns, {test.rows:,} rows){converged}; "
         "the complete cases are not a random subsample, so complete-case estimates may be biased",
         columns=missing,
@@ -326,7 +363,14 @@ def _mcar(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         threshold=limit,
         remedy="see missingness.informative for which columns the holes depend on; prefer multiple imputation "
         "using those columns over deleting rows",
-        details={"statistic": test.statistic, "df": test.df, "p_value": test.p_value, "patterns": test.patterns, "columns": list(columns)},
+        details={
+            "statistic": test.statistic,
+            "df": test.df,
+            "p_value": test.p_value,
+            "patterns": test.patterns,
+            "columns": list(columns),
+            "numeric_columns": len(usable),
+        },
     )
 
 
@@ -357,17 +401,24 @@ def _informative(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         for column, count in holes.counts().items()
         if INFORMATIVE_MIN_GROUP <= count <= rows - INFORMATIVE_MIN_GROUP
     }
+    partners = bounded_columns(ctx.model_columns, holes.counts(), ctx.roles.target, int(settings.limit("columns")))
     compared: dict[tuple[str, str], tuple[float, str]] = {}
-    for other in ctx.model_columns:
-        partners = {column: hole_rows for column, hole_rows in holed.items() if column != other}
-        if partners:
-            for column, result in _compare(ctx, other, partners).items():
+    for other in partners:
+        others = {column: hole_rows for column, hole_rows in holed.items() if column != other}
+        if others:
+            for column, result in _compare(ctx, other, others).items():
                 compared[(column, other)] = result
-    tests = [(c, o, *compared[(c, o)]) for c in holed for o in ctx.model_columns if (c, o) in compared]
+    tests = [(c, o, *compared[(c, o)]) for c in holed for o in partners if (c, o) in compared]
     if not tests:
         return
     adjusted = _holm([t[2] for t in tests])
     alpha = settings.limit("alpha")
+    scope = ""
+    if len(partners) < len(ctx.model_columns):
+        scope = (
+            f" (each column's holes were compared with {len(partners)} of the {len(ctx.model_columns):,} model columns, "
+            "those with the most holes and the target first; Holm's adjustment covers those comparisons)"
+        )
     target = ctx.roles.target
     for column in holes.columns:
         hits = [(other, p, text) for (c, other, _, text), p in zip(tests, adjusted) if c == column and p < alpha]
@@ -385,7 +436,7 @@ def _informative(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         )
         yield settings.finding(
             grade,
-            f"whether {column} is missing is associated with {', '.join(h[0] for h in hits)}: {described}; {consequence}",
+            f"whether {column} is missing is associated with {', '.join(h[0] for h in hits)}: {described}; {consequence}{scope}",
             columns=[column, *(h[0] for h in hits)],
             value=hits[0][1],
             threshold=alpha,
@@ -533,13 +584,17 @@ RULES = [
     Rule(
         id="missingness.mcar",
         summary="Little's chi-square test of missing completely at random over the numeric model columns.",
-        why="Deleting incomplete rows is harmless for bias only when the holes are missing completely at random. "
-        "Little's test compares the means of each missingness pattern with the overall maximum-likelihood means; "
-        "a small p-value says the incomplete rows differ systematically from the complete ones.",
+        why="Little's test compares the means of each missingness pattern with the overall maximum-likelihood means; "
+        "a small p-value says the incomplete rows differ systematically from the complete ones (the holes are not "
+        "missing completely at random). For regression coefficients that alone does not make deleting incomplete "
+        "rows biased: complete-case estimates stay unbiased whenever the holes do not depend on the response given "
+        "the predictors (Little 1992, JASA 87; White & Carlin 2010, Statistics in Medicine 29). It does mean the "
+        "complete rows are not a random part of the table, so check what the holes follow (missingness.informative).",
         remedy="find which columns the holes depend on (missingness.informative) and impute using them",
         check=_mcar,
         heavy=True,
         thresholds=(
+            Threshold("columns", 40, BOUND_SOURCE),
             Threshold(
                 "weakens",
                 0.05,
@@ -558,7 +613,10 @@ RULES = [
         remedy="use multiple imputation with the associated columns, or model the missingness; do not delete rows",
         check=_informative,
         heavy=True,
-        thresholds=(Threshold("alpha", 0.05, "familywise error rate controlled by Holm (1979), Scand. J. Stat. 6"),),
+        thresholds=(
+            Threshold("alpha", 0.05, "familywise error rate controlled by Holm (1979), Scand. J. Stat. 6"),
+            Threshold("columns", 40, BOUND_SOURCE),
+        ),
         grades=(Grade.MISLEADS, Grade.NOTE),
     ),
 ]

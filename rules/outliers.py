@@ -8,8 +8,7 @@ import numpy as np
 
 from prefit.context import RunContext
 from prefit.findings import MAX_LISTED_ROWS, Finding, Grade
-from prefit.roles import Kind
-from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt, meaningful_ratio
 from prefit.stats.chance import chance_check, chance_check_counts, probability_text, t_tail
 from prefit.stats.robust import (
     MODIFIED_Z_FACTOR,
@@ -143,12 +142,17 @@ def _slip(value: float, median: float, mad: float, limit: float, ordered: np.nda
     return None
 
 
+def _against_median(value: float, median: float, mad: float) -> str:
+    """``12.5x the median``, or ``the median being about 0`` when it lies within one MAD of zero."""
+    ratio = meaningful_ratio(value, median, mad)
+    return f"{fmt(ratio)}x the median" if ratio is not None else "the median being about 0"
+
+
 def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     import scipy.stats
 
     limit = settings.threshold("weakens")
-    target = ctx.roles.target
-    columns = ([target] if ctx.roles.kinds[target] is Kind.NUMERIC else []) + list(ctx.numeric_predictors)
+    columns = ctx.value_screened_columns
     normal_cross = float(2.0 * scipy.stats.norm.sf(limit.value))
     for column in columns:
         values = ctx.values(column)
@@ -173,7 +177,7 @@ def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         extreme = rows[strongest]
         text = (
             f"{column}: {total:,} value{'' if total == 1 else 's'}{_label_groups(ctx, rows)} with |modified z| above {limit.value:g} (median {fmt(median)}, MAD {fmt(mad)}; "
-            f"most extreme {fmt(float(values[extreme]))}, {fmt(float(values[extreme] / median)) if median else 'n/a'}x the median, "
+            f"most extreme {fmt(float(values[extreme]))}, {_against_median(float(values[extreme]), median, mad)}, "
             f"z = {fmt(float(row_scores[strongest]))}; {check.describe()})"
         )
         if slips:
@@ -276,7 +280,7 @@ RULES = [
         why="Least squares weighs squared residuals, so one row far from the line pulls the slopes and inflates the "
         "residual variance, which widens every confidence interval. A residual too large to be chance among n rows "
         "is usually a recording error or a row from a different process.",
-        remedy="check the listed rows' target values at the source (units, decimal point, meter resets); correct "
+        remedy="check the listed rows' target values at the source (units, decimal point, counter resets); correct "
         "errors, and fit with and without genuine extremes",
         check=_studentized,
         thresholds=(

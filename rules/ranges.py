@@ -353,7 +353,7 @@ def _beyond(ctx: RunContext, scored: ScoredRows, column: str) -> str:
     if column not in scored.observed:
         return ""
     low, high = scored.observed[column]
-    new = scored.X[:, ctx.design.column_names.index(column)]
+    new = scored.X[:, ctx.design.column_index[column]]
     ends = []
     if new.min() < low:
         ends.append(f"down to {fmt(float(new.min()))}")

@@ -11,7 +11,7 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.design import Design
 from prefit.findings import Finding, Grade
-from prefit.rule import Rule, RuleSettings, Threshold, fmt
+from prefit.rule import Rule, RuleSettings, Threshold, capped_names, fmt
 from prefit.stats import planning
 
 RILEY_SOURCE = (
@@ -22,6 +22,18 @@ PER_PARAMETER_SOURCE = (
     "common practice: 10 to 20 observations per estimated parameter "
     "(Harrell 2015, Regression Modeling Strategies, 2nd ed., sec. 4.4, from memory)"
 )
+EXPLAIN_SOURCE = (
+    "Austin & Steyerberg (2015), The number of subjects per variable required in linear regression analyses, "
+    "Journal of Clinical Epidemiology 68(6), 627-636: two subjects per variable gave coefficients with small relative "
+    "bias and nominal confidence-interval coverage (from memory); counted here with the intercept"
+)
+PREDICT_GRADES = ("blocks", "misleads", "weakens")
+EXPLAIN_GRADES = ("blocks", "explain-misleads", "explain-weakens")
+
+
+def predicting(ctx: RunContext) -> bool:
+    """Whether the model is meant to score new rows (``purpose = "predict"``) rather than to be read (``explain``)."""
+    return ctx.options.purpose == "predict"
 
 
 def counted_parameters(design: Design) -> list[str]:
@@ -31,7 +43,7 @@ def counted_parameters(design: Design) -> list[str]:
     if len(singles) == 1:
         parts.append(f"{singles[0]} 1")
     elif singles:
-        parts.append(f"1 each: {', '.join(singles)}")
+        parts.append(f"1 each: {capped_names(singles)}")
     for term in design.terms:
         if term.reference is not None and term.df:
             parts.append(f"{term.source} {term.df} (dummies for {term.df + 1} levels, reference {term.reference})")
@@ -46,7 +58,7 @@ def _per_parameter(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]
     if p == 0:
         return
     ratio = n / p
-    graded = settings.grade_of(ratio)
+    graded = settings.grade_of(ratio, PREDICT_GRADES if predicting(ctx) else EXPLAIN_GRADES)
     if graded is None:
         return
     grade, limit = graded
@@ -66,6 +78,7 @@ def _per_parameter(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]
         details={
             "complete_cases": n,
             "parameters": p,
+            "purpose": ctx.options.purpose,
             "parameters_by_term": {t.source: t.df for t in design.terms if t.df},
             "dummies": {
                 t.source: {"parameters": t.df, "levels": [t.reference, *t.levels], "reference": t.reference}
@@ -154,11 +167,13 @@ def _minimum(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         "not_computed": skipped,
     }
     columns = _predictor_columns(design)
+    informs = "" if predicting(ctx) else INFORMS_ONLY
+    details["purpose"] = ctx.options.purpose
     if any(v is None for v in required.values()):
         yield settings.finding(
-            Grade.MISLEADS,
+            _for_purpose(ctx, Grade.MISLEADS),
             f"no sample size meets the minimum for {_parameters(p)}: with anticipated R-squared {fmt(r2)} "
-            f"from {anticipated.origin}, expected shrinkage never reaches {settings.limit('shrinkage'):g} ({listing})",
+            f"from {anticipated.origin}, expected shrinkage never reaches {settings.limit('shrinkage'):g} ({listing}){informs}",
             columns=columns,
             value=1.0,
             threshold=settings.threshold("misleads"),
@@ -178,9 +193,9 @@ def _minimum(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         return
     grade, limit = graded
     yield settings.finding(
-        grade,
+        _for_purpose(ctx, grade),
         f"{n:,} complete cases, {needed - n:,} short of the {needed:,} needed for {_parameters(p)} "
-        f"(binding: {CRITERIA[binding]}; per criterion: {listing}); anticipated R-squared {fmt(r2)} from {anticipated.origin}",
+        f"(binding: {CRITERIA[binding]}; per criterion: {listing}); anticipated R-squared {fmt(r2)} from {anticipated.origin}{informs}",
         columns=columns,
         value=shortfall,
         threshold=limit,
@@ -189,6 +204,17 @@ def _minimum(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         remedy=f"collect at least {needed - n:,} more complete rows, or reduce the predictor parameters "
         "(drop weak predictors, merge rare levels) and plan again; if neither is possible, fit with a penalised regression",
     )
+
+
+INFORMS_ONLY = (
+    "; purpose explain: these prediction-model criteria inform and do not gate "
+    "(the gate rests on rows per parameter and power; set purpose predict to gate on them)"
+)
+
+
+def _for_purpose(ctx: RunContext, grade: Grade) -> Grade:
+    """Riley et al.'s criteria plan prediction models: they gate under ``predict`` and weaken at most under ``explain``."""
+    return grade if predicting(ctx) else min(grade, Grade.WEAKENS)
 
 
 CRITERION_ORDER = ("shrinkage", "r2-gap", "residual-sd", "mean")
@@ -254,7 +280,8 @@ def _cohen_size(f2: float) -> str:
 RULES = [
     Rule(
         id="sample-size.per-parameter",
-        summary="Complete-case observations per estimated parameter (intercept and every dummy counted).",
+        summary="Complete-case observations per estimated parameter (intercept and every dummy counted); the limits "
+        "depend on the purpose: explain (coefficients read as effects) or predict (new rows scored).",
         why="Each parameter spends information. With few rows per parameter the fit chases noise: coefficients "
         "are unstable, R-squared is inflated, and predictions for new rows are worse than the fit suggests. "
         "With no more rows than parameters the fit is not defined at all.",
@@ -262,14 +289,17 @@ RULES = [
         check=_per_parameter,
         thresholds=(
             Threshold("blocks", 1, "definition: least squares needs n > p", Grade.BLOCKS, "<="),
-            Threshold("misleads", 10, PER_PARAMETER_SOURCE, Grade.MISLEADS, "<"),
-            Threshold("weakens", 20, PER_PARAMETER_SOURCE, Grade.WEAKENS, "<"),
+            Threshold("misleads", 10, f"purpose predict; {PER_PARAMETER_SOURCE}", Grade.MISLEADS, "<"),
+            Threshold("weakens", 20, f"purpose predict; {PER_PARAMETER_SOURCE}", Grade.WEAKENS, "<"),
+            Threshold("explain-misleads", 2, f"purpose explain; {EXPLAIN_SOURCE}", Grade.MISLEADS, "<"),
+            Threshold("explain-weakens", 10, f"purpose explain; {PER_PARAMETER_SOURCE}", Grade.WEAKENS, "<"),
         ),
     ),
     Rule(
         id="sample-size.minimum",
         summary="Complete cases against the minimum sample size for a prediction model with a continuous outcome "
-        "(four criteria of Riley et al.): shrinkage, R-squared optimism, residual SD and mean outcome precision.",
+        "(four criteria of Riley et al.): shrinkage, R-squared optimism, residual SD and mean outcome precision. "
+        "They gate under purpose predict; under purpose explain they inform (at most weakens).",
         why="Too few rows for the number of predictor parameters overfit: the coefficients are too large in magnitude "
         "(they would need shrinking by more than 10% to predict new rows well), the apparent R-squared overstates the "
         "R-squared on new rows, and the residual SD and the mean response are estimated too loosely for prediction "

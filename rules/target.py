@@ -1,4 +1,4 @@
-"""Target rules: a response that is missing, not numeric, or constant makes the fit impossible."""
+"""Target rules: a response that is missing, not numeric, or constant makes the fit impossible; a skewed or censored one bends it."""
 
 from __future__ import annotations
 
@@ -7,9 +7,9 @@ from typing import Iterator
 import numpy as np
 
 from prefit.context import RunContext
-from prefit.findings import Finding, Grade
+from prefit.findings import Finding, Grade, counted
 from prefit.roles import Kind
-from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt, meaningful_ratio
 from prefit.stats.mergeable import Moments
 
 
@@ -26,7 +26,7 @@ def _missing_values(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding
     if usable < limit.value:
         yield settings.finding(
             Grade.BLOCKS,
-            f"{target} has {usable} usable value(s) in {tally.rows:,} rows ({tally.missing:,} missing, {tally.nonfinite:,} not finite): nothing to fit",
+            f"{target} has {counted(usable, 'usable value')} in {tally.rows:,} rows ({tally.missing:,} missing, {tally.nonfinite:,} not finite): nothing to fit",
             columns=[target],
             value=usable,
             threshold=limit,
@@ -98,6 +98,17 @@ def _central_skewness(values: np.ndarray, share: float, all_finite: bool = False
     return float(Moments.of(finite[(finite >= low) & (finite <= high)]).skewness)
 
 
+NEAR_ZERO_SHARE = 0.01
+
+
+def _span(smallest: float, largest: float, sd: float) -> str:
+    """``largest value 20 times the smallest``, or the two values when the smallest is about 0 (within 1% of an SD)."""
+    ratio = meaningful_ratio(largest, smallest, NEAR_ZERO_SHARE * sd)
+    if ratio is None:
+        return f"values from about 0 ({fmt(smallest)}) to {fmt(largest)}"
+    return f"largest value {fmt(ratio)} times the smallest"
+
+
 def _skewed(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     target = ctx.roles.target
     if ctx.roles.kinds[target] is not Kind.NUMERIC:
@@ -114,7 +125,7 @@ def _skewed(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         return
     yield settings.finding(
         Grade.NOTE,
-        f"{target} is strictly positive and right-skewed (skewness {fmt(skewness, 2)}, largest value {fmt(spread)} times the smallest): "
+        f"{target} is strictly positive and right-skewed (skewness {fmt(skewness, 2)}, {_span(moments.minimum, moments.maximum, moments.std)}): "
         "on its own scale effects are likely multiplicative and the residual spread likely grows with the level",
         columns=[target],
         value=skewness,
@@ -123,6 +134,85 @@ def _skewed(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         details={"skewness": skewness, "central_skewness": central, "max_min_ratio": spread, "minimum": moments.minimum, "maximum": moments.maximum},
     )
 
+
+CENSORING_SOURCE = (
+    "common practice: a slope about 2% (weakens) or 10% (misleads) too flat; least squares on a censored normal "
+    "response multiplies every slope by about the share of rows not at the limit (Greene 1981, Econometrica 49(2), "
+    "505-513); model: Tobin (1958), Econometrica 26(1), 24-36; Amemiya (1984), Journal of Econometrics 24, 3-61"
+)
+
+
+def _censored(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
+    target = ctx.roles.target
+    if ctx.roles.kinds[target] is not Kind.NUMERIC:
+        return
+    y = ctx.design.y
+    least = settings.limit("min-rows")
+    ends = [(name, value, int(np.count_nonzero(y == value))) for name, value in (("maximum", float(y.max(initial=-np.inf))), ("minimum", float(y.min(initial=np.inf))))]
+    ends = [end for end in ends if end[2] >= least]
+    if y.size < 3 or not ends:
+        return
+    values, counts = np.unique(y, return_counts=True)
+    if values.size < 3:
+        return
+    inside = int(counts[1:-1].max())
+    integers = bool(np.all(values == np.round(values)))
+    count_like = integers and values.size <= settings.limit("count-levels")
+    for end, value, at_limit in ends:
+        ratio = at_limit / inside
+        if not settings.threshold("pile-ratio").crossed(ratio):
+            continue
+        share = at_limit / y.size
+        graded = settings.grade_of(share)
+        grade, limit = graded if graded is not None else (Grade.NOTE, settings.threshold("weakens"))
+        rows, _, total = ctx.listed_rows(np.flatnonzero(y == value))
+        details = {
+            "end": end,
+            "limit_value": value,
+            "rows_at_limit": at_limit,
+            "share": share,
+            "most_rows_at_an_inner_value": inside,
+            "pile_ratio": ratio,
+            "count_like": count_like,
+        }
+        pile = (
+            f"{target} has {at_limit:,} of {y.size:,} complete rows ({share:.1%}) at its {end} {value:g}, "
+            f"against at most {inside:,} at any value inside its range"
+        )
+        if count_like and end == "minimum" and value == 0:
+            grade, source = Grade.NOTE, COMMON_PRACTICE
+            message = (
+                f"{pile}: a count (or score) with a mass at zero. Least squares treats the zeros like any other value; "
+                "if zero means 'none happened', a count model fits it; if it means 'at or below a limit', it is censoring"
+            )
+            remedy = (
+                f"consider a Poisson or negative binomial model, or a two-part (hurdle) model, for {target}; "
+                "a censored-regression (Tobit) model if zero stands for values below a limit"
+            )
+        else:
+            source = limit.source
+            coding = "top-coded (censored from above)" if end == "maximum" else "bottom-coded (censored from below)"
+            message = (
+                f"{pile}: {target} looks {coding} at {value:g}. Least squares takes the limit for the true value and "
+                "flattens the slopes towards zero, by roughly the share at the limit when the predictors are near normal"
+            )
+            remedy = (
+                f"fit a censored-regression (Tobit) model with {target} censored at {value:g}, or recover the true values "
+                "from the source; dropping the limit rows instead truncates the sample and also flattens the slopes, "
+                "unless a truncated-regression model is fitted"
+            )
+        yield settings.finding(
+            grade,
+            message,
+            columns=[target],
+            rows=rows,
+            row_count=total,
+            value=share,
+            threshold=limit,
+            source=source,
+            remedy=remedy,
+            details=details,
+        )
 
 RULES = [
     Rule(
@@ -163,7 +253,7 @@ RULES = [
         remedy="fit the logarithm of the target and read slopes as relative changes; check the residual spread again",
         check=_skewed,
         thresholds=(
-            Threshold("skewness", 1.0, "common practice: skewness above 1 is strong skew (Bulmer 1979, Principles of Statistics, from memory)", compare=">"),
+            Threshold("skewness", 1.0, "common practice: skewness above 1 is strong skew (Bulmer 1979, Principles of Statistics, p. 63, as quoted in secondary sources)", compare=">"),
             Threshold("max-min-ratio", 10, "common practice: a positive quantity spanning an order of magnitude is a candidate for a log scale", compare=">"),
             Threshold(
                 "central-skewness",
@@ -172,6 +262,39 @@ RULES = [
                 compare=">",
             ),
             Threshold("trim-share", 0.01, "common practice: the central 98% of values"),
+        ),
+        grades=(Grade.NOTE,),
+    ),
+    Rule(
+        id="target.censored",
+        summary="A response piled up at its largest or smallest value (top- or bottom-coding, censoring), beyond what "
+        "ties of a continuous response would give.",
+        why="A meter that saturates, a register that stops at its largest reading, an export that writes '20,000 or "
+        "more' as 20,000: the rows at the limit carry the limit, not the truth. Least squares reads them as exact, so "
+        "the line is pulled flat where the true values lie beyond the limit: slopes shrink towards zero (by about the "
+        "censored share for normal predictors), and the residuals are neither normal nor of constant spread. Tobin's "
+        "censored-regression model uses the limit rows as 'at least' (or 'at most') values instead.",
+        remedy="fit a censored-regression (Tobit) model, or recover the true values; drop the limit rows only with a "
+        "truncated-regression model",
+        check=_censored,
+        thresholds=(
+            Threshold("misleads", 0.10, CENSORING_SOURCE, Grade.MISLEADS, ">="),
+            Threshold("weakens", 0.02, CENSORING_SOURCE, Grade.WEAKENS, ">="),
+            Threshold(
+                "pile-ratio",
+                3,
+                "common practice: the limit holds at least 3 times as many rows as the most frequent value inside the "
+                "range; the tail of a continuous response holds fewer ties than its middle",
+                compare=">=",
+            ),
+            Threshold("min-rows", 3, "common practice: at least 3 rows share the limit value", compare=">="),
+            Threshold(
+                "count-levels",
+                50,
+                "common practice: an integer response with at most 50 distinct values is read as a count or a score, "
+                "whose zeros are a mass of the distribution rather than a limit",
+                compare="<=",
+            ),
         ),
         grades=(Grade.NOTE,),
     ),

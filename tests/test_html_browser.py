@@ -40,7 +40,11 @@ PAGE_FACTS = """JSON.stringify({
             marks: svg ? svg.querySelectorAll('path, use, image, rect').length : 0};
   }),
   scripts: document.scripts.length,
-  text: document.body.innerText,
+  text: document.body.textContent,
+  contents: Array.from(document.querySelectorAll('nav.toc a')).map(function (a) { return a.textContent; }),
+  collapsible: document.querySelectorAll('details.finding').length,
+  ruleLinks: Array.from(document.querySelectorAll('details.finding summary a.rule')).map(function (a) { return a.getAttribute('href'); }),
+  anchors: Array.from(document.querySelectorAll('article.rule-entry')).map(function (a) { return a.id; }),
   height: document.documentElement.scrollHeight
 })"""
 
@@ -177,9 +181,28 @@ def test_sample_table_page_loads_cleanly_with_its_plots(browser: DevTools, name:
     expected = {"t1-missingness", "t1-ranges"} if report.context is not None and report.context.numeric_predictors else {"t1-missingness"}
     assert expected <= set(drawn)
     for figure in drawn.values():
-        assert figure["width"] > 200 and figure["height"] > 100 and figure["marks"] > 5, figure
+        if figure["marks"] or figure["id"] != "t1-missingness":
+            assert figure["width"] > 200 and figure["height"] > 100 and figure["marks"] > 5, figure
     for finding in report.findings:
         assert " ".join(finding.message.split()) in " ".join(facts["text"].split())
+    assert facts["collapsible"] == len(report.findings)
+    assert {"design", *(f.grade.word for f in report.findings)} <= set(facts["contents"])
+
+
+def test_findings_link_to_their_rules_entries_and_the_catalogue_page_holds_every_rule(browser: DevTools, registry: Any) -> None:
+    from prefit.catalogue import catalogue_html
+
+    report_facts = load(browser, sample_html("warehouse_submeters"), "links-warehouse_submeters")
+    targets = {href.lstrip("#") for href in report_facts["ruleLinks"]}
+    assert targets and targets <= set(report_facts["anchors"])
+    catalogue = load(browser, catalogue_html(), "prefit-rules")
+    assert catalogue["errors"] == [] and catalogue["requests"] == [] and catalogue["scripts"] == 0
+    assert len(catalogue["anchors"]) == len(registry)
+
+
+def test_a_table_without_holes_says_so_instead_of_an_empty_map(browser: DevTools) -> None:
+    facts = load(browser, sample_html("warehouse_clean"), "no-holes-warehouse_clean")
+    assert "No missing values" in facts["text"]
 
 
 def test_hostile_names_render_as_text_in_the_browser(browser: DevTools) -> None:

@@ -259,3 +259,53 @@ def test_strong_but_honest_predictor_does_not_leak(tmp_path: Path) -> None:
     r2 = sm.OLS(_mtcars()["mpg"], sm.add_constant(_mtcars()["wt"])).fit().rsquared
     assert_allclose(r2, 0.7528, atol=5e-5)
     assert _findings(report, "hygiene.target-leak") == []
+
+
+def test_monotone_copies_of_the_target_leak(tmp_path: Path) -> None:
+    import scipy.stats
+
+    frame = _mtcars()[["rownames", "mpg", "wt", "hp"]]
+    z = (frame["mpg"] - frame["mpg"].mean()) / frame["mpg"].std()
+    # reference: 1 US gallon = 3.785411784 l and 1 mile = 1.609344 km, so l/100 km = 235.2146 / mpg
+    copies = {"l_per_100km": 235.2146 / frame["mpg"], "mpg_growth": np.exp(2.5 * z), "mpg_rank": frame["mpg"].rank()}
+    for name, copy in copies.items():
+        leaked = frame.assign(**{name: copy})
+        (finding,) = _findings(_report(tmp_path, leaked, "--target", "mpg", "--id", "rownames", name=f"{name}.csv"), "hygiene.target-leak")
+        assert finding["columns"] == [name, "mpg"] and finding["grade"] == "misleads"
+        # reference: statsmodels OLS R-squared of mpg on the copy alone
+        r2 = sm.OLS(leaked["mpg"], sm.add_constant(leaked[name])).fit().rsquared
+        assert r2 < 0.99  # below the linear limit: only the rank correlation can see these copies
+        # reference: scipy.stats.spearmanr (average ranks for ties)
+        assert_allclose(finding["details"]["spearman_rho"], scipy.stats.spearmanr(leaked[name], leaked["mpg"])[0], rtol=1e-12)
+        assert_allclose(finding["details"]["r_squared"], r2, rtol=1e-9)
+        assert finding["details"]["monotone"] is True
+
+
+def test_rank_limit_matches_the_bivariate_normal_relation() -> None:
+    import scipy.stats
+
+    from prefit.rules.hygiene import rank_limit
+
+    # source: Pearson (1907): Spearman's rho = (6 / pi) asin(r / 2) for a bivariate normal pair; checked by simulation
+    rng = np.random.default_rng(11)
+    r = np.sqrt(0.99)
+    x = rng.normal(size=400_000)
+    y = r * x + np.sqrt(1 - r * r) * rng.normal(size=x.size)
+    assert_allclose(rank_limit(0.99), scipy.stats.spearmanr(x, y)[0], atol=5e-4)
+
+
+@pytest.mark.parametrize("n", [300, 5000])
+def test_ordinary_strong_predictors_are_not_monotone_leaks(n: int) -> None:
+    from prefit.api import check
+
+    # simulated clean tables, R-squared 0.5 to 0.9 from 1 to 10 normal predictors: none may be reported as a leak
+    fired = 0
+    for table in range(40):
+        rng = np.random.default_rng(n + table)
+        p, r2 = int(rng.integers(1, 11)), rng.uniform(0.5, 0.9)
+        x = rng.normal(size=(n, p))
+        signal = x @ rng.uniform(0.5, 1.5, p)
+        y = 1000 + 50 * (signal + rng.normal(0, np.sqrt(signal.var() * (1 - r2) / r2), n))
+        frame = pd.DataFrame(x, columns=[f"x{i}" for i in range(p)]).assign(y=y)
+        fired += any(f.rule == "hygiene.target-leak" for f in check(frame, target="y", skip_rules=["influence", "outliers", "assumptions"]).findings)
+    assert fired == 0

@@ -598,3 +598,15 @@ def test_edge_shortcut_never_changes_the_sentinel_search(column: str, monkeypatc
     # reference: the planted rows, counted with numpy
     planted_rows = int(np.count_nonzero(planted == -999))
     assert [(s.value, s.count) for s in find_sentinels(planted) if s.value < 0] == [(-999.0, planted_rows)]
+
+
+def test_a_placeholder_level_of_a_text_category_is_reported(tmp_path: Path) -> None:
+    # Invented site-days: a placeholder such as NA is reported, not silently made a level with its own coefficient.
+    rng = np.random.default_rng(5)
+    kinds = rng.choice(["screw", "scroll", "NA", "reciprocating"], 300, p=[0.4, 0.3, 0.1, 0.2])
+    outdoor = rng.normal(15, 8, 300)
+    frame = pd.DataFrame({"energy_kwh": 5000 + 90 * outdoor + rng.normal(0, 300, 300), "outdoor_c": outdoor, "compressor_type": kinds})
+    report = _report(tmp_path, frame, "--target", "energy_kwh")
+    finding = _findings(report, "missingness.disguised-codes")[0]
+    assert finding["grade"] == "weakens" and finding["details"]["tokens"] == {"NA": int((kinds == "NA").sum())}
+    assert "level of its own" in finding["message"]

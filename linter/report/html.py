@@ -11,13 +11,15 @@ from __future__ import annotations
 import html
 from typing import TYPE_CHECKING, Any
 
-from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, count_by_grade
-from ..rule import fmt
+from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade, counted
+from ..rule import capped_names, fmt
 from ..text import inert_message
-from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
+from .base import ReportWriter, RunFacts, groups_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
+    from ..rule import RuleLike
+    from .plots import Plot
 
 CONTENT_POLICY = "default-src 'none'; style-src 'unsafe-inline'; img-src data:"
 LISTED_ROWS = 20
@@ -39,6 +41,10 @@ STYLE = """
 .prefit-report th,.prefit-report td{border:1px solid #d6dee4;padding:.2rem .5rem;text-align:left;vertical-align:top}
 .prefit-report td.n{text-align:right;font-variant-numeric:tabular-nums}
 .prefit-report .finding{border-left:.35rem solid #5b7083;background:#f7f9fa;padding:.5rem .8rem;margin:.6rem 0}
+.prefit-report details.finding>summary{cursor:pointer}
+.prefit-report nav.toc ul{list-style:none;padding:0;margin:.6rem 0;display:flex;flex-wrap:wrap;gap:.3rem 1.2rem}
+.prefit-report nav.toc .count{display:inline-block;min-width:1.4rem;text-align:center;background:#e8eef3;border-radius:.6rem;font-size:.8rem}
+.prefit-report a.rule{color:inherit}
 .prefit-report .grade-blocks{border-color:#7a1a12}
 .prefit-report .grade-misleads{border-color:#c0392b}
 .prefit-report .grade-weakens{border-color:#c77700}
@@ -63,9 +69,9 @@ def esc(text: Any) -> str:
 
 def _verdict(report: "Report") -> tuple[str, str]:
     if report.failed_rules:
-        return "incomplete", f"incomplete: {len(report.failed_rules)} rule(s) failed ({', '.join(report.failed_rules)})"
+        return "incomplete", f"incomplete: {counted(len(report.failed_rules), 'rule')} failed ({', '.join(report.failed_rules)})"
     if report.gated:
-        return "not-ready", f"not ready at gate {report.gate.word}: {len(report.gated)} finding(s) at or above it"
+        return "not-ready", f"not ready at gate {report.gate.word}: {counted(len(report.gated), 'finding')} at or above it"
     return "ready", f"ready at gate {report.gate.word}"
 
 
@@ -86,9 +92,11 @@ def _facts(report: "Report") -> str:
         ("columns", f"{report.info.columns:,}"),
         ("target", report.target),
         ("row labels", _label_source(report)),
+        ("groups", groups_sentence(report) or "none (rows treated as independent)"),
         ("parameters", f"{report.parameters:,}"),
         ("complete cases", f"{report.complete_cases:,}"),
         ("gate", report.gate.word),
+        ("purpose", report.purpose),
         ("accepted findings", f"{len(report.accepted):,} (counted, not listed)"),
     ]
     if report.info.sha256:
@@ -97,7 +105,7 @@ def _facts(report: "Report") -> str:
     return f'<dl class="facts">{body}</dl>'
 
 
-def _design(report: "Report") -> str:
+def _design(report: "Report", prefix: str = "") -> str:
     design = report.design
     rows = []
     for term in design.get("terms", []):
@@ -105,9 +113,9 @@ def _design(report: "Report") -> str:
         rows.append(f"<tr><td>{esc(term['column'])}</td><td>{esc(term['kind'])}</td><td class=\"n\">{int(term['parameters'])}</td><td>{esc(extra)}</td></tr>")
     left_out = "".join(f"<li><b>{esc(c)}</b>: {esc(why)}</li>" for c, why in design.get("left_out", {}).items())
     return (
-        "<h2>Design</h2>"
+        f'<h2 id="{prefix}design">Design</h2>'
         f"<p>{'with' if design.get('intercept') else 'without'} intercept; {esc(design.get('coding', ''))}; "
-        f"{int(design.get('rows_dropped', 0)):,} row(s) dropped as incomplete.</p>"
+        f"{counted(int(design.get('rows_dropped', 0)), 'row')} dropped as incomplete.</p>"
         "<table><thead><tr><th>term</th><th>kind</th><th>parameters</th><th>coding</th></tr></thead>"
         f"<tbody>{''.join(rows)}</tbody></table>"
         + (f"<p class=\"label\">Left out of the predictors:</p><ul>{left_out}</ul>" if left_out else "")
@@ -121,15 +129,42 @@ def _counts(report: "Report", findings: list[Finding]) -> str:
     return f'<table class="counts"><thead><tr>{head}</tr></thead><tbody><tr>{body}</tr></tbody></table>'
 
 
-def _finding(finding: Finding, why: str) -> str:
-    parts = [f'<article class="finding grade-{finding.grade.word}">']
-    columns = f' <span class="columns">{esc(", ".join(finding.columns))}</span>' if finding.columns else ""
-    parts.append(f'<div><span class="tag grade-{finding.grade.word}">{esc(finding.grade.word)}</span> <span class="rule">{esc(finding.rule)}</span>{columns}</div>')
+def rule_anchor(rule_id: str, prefix: str = "") -> str:
+    """The id of a rule's catalogue entry, on the catalogue page or in a report's appendix (``prefix`` per table)."""
+    return prefix + "rule-" + rule_id.replace(".", "-")
+
+
+def rule_entry(rule: "RuleLike", anchor: str) -> str:
+    """One rule's catalogue entry: summary, grades, why, thresholds with their sources, remedy.
+
+    The same entry makes up the catalogue page (``prefit rules --format html``) and a report's appendix of the
+    rules its findings came from, so a report stays one self-contained page.
+    """
+    from ..rule import default_grades
+
+    limits = "".join(f"<tr><td>{esc(t.name)}</td><td>{esc(t.describe())}</td><td>{esc(t.source)}</td></tr>" for t in rule.thresholds)
+    table = f"<table><thead><tr><th>threshold</th><th>rule</th><th>source</th></tr></thead><tbody>{limits}</tbody></table>" if limits else ""
+    grades = ", ".join(g.word for g in default_grades(rule)) or "-"
+    return (
+        f'<article class="finding rule-entry" id="{anchor}"><h3 class="rule">{esc(rule.id)}</h3>'
+        f'<p>{esc(rule.summary)}</p><p><span class="label">grades:</span> {esc(grades)}</p>'
+        f'<p><span class="label">what it does to a fit:</span> {esc(rule.why)}</p>{table}'
+        f'<p class="remedy"><span class="label">remedy:</span> {esc(rule.remedy)}</p></article>'
+    )
+
+
+def _finding(finding: Finding, why: str, prefix: str) -> str:
+    opened = " open" if finding.grade > Grade.NOTE else ""
+    parts = [f'<details class="finding grade-{finding.grade.word}"{opened}>']
+    columns = f' <span class="columns">{esc(capped_names(finding.columns))}</span>' if finding.columns else ""
+    link = f'<a class="rule" href="#{rule_anchor(finding.rule, prefix)}" title="the rule in the catalogue below">{esc(finding.rule)}</a>'
+    parts.append(f'<summary><span class="tag grade-{finding.grade.word}">{esc(finding.grade.word)}</span> {link}{columns}</summary>')
     parts.append(f"<p>{esc(finding.message)}</p>")
     if finding.rows:
         items, more = row_groups(finding, LISTED_ROWS)
         shown = ", ".join(items)
-        parts.append(f'<p><span class="label">rows:</span> {esc(shown)}{esc(f" and {more:,} more rows") if more > 0 else ""}</p>')
+        tail = f" and {counted(more, 'more row')}" if more > 0 else ""
+        parts.append(f'<p><span class="label">rows:</span> {esc(shown + tail)}</p>')
     if finding.value is not None or finding.threshold is not None:
         measured = fmt(finding.value) if finding.value is not None else "-"
         limit = fmt(finding.threshold) if finding.threshold is not None else "-"
@@ -138,8 +173,23 @@ def _finding(finding: Finding, why: str) -> str:
         parts.append(f'<p><span class="label">why it matters:</span> {esc(why)}</p>')
     if finding.remedy:
         parts.append(f'<p class="remedy"><span class="label">remedy:</span> {esc(finding.remedy)}</p>')
-    parts.append("</article>")
+    parts.append("</details>")
     return "".join(parts)
+
+
+def _contents(findings: list[Finding], prefix: str, plots: list["Plot"]) -> str:
+    """The table of contents: findings by grade with their counts, the design, each plot."""
+    counts = count_by_grade(findings)
+    items = [
+        f'<li><a href="#{prefix}grade-{word}">{esc(word)}</a> <span class="count">{n}</span></li>' for word, n in counts.items() if n
+    ]
+    if not findings:
+        items.append(f'<li><a href="#{prefix}findings">findings</a> <span class="count">0</span></li>')
+    items.append(f'<li><a href="#{prefix}design">design</a></li>')
+    if findings:
+        items.append(f'<li><a href="#{prefix}rules">rules</a></li>')
+    items += [f'<li><a href="#{plot.key}">{esc(plot.title)}</a></li>' for plot in plots]
+    return f'<nav class="toc" aria-label="contents"><ul>{"".join(items)}</ul></nav>'
 
 
 def table_section(report: "Report", findings: list[Finding], run: RunFacts, plots: bool, prefix: str = "t1-") -> str:
@@ -152,27 +202,33 @@ def table_section(report: "Report", findings: list[Finding], run: RunFacts, plot
     sampled = report.engine.sentence() if report.engine is not None else None
     if sampled is not None:
         out.append(f"<p>{esc(sampled)}</p>")
-    out.append("<h2>Findings</h2>")
+    drawn: list[Plot] = []
+    if plots:
+        from .plots import draw_all
+
+        drawn = draw_all(report, prefix)
+    out.append(_contents(findings, prefix, drawn))
+    out.append(f'<h2 id="{prefix}findings">Findings</h2>')
     out.append(_counts(report, findings))
     if not findings:
         out.append("<p>No findings.</p>")
     for grade in GRADES_STRONGEST_FIRST:
         group = [f for f in findings if f.grade is grade]
         if group:
-            out.append(f'<h3><span class="tag grade-{grade.word}">{esc(grade.word)}</span> {len(group)}: {esc(GRADE_MEANINGS[grade])}</h3>')
-            out.extend(_finding(f, run.why(f.rule)) for f in group)
-    out.append(_design(report))
-    if plots:
-        from .plots import draw_all
-
-        drawn = draw_all(report, prefix)
-        if drawn:
-            out.append("<h2>Plots</h2>")
-        for plot in drawn:
-            title_id = f"{plot.key}-title"
-            svg = plot.svg.replace(">", f'><title id="{title_id}">{esc(plot.title)}</title>', 1)
-            out.append(f'<figure class="plot" id="{plot.key}"><h3>{esc(plot.title)}</h3>{svg}<figcaption>{esc(plot.caption)}</figcaption></figure>')
-    out.append(f'<p class="label">{len(report.outcomes)} rule(s) ran; prefit {esc(run.version)}.</p>')
+            out.append(f'<h3 id="{prefix}grade-{grade.word}"><span class="tag grade-{grade.word}">{esc(grade.word)}</span> {len(group)}: {esc(GRADE_MEANINGS[grade])}</h3>')
+            out.extend(_finding(f, run.why(f.rule), prefix) for f in group)
+    out.append(_design(report, prefix))
+    if drawn:
+        out.append("<h2>Plots</h2>")
+    for plot in drawn:
+        title_id = f"{plot.key}-title"
+        svg = plot.svg.replace(">", f'><title id="{title_id}">{esc(plot.title)}</title>', 1)
+        out.append(f'<figure class="plot" id="{plot.key}"><h3>{esc(plot.title)}</h3>{svg}<figcaption>{esc(plot.caption)}</figcaption></figure>')
+    cited = [run.rules[rule_id] for rule_id in sorted({f.rule for f in findings}) if rule_id in run.rules]
+    if cited:
+        out.append(f'<h2 id="{prefix}rules">Rules behind these findings</h2>')
+        out.extend(rule_entry(rule, rule_anchor(rule.id, prefix)) for rule in cited)
+    out.append(f'<p class="label">{counted(len(report.outcomes), "rule")} ran; prefit {esc(run.version)}.</p>')
     out.append("</section>")
     return "".join(out)
 

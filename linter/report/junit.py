@@ -60,6 +60,7 @@ class JunitWriter(ReportWriter):
             ("complete_cases", str(report.complete_cases)),
             ("parameters", str(report.parameters)),
             ("gate", report.gate.word),
+            ("purpose", report.purpose),
             ("accepted", str(len(report.accepted))),
         ):
             ET.SubElement(properties, "property", {"name": name, "value": xml_text(value)})

@@ -13,7 +13,8 @@ from __future__ import annotations
 import re
 from typing import TYPE_CHECKING
 
-from ..findings import GRADES_STRONGEST_FIRST, Finding, count_by_grade
+from ..findings import GRADES_STRONGEST_FIRST, Finding, count_by_grade, counted
+from ..rule import capped_names
 from ..text import inert_message
 from .base import ReportWriter, RunFacts, row_groups
 
@@ -45,7 +46,7 @@ def _rows(finding: Finding) -> str:
     items, more = row_groups(finding, LISTED_ROWS)
     shown = ", ".join(md_text(item) for item in items)
     stop = "" if finding.message.rstrip().endswith((".", ";", ":")) else "."
-    return f"{stop} Rows: {shown}" + (f" and {more:,} more rows" if more > 0 else "") + "."
+    return f"{stop} Rows: {shown}" + (f" and {counted(more, 'more row')}" if more > 0 else "") + "."
 
 
 class MarkdownWriter(ReportWriter):
@@ -65,7 +66,7 @@ class MarkdownWriter(ReportWriter):
         lines = [f"### prefit: {md_text(report.info.path)}: {_verdict(report)}", ""]
         lines.append(
             f"{report.info.rows:,} rows, {report.info.columns:,} columns; target {md_text(report.target)}; "
-            f"{report.parameters:,} parameters; {report.complete_cases:,} complete cases."
+            f"{report.parameters:,} parameters; {report.complete_cases:,} complete cases; purpose {report.purpose}."
         )
         sampled = report.engine.sentence() if report.engine is not None else None
         if sampled is not None:
@@ -81,7 +82,7 @@ class MarkdownWriter(ReportWriter):
             lines.append("| grade | rule | columns | finding |")
             lines.append("|---|---|---|---|")
             for f in self.findings:
-                columns = ", ".join(md_text(c) for c in f.columns) or "-"
+                columns = md_text(capped_names(f.columns)) or "-"
                 lines.append(f"| {f.grade.word} | `{f.rule}` | {columns} | {md_text(f.message)}{_rows(f)} |")
             lines.append("")
             remedies: list[str] = []

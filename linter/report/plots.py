@@ -28,9 +28,10 @@ if TYPE_CHECKING:
     from matplotlib.figure import Figure
 
     from ..api import Report
+    from ..context import RunContext
 
 COOK_CONTOURS = (0.5, 1.0)
-"""Cook's distance contours drawn on the influence plot (common practice; from memory: the levels R's ``plot.lm`` draws)."""
+"""Cook's distance contours drawn when no installed rule declares Cook's distance thresholds (common practice)."""
 VIF_LINES = ((5.0, "common practice"), (10.0, "common practice"))
 """VIF reference lines used when no installed rule declares VIF thresholds."""
 MAX_POINTS = 4000
@@ -119,6 +120,23 @@ def cook_contour(hat: np.ndarray, level: float, parameters: int, df_resid: int) 
     return np.where((internal < df_resid) & (hat > 0) & (hat < 1), external, np.nan)
 
 
+def _cook_levels(report: "Report", n: int, rank: int, df_resid: int) -> list[tuple[float, str]]:
+    """The Cook's distance levels the rule grades at, weakest first, each with its grade; fixed levels otherwise.
+
+    The rule's ``weakens`` threshold is the numerator of a size-scaled cut-off (4/n) and its ``misleads``
+    threshold a quantile of F(p, n - p) (the median); a plugin rule with other thresholds gets the fixed levels.
+    """
+    for rule in report.rules:
+        if rule.id != "influence.cooks-distance":
+            continue
+        limits = {t.name: t.value for t in rule.thresholds if t.grade is not None}
+        if {"weakens", "misleads"} <= set(limits):
+            import scipy.stats
+
+            return [(limits["weakens"] / n, "weakens"), (float(scipy.stats.f.ppf(limits["misleads"], rank, df_resid)), "misleads")]
+    return [(level, "reference") for level in COOK_CONTOURS]
+
+
 def influence(report: "Report", key: str = "influence") -> Plot | None:
     """Leverage against externally studentized residual, with Cook's distance contours and flagged rows labelled.
 
@@ -140,7 +158,8 @@ def influence(report: "Report", key: str = "influence") -> Plot | None:
     named = np.asarray(_flagged_positions(report), dtype=np.int64)
     in_design = np.minimum(np.searchsorted(ctx.design.positions, named), n - 1)
     flagged = np.intersect1d(in_design[ctx.design.positions[in_design] == named], finite)
-    beyond = finite[cook[finite] >= COOK_CONTOURS[0]]
+    levels = _cook_levels(report, n, rank, df_resid)
+    beyond = finite[cook[finite] >= levels[0][0]]
     if flagged.size == 0:
         flagged = beyond
     by_cook = finite[np.argsort(-cook[finite], kind="stable")]
@@ -154,11 +173,11 @@ def influence(report: "Report", key: str = "influence") -> Plot | None:
     grid = np.linspace(max(1e-4, float(np.min(hat[finite])) * 0.9), min(0.999, max(h_max * 1.15, 3.0 * rank / n)), 200)
     r_lim = max(3.0, float(np.nanmax(np.abs(studentized[finite]))) * 1.1)
     contours_drawn = 0
-    for level, style in zip(COOK_CONTOURS, ("--", ":")):
+    for (level, word), style in zip(levels, ("--", ":")):
         bound = cook_contour(grid, level, rank, df_resid)
         keep = np.isfinite(bound) & (bound <= r_lim * 1.05)
         contours_drawn += int(keep.any())
-        axes.plot(grid[keep], bound[keep], style, color=COLOURS["contour"], linewidth=1, label=f"Cook's distance {level:g}" if keep.any() else None)
+        axes.plot(grid[keep], bound[keep], style, color=COLOURS["contour"], linewidth=1, label=f"Cook's distance {level:.3g} ({word})" if keep.any() else None)
         axes.plot(grid[keep], -bound[keep], style, color=COLOURS["contour"], linewidth=1)
     axes.axhline(0.0, color="#999999", linewidth=0.6)
     labelled: dict[str, int] = {}
@@ -175,8 +194,9 @@ def influence(report: "Report", key: str = "influence") -> Plot | None:
     axes.grid(alpha=0.25)
     sampled = "" if shown.size == finite.size else f" Showing {shown.size:,} of {finite.size:,} rows (every row beyond the first contour and every named row included)."
     caption = (
-        f"Each point is a complete case ({n:,}); dashed and dotted curves are Cook's distance "
-        f"{COOK_CONTOURS[0]:g} and {COOK_CONTOURS[1]:g} for {rank} parameters. Labelled: rows named by influence or outlier findings "
+        f"Each point is a complete case ({n:,}); the curves are Cook's distance "
+        + " and ".join(f"{level:.3g} ({word})" for level, word in levels)
+        + f" for {rank} parameters. Labelled: rows named by influence or outlier findings "
         f"(or, when none are, rows beyond the first contour); "
         + (f"{len(labelled)} label(s), each at the row of that label with the largest Cook's distance." if labelled else "no row qualifies.")
         + ("" if contours_drawn else " Both contours lie beyond the plotted range: no row comes near them.")
@@ -203,8 +223,10 @@ def missingness(report: "Report", key: str = "missingness") -> Plot | None:
     rows = ctx.table.num_rows
     picked = _evenly(np.arange(rows), MAX_MAP_ROWS)
     masks = [_missing_mask(ctx.table.column(c)) for c in columns]
-    mask = np.column_stack([m[picked] for m in masks])
     counts = [int(m.sum()) for m in masks]
+    if not any(counts) and len(columns) == ctx.table.num_columns:
+        return Plot(key, "Missing values", "", f"No missing values: all {rows:,} rows are complete in every column.")
+    mask = np.column_stack([m[picked] for m in masks])
     figure = _figure(min(1.2 + 0.28 * len(columns), 12.0), 4.6)
     axes = figure.add_subplot(1, 1, 1)
     from matplotlib.colors import ListedColormap
@@ -234,6 +256,26 @@ def _vif_lines(report: "Report") -> tuple[list[tuple[float, str]], str]:
     return [(value, "reference") for value, _ in VIF_LINES], "common practice"
 
 
+def _term_inflation(ctx: "RunContext") -> tuple[list[str], np.ndarray]:
+    """Each design term's inflation as the VIF rule grades it (GVIF^(1/df)); terms in an exact dependency are infinite."""
+    shared = ctx.collinearity
+    graded = {term.term: term.vif_scale for term in shared.terms}
+    left_out = {shared.design_names[j] for j in shared.left_out}
+    names: list[str] = []
+    values: list[float] = []
+    for term in ctx.design.terms:
+        if term.source == INTERCEPT or not term.columns:
+            continue
+        if term.source in graded:
+            names.append(term.source)
+            values.append(graded[term.source])
+        elif left_out.intersection(term.columns):
+            names.append(term.source)
+            values.append(np.inf)
+    order = np.arange(len(names))[:MAX_MATRIX_COLUMNS]
+    return [names[i] for i in order], np.asarray([values[i] for i in order], dtype=float)
+
+
 def collinearity(report: "Report", key: str = "collinearity") -> Plot | None:
     """The predictor correlation heatmap (complete cases) beside a bar chart of VIFs with the threshold lines.
 
@@ -251,7 +293,6 @@ def collinearity(report: "Report", key: str = "collinearity") -> Plot | None:
     if len(names) < 2:
         return None
     correlation = shared.correlation[:shown, :shown]
-    vif = np.concatenate([np.asarray(shared.vif[:shown], dtype=float), np.full(len(names) - shown, np.inf)])
     lines, lines_source = _vif_lines(report)
     figure = _figure(min(8.0 + 0.45 * len(names), 14.0), min(3.2 + 0.3 * len(names), 9.5))
     left, right = figure.subplots(1, 2, gridspec_kw={"width_ratios": [1.2, 1.0]})
@@ -265,27 +306,32 @@ def collinearity(report: "Report", key: str = "collinearity") -> Plot | None:
                 left.text(j, i, f"{correlation[i, j]:.2f}", ha="center", va="center", fontsize=6, color="white" if abs(correlation[i, j]) > 0.6 else "black")
     figure.colorbar(image, ax=left, fraction=0.046, pad=0.04)
     left.set_title("correlation (complete cases)", fontsize=9)
-    top = max(float(np.max(vif[np.isfinite(vif)], initial=1.0)), max(v for v, _ in lines)) * 1.25
-    heights = np.where(np.isfinite(vif), vif, top)
-    positions = np.arange(len(names))
-    bars = right.barh(positions, heights, color=[COLOURS["flagged"] if not np.isfinite(v) or v >= lines[0][0] else COLOURS["point"] for v in vif])
-    for bar, value in zip(bars, vif):
-        right.text(bar.get_width(), bar.get_y() + bar.get_height() / 2, " inf" if not np.isfinite(value) else f" {value:.1f}", va="center", fontsize=7)
+    terms, inflation = _term_inflation(ctx)
+    finite = inflation[np.isfinite(inflation)]
+    top = max(float(np.max(finite, initial=1.0)), max(v for v, _ in lines)) * 3.0
+    heights = np.where(np.isfinite(inflation), np.maximum(inflation, 1.0), top)
+    positions = np.arange(len(terms))
+    bars = right.barh(positions, heights, left=0.0, color=[COLOURS["flagged"] if not np.isfinite(v) or v >= lines[0][0] else COLOURS["point"] for v in inflation])
+    for bar, value in zip(bars, inflation):
+        right.text(bar.get_width(), bar.get_y() + bar.get_height() / 2, " inf (off scale)" if not np.isfinite(value) else f" {value:.3g}", va="center", fontsize=7)
     for (value, word), style in zip(lines, ("--", ":", "-.")):
         right.axvline(value, linestyle=style, color=COLOURS["contour"], linewidth=1, label=f"{word} at {value:g}")
     right.legend(loc="upper center", bbox_to_anchor=(0.5, -0.12), ncol=len(lines), fontsize=7, frameon=False)
-    right.set_xlabel("VIF", fontsize=8)
-    right.set_yticks(positions, labels, fontsize=7)
+    right.set_xscale("log")
+    right.set_xlabel("VIF (GVIF^(1/df) for a term of several dummies), log scale", fontsize=8)
+    right.set_yticks(positions, [_plain(t) for t in terms], fontsize=7)
     right.invert_yaxis()
-    right.set_xlim(0, top * 1.1)
-    right.set_title("variance inflation factor", fontsize=9)
+    right.set_xlim(1.0, top * 1.5)
+    right.set_title("variance inflation by term", fontsize=9)
+    infinite = int(np.sum(~np.isfinite(inflation)))
     caption = (
-        "Pearson correlations among the design's predictor columns over the complete cases, and each one's VIF "
-        "(the diagonal of the inverse correlation matrix). "
+        "Pearson correlations among the design's predictor columns over the complete cases, and each term's variance "
+        "inflation as the VIF rule grades it: the VIF of a numeric term, GVIF^(1/df) of a term of several dummies "
+        "(Fox & Monette 1992, JASA 87), on a log scale. "
         + " and ".join(f"{style} line at {value:g} ({word})" for (value, word), style in zip(lines, ("Dashed", "dotted", "dash-dotted")))
         + f": {lines_source}."
-        + (f" {len(exact)} column(s) in an exact dependency, left out of the correlations (infinite VIF)." if exact else "")
-        + ("" if len(names) == len(kept) + len(exact) else f" First {len(names)} of {len(kept) + len(exact)} columns.")
+        + (f" {infinite} term(s) in an exact dependency have infinite inflation, drawn to the edge as off scale." if infinite else "")
+        + ("" if len(names) == len(kept) + len(exact) else f" Correlations: first {len(names)} of {len(kept) + len(exact)} columns.")
     )
     return Plot(key, "Correlation and variance inflation", _svg(figure, key), caption)
 

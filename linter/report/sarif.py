@@ -164,6 +164,7 @@ class SarifWriter(ReportWriter):
                 "parameters": report.parameters,
                 "completeCases": report.complete_cases,
                 "gate": report.gate.word,
+                "purpose": report.purpose,
                 "gated": len(report.gated),
                 "accepted": len(report.accepted),
                 "exitCode": report.exit_code,

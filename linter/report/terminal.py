@@ -17,9 +17,11 @@ from ..findings import (
     Finding,
     Grade,
     count_by_grade,
+    counted,
 )
+from ..rule import LISTED_NAMES, capped_names
 from ..text import inert
-from .base import ReportWriter, RunFacts, labels_not_unique, row_groups
+from .base import ReportWriter, RunFacts, groups_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -52,6 +54,7 @@ def _facts(report: "Report") -> Text:
         ("target", inert(report.target)),
         ("parameters", f"{report.parameters:,}"),
         ("complete cases", f"{report.complete_cases:,}"),
+        ("purpose", report.purpose),
     ]
     for i, (label, value) in enumerate(pairs):
         if i:
@@ -67,19 +70,25 @@ def _design_line(report: "Report") -> Text:
     numeric = sum(1 for t in terms if t["kind"] in ("numeric", "datetime"))
     if numeric:
         parts.append(f"{numeric} numeric")
+    coded: list[str] = []
     for term in terms:
         if "reference" in term:
-            parts.append(f"{inert(term['column'])} ({term['parameters']} dummies, reference {inert(repr(term['reference']))})")
+            coded.append(f"{inert(term['column'])} ({counted(term['parameters'], 'dummy', 'dummies')}, reference {inert(repr(term['reference']))})")
         elif term["kind"] in ("categorical", "boolean"):
-            parts.append(f"{inert(term['column'])} (no complete rows)")
+            coded.append(f"{inert(term['column'])} (no complete rows)")
+    shown = coded if len(coded) <= LISTED_NAMES else coded[: LISTED_NAMES - 2] + [f"{len(coded) - LISTED_NAMES + 2:,} more categories"]
+    parts += shown
     line = Text()
     line.append("design ", style="facts.label")
     line.append(" + ".join(parts) or "empty")
     left_out = report.design.get("left_out", {})
     if report.design.get("id"):
         line.append(f"; row labels from {inert(repr(report.design['id']))}{_shared_labels(report)}")
+    grouping = groups_sentence(report)
+    if grouping:
+        line.append(f"; {grouping}")
     if left_out:
-        line.append("; left out: " + ", ".join(inert(name) for name in left_out))
+        line.append("; left out: " + capped_names([inert(name) for name in left_out]))
     return line
 
 
@@ -105,7 +114,7 @@ def _finding_lines(finding: Finding, explain: str | None, told: set[tuple[str, s
     finding = finding.shown()
     title = Text(finding.rule, style="finding.rule")
     if finding.columns:
-        title.append("  " + ", ".join(finding.columns), style="finding.columns")
+        title.append("  " + capped_names(finding.columns), style="finding.columns")
     head = Table.grid(padding=(0, 1))
     head.add_column(no_wrap=True)
     head.add_column()
@@ -114,7 +123,7 @@ def _finding_lines(finding: Finding, explain: str | None, told: set[tuple[str, s
     if finding.rows:
         items, more = row_groups(finding, 10)
         shown = ", ".join(items)
-        lines.append((INDENT_BODY, Text(f"rows: {shown}" + (f" and {more:,} more rows" if more > 0 else ""), style="facts.label")))
+        lines.append((INDENT_BODY, Text(f"rows: {shown}" + (f" and {counted(more, 'more row')}" if more > 0 else ""), style="facts.label")))
     if explain:
         lines.append((INDENT_BODY, Text(_once("why", explain, told), style="finding.why")))
     if finding.remedy:

@@ -24,6 +24,7 @@ from ..design import INTERCEPT, Design
 from .factor import DesignFactor
 
 DOMINANT_PROPORTION = 0.5
+MAX_BALANCED_RELATIONS = 50
 
 
 def dependent_columns(factor: DesignFactor, names: tuple[str, ...]) -> tuple[int, ...]:
@@ -32,8 +33,14 @@ def dependent_columns(factor: DesignFactor, names: tuple[str, ...]) -> tuple[int
     In each dependency the column carrying the most weight (``|coefficient| *
     column norm``, so a total rather than one of its parts) is left out, never
     the intercept; when those choices do not restore full rank, the columns
-    the pivoted QR placed beyond the rank are used instead.
+    the pivoted QR placed beyond the rank are used instead. Beyond
+    :data:`MAX_BALANCED_RELATIONS` dependencies (a design with more columns
+    than rows has a null space as wide as the shortage) the pivoted QR's
+    choice is taken at once: weighing every relation would cost O(p^3) in
+    Python and the relations alone O(p^2) memory.
     """
+    if factor.p - factor.rank > MAX_BALANCED_RELATIONS:
+        return tuple(sorted(int(j) for j in factor.perm[factor.rank :]))
     relations = factor.relations()
     if not relations:
         return ()

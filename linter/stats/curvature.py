@@ -31,7 +31,7 @@ class CurvatureCheck:
 
 def square_columns(design: Design, predictors: Sequence[str]) -> AddedColumns:
     """Squares of the named numeric predictors, centred when the design has an intercept (same span, better conditioned)."""
-    index = np.asarray([design.column_names.index(name) for name in predictors], dtype=int)
+    index = np.asarray([design.column_index[name] for name in predictors], dtype=int)
     centre = design.X.mean(axis=0)[index] if design.intercept and design.n else np.zeros(index.size)
 
     columns = column_picker(index)

@@ -8,7 +8,7 @@ from functools import cached_property
 import numpy as np
 import scipy.linalg
 
-from .mergeable import TriangularFactor
+from .mergeable import TriangularFactor, triangular
 
 EPS = float(np.finfo(np.float64).eps)
 BATCH_ROWS = 8_192
@@ -51,6 +51,12 @@ def column_scales(X: np.ndarray, batch_rows: int = BATCH_ROWS) -> np.ndarray:
 def augmented_factor(X: np.ndarray, y: np.ndarray, scales: np.ndarray) -> TriangularFactor:
     """The R factor of ``[X / scales | y]`` for one batch of rows; merge batches with ``merge``."""
     return TriangularFactor.of(np.column_stack([X / scales, y]))
+
+
+def short_augmented_factor(X: np.ndarray, y: np.ndarray, scales: np.ndarray) -> TriangularFactor:
+    """The R factor of ``[X / scales | y]`` for a design of fewer rows than columns, without its zero rows."""
+    block = np.column_stack([X / scales, y])
+    return TriangularFactor(triangular(block, short=True), int(block.shape[0]))
 
 
 def leading_clear_pivots(diagonal: np.ndarray, tolerance: float) -> int:
@@ -129,6 +135,8 @@ class Relation:
 class DesignFactor:
     """Pivoted QR of the scaled design, ``(X / scales)[:, perm] = Q r``, with ``Q' y`` carried along.
 
+    ``r`` is p x p, or n x p (upper trapezoidal) for a design of n <= p rows.
+
     ``rank`` counts the diagonal entries of ``r`` above ``tolerance =
     max(n, p) * eps * |r[0, 0]|``, the usual numerical-rank tolerance
     (Golub & Van Loan, Matrix Computations, 4th ed., sec. 5.4).
@@ -145,7 +153,8 @@ class DesignFactor:
     def from_triangular(cls, merged: TriangularFactor, scales: np.ndarray) -> "DesignFactor":
         """Finish the factor from the merged R of ``[X / scales | y]``."""
         p = scales.size
-        r0, z0, rho = merged.r[:p, :p], merged.r[:p, p], merged.r[p, p]
+        rho = merged.r[p, p] if merged.r.shape[0] > p else 0.0
+        r0, z0 = merged.r[:p, :p], merged.r[:p, p]
         if p == 0:
             return cls(scales, np.zeros((0, 0)), np.zeros(0, dtype=int), np.zeros(0), float(rho**2), merged.rows)
         r2, perm, qtz = pivoted_qr(r0, z0, max(merged.rows, p) * EPS)
@@ -159,6 +168,8 @@ class DesignFactor:
         size) and in cache; a design of at most ``batch_rows`` rows is one batch.
         """
         scales = column_scales(X)
+        if X.shape[0] <= X.shape[1]:
+            return cls.from_triangular(short_augmented_factor(X, y, scales), scales)
         merged = augmented_factor(X[:batch_rows], y[:batch_rows], scales)
         for start in range(batch_rows, X.shape[0], batch_rows):
             merged = merged.merge(augmented_factor(X[start : start + batch_rows], y[start : start + batch_rows], scales))
@@ -218,5 +229,5 @@ class DesignFactor:
             dependent = int(self.perm[j])
             right = [int(c) for c in self.perm[:k]]
             coefficients = [float(c * self.scales[dependent] / self.scales[i]) for c, i in zip(combo, right)]
-            out.append(Relation(dependent, tuple(right), tuple(coefficients), float(abs(self.r[j, j]))))
+            out.append(Relation(dependent, tuple(right), tuple(coefficients), float(abs(self.r[j, j])) if j < self.r.shape[0] else 0.0))
         return out

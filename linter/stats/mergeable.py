@@ -143,13 +143,17 @@ class TriangularFactor:
         return TriangularFactor(triangular(np.vstack([self.r, other.r])), self.rows + other.rows)
 
 
-def triangular(block: np.ndarray) -> np.ndarray:
+def triangular(block: np.ndarray, short: bool = False) -> np.ndarray:
     """The k x k upper-triangular R of a rows x k matrix (zero rows below a short matrix's rank).
+
+    With ``short`` a matrix of fewer rows than columns keeps only its
+    ``rows`` x k upper-trapezoidal R, without the zero rows (a table far wider
+    than long would otherwise hold a k x k array of zeros).
 
     LAPACK's Householder QR (``dgeqrf``) runs on a private Fortran-ordered copy that it overwrites.
     """
     rows, k = block.shape
-    r = np.zeros((k, k))
+    r = np.zeros((min(rows, k) if short else k, k))
     if rows == 0 or k == 0:
         return r
     work = np.array(block, dtype=np.float64, order="F")

@@ -168,9 +168,13 @@ class Holes:
         distinct, inverse, counts = pattern_index(mask)
         return cls(columns, mask, MissingPatterns(columns, _pattern_counts(distinct, counts)), inverse, distinct)
 
+    @cached_property
+    def _position(self) -> dict[str, int]:
+        return {column: j for j, column in enumerate(self.columns)}
+
     def missing(self, column: str) -> np.ndarray:
         """The missing mask of one column over all rows."""
-        return self.mask[:, self.columns.index(column)]
+        return self.mask[:, self._position[column]]
 
     @cached_property
     def _totals(self) -> np.ndarray:

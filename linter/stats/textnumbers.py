@@ -68,6 +68,15 @@ def _token_counts(values: pa.Array, tallies: np.ndarray, is_token: np.ndarray) -
     return pairs, grouped.num_rows
 
 
+def placeholder_levels(column: pa.ChunkedArray) -> dict[str, int]:
+    """The levels of a text category that read as "no value" (``NA``, ``n/a``, ``-``), with their counts."""
+    counts = pc.value_counts(pc.utf8_trim_whitespace(column.combine_chunks()))
+    levels = counts.field("values").to_pylist()
+    tallies = counts.field("counts").to_pylist()
+    found = {level: int(n) for level, n in zip(levels, tallies) if level is not None and missing_like(level)}
+    return dict(sorted(found.items()))
+
+
 def missing_like(token: str) -> bool:
     """Whether a non-numeric entry reads as "no value": blank, punctuation only, or a word for missing.
 

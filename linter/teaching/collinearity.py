@@ -49,3 +49,64 @@ def area_and_racks() -> Demonstration:
             "correlation": correlation,
         },
     )
+
+
+def parts_and_total() -> Demonstration:
+    """Two coefficient vectors that fit sub-meters and their exact total equally well: the coefficients are not defined."""
+    rng = generator(31)
+    rows = 120
+    compressor, fans = rng.uniform(2_000, 9_000, rows), rng.uniform(300, 1_200, rows)
+    gross = compressor + fans
+    cost = 50 + 0.21 * compressor + 0.25 * fans + rng.normal(0, 40, rows)
+    X = np.column_stack([np.ones(rows), compressor, fans, gross])
+    first, *_ = np.linalg.lstsq(X, cost, rcond=None)
+    shifted = first + 0.15 * np.array([0.0, 1.0, 1.0, -1.0])  # moves weight from the parts to the total
+    gap = float(np.max(np.abs(X @ first - X @ shifted)))
+    rank = int(np.linalg.matrix_rank(X))
+    return Demonstration(
+        (
+            f"{rows} invented site-days: compressor_kwh and fans_kwh, and gross_kwh = their exact sum, as predictors.",
+            f"The design has 4 columns but rank {rank}: one column is a combination of the others.",
+            "",
+            "                      compressor_kwh   fans_kwh   gross_kwh",
+            f"  one solution       {first[1]:>14.3f}   {first[2]:>8.3f}   {first[3]:>9.3f}",
+            f"  another solution   {shifted[1]:>14.3f}   {shifted[2]:>8.3f}   {shifted[3]:>9.3f}",
+            "",
+            f"Both give the same fitted values (largest difference {gap:.1e}): the data cannot choose between them, so",
+            "no coefficient has a meaning. Software silently drops a column of its own choosing or fails; keep either",
+            "the total or the parts.",
+        ),
+        {"rank": float(rank), "columns": 4.0, "fitted_gap": gap, "coefficient_shift": 0.15},
+    )
+
+
+def lost_digits() -> Demonstration:
+    """Coefficient error when the normal equations are solved for a badly conditioned design, against a QR solve."""
+    rng = generator(32)
+    rows = 200
+    day = np.arange(rows, dtype=float)
+    seconds = 1.7e9 + 86_400.0 * day  # a timestamp in seconds: huge and nearly constant relative to its size
+    X = np.column_stack([np.ones(rows), seconds, rng.uniform(-5, 35, rows)])
+    truth = np.array([-3.0e4, 2.0e-5, 110.0])
+    y = X @ truth
+    q, r = np.linalg.qr(X)
+    by_qr = np.linalg.solve(r, q.T @ y)
+    by_normal = np.linalg.solve(X.T @ X, X.T @ y)
+    condition = float(np.linalg.cond(X))
+    error_qr = float(np.max(np.abs(by_qr - truth) / np.abs(truth)))
+    error_normal = float(np.max(np.abs(by_normal - truth) / np.abs(truth)))
+    return Demonstration(
+        (
+            f"{rows} invented site-days with a raw timestamp in seconds (about 1.7e9) as a predictor, and exact energies.",
+            f"The design's condition number is {condition:.1e}; double precision carries about 16 digits.",
+            "",
+            "                                 largest relative error of a coefficient",
+            f"  QR (as careful solvers do)     {error_qr:.1e}",
+            f"  normal equations (X'X)         {error_normal:.1e}",
+            "",
+            "Squaring the design in X'X squares its condition number: the solver loses about twice as many digits,",
+            "and on real, noisy data the printed coefficients can be mostly rounding error. Centre or rescale such",
+            "columns (days since the first day) before fitting.",
+        ),
+        {"condition": condition, "error_qr": error_qr, "error_normal": error_normal},
+    )

@@ -33,3 +33,23 @@ def codes_as_numbers() -> Demonstration:
         ),
         {"sigma_codes": as_number.sigma, "sigma_levels": as_levels.sigma, "co2_error_codes": misses[0], "co2_error_levels": misses[1]},
     )
+
+
+def date_as_a_number() -> Demonstration:
+    """The slope on a date read as a number (days since 1970), and its intercept: a coefficient at year 1970."""
+    rng = generator(49)
+    days = np.arange(20_454.0, 20_544.0)  # 90 days of 2026, counted from 1970-01-01
+    energy = 6_000 + 15 * (days - days[0]) + rng.normal(0, 300, days.size)
+    line = fit_line(energy, days)
+    return Demonstration(
+        (
+            "90 invented days of 2026; energy creeps up by 15 kWh a day as the season warms.",
+            "",
+            f"  fitted on the raw date (days since 1970): slope {fmt(float(line.coef[1]))} kWh per day, intercept {fmt(float(line.coef[0]))} kWh",
+            "",
+            "The intercept is the energy predicted for 1 January 1970, 56 years outside the data, and the slope mixes",
+            "the season with every other trend. prefit leaves raw dates out of the design; derive a trend, a season or a",
+            "weekday column on purpose instead.",
+        ),
+        {"slope": float(line.coef[1]), "intercept": float(line.coef[0])},
+    )

@@ -31,3 +31,31 @@ def mega_site() -> Demonstration:
         ),
         {"slope_change": change, "cooks_distance": cooks, "leverage": float(with_it.hat[-1])},
     )
+
+
+def own_prediction_pull() -> Demonstration:
+    """How far one site-day moves its own fitted value: fitted with it, and predicted from the other rows."""
+    rng = generator(41)
+    rows = 60
+    doors = rng.uniform(100, 500, rows)
+    doors[-1] = 1_400.0  # a stock-take day with three times the usual dock traffic
+    energy = 4_000 + 6 * doors + rng.normal(0, 300, rows)
+    energy[-1] = 4_000 + 2 * doors[-1]  # the extra openings were brief: far less energy than the line expects
+    with_it, without = fit_line(energy, doors), fit_line(energy[:-1], doors[:-1])
+    fitted_with = with_it.coef[0] + with_it.coef[1] * doors[-1]
+    fitted_without = without.coef[0] + without.coef[1] * doors[-1]
+    dffits = float((fitted_with - fitted_without) / (without.sigma * np.sqrt(with_it.hat[-1])))
+    return Demonstration(
+        (
+            f"{rows} invented site-days; one stock-take day had 1,400 door openings (the others 100-500).",
+            "",
+            "                                  fitted energy on that day",
+            f"  line fitted with the day         {fmt(float(fitted_with)):>10}",
+            f"  line fitted without it           {fmt(float(fitted_without)):>10}",
+            f"  what the day actually used       {fmt(float(energy[-1])):>10}",
+            "",
+            f"DFFITS {dffits:.1f} (cut-off 2*sqrt(p/n) = {2 * np.sqrt(2 / rows):.2f}): the day drags the line to itself, so its",
+            "own residual looks small while the line no longer describes the other days.",
+        ),
+        {"dffits": dffits, "cutoff": float(2 * np.sqrt(2 / rows))},
+    )

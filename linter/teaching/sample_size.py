@@ -46,3 +46,36 @@ def small_extract() -> Demonstration:
         ),
         {"apparent_small": small_fit, "cv_small": small_cv, "apparent_large": large_fit, "cv_large": large_cv},
     )
+
+
+def too_few_to_see() -> Demonstration:
+    """How often a real effect is detected (F test at 5%) with 20 site-days and with 120, by simulation."""
+    from scipy import stats
+
+    rng = generator(45)
+    trials, predictors, true_r2 = 400, 4, 0.15
+    detected: dict[int, float] = {}
+    for rows in (20, 120):
+        hits = 0
+        for _ in range(trials):
+            X = rng.normal(size=(rows, predictors))
+            signal = X @ np.full(predictors, 1.0)
+            noise_sd = np.sqrt(signal.var() * (1 - true_r2) / true_r2) if signal.var() > 0 else 1.0
+            y = signal + rng.normal(0, noise_sd, rows)
+            line = fit_line(y, *X.T)
+            f = (line.r_squared / predictors) / ((1 - line.r_squared) / (rows - predictors - 1))
+            hits += int(stats.f.sf(f, predictors, rows - predictors - 1) < 0.05)
+        detected[rows] = hits / trials
+    return Demonstration(
+        (
+            f"Invented site-days where {predictors} predictors really explain {true_r2:.0%} of the energy; {trials} tables each.",
+            "",
+            "                 share of tables where the F test finds the effect (5% level)",
+            f"  20 site-days   {detected[20]:.0%}",
+            f"  120 site-days  {detected[120]:.0%}",
+            "",
+            "With 20 rows a real effect is missed most of the time, and a 'no effect' result says nothing: plan the",
+            "sample for the smallest effect worth finding (80% power is the usual aim).",
+        ),
+        {"power_20": detected[20], "power_120": detected[120]},
+    )

@@ -10,7 +10,6 @@ FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
     ("hygiene.duplicate-rows", "weakens", ()),
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles")),
 ]
 EXIT_CODE = 0
 

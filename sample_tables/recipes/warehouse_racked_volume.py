@@ -12,7 +12,9 @@ EXPECTED = [
     ("collinearity.condition", "misleads", ("floor_area_m2", "rack_volume_m3")),
     ("collinearity.vif", "misleads", ("floor_area_m2",)),
     ("collinearity.vif", "misleads", ("rack_volume_m3",)),
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "rack_volume_m3")),
+    ("grouping.between-predictors", "weakens", ("floor_area_m2", "compressor_type", "rack_volume_m3")),
+    ("grouping.group-outliers", "weakens", ("floor_area_m2", "rack_volume_m3")),
+    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles")),
 ]
 EXIT_CODE = 1
 

@@ -10,7 +10,7 @@ FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--id", "site_day"]
 EXPECTED = [
     ("sample-size.per-parameter", "misleads", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "humidity_pct", "racks", "staff_on_shift", "forklift_hours")),
-    ("sample-size.minimum", "misleads", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "humidity_pct", "racks", "staff_on_shift", "forklift_hours")),
+    ("sample-size.minimum", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "humidity_pct", "racks", "staff_on_shift", "forklift_hours")),
     ("collinearity.condition", "misleads", ("outdoor_c", "floor_area_m2", "racks")),
     ("collinearity.vif", "misleads", ("floor_area_m2",)),
     ("collinearity.vif", "weakens", ("racks",)),

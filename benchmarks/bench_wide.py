@@ -1,0 +1,176 @@
+"""Wide tables: prefit against the floor (read, one thin QR) for hundreds to thousands of predictors.
+
+Run ``python benchmarks/bench_wide.py`` (``--only ROWSxCOLUMNS`` for one shape, ``--skip-largest`` to leave out
+the 100,000 x 500 and 50 x 10,000 shapes). Tables are invented standard normal noise (seeded, cached under
+``benchmarks/.tables``): ``x0001 ... xP`` predictors, ten of them (evenly spaced) with 0.5% of their values missing at random, and a
+noise target ``y``. Each route runs as a whole process (``wait4`` gives the peak resident memory); the check runs
+with ``--format json`` (timed) and again as text, whose line count is recorded, and the findings at ``weakens`` or above
+are counted by rule. ``outliers.multivariate`` is skipped in those runs and its robust covariance timed on its own
+process (``robust``, given up after ``--robust-timeout`` seconds), because it is the one step whose cost is not
+yet bounded by the design's.
+Results are printed and written to ``benchmarks/results/wide.json``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from collections import Counter
+from pathlib import Path
+
+from bench_scale import TIMED_ENVIRONMENT, run_process
+
+HERE = Path(__file__).resolve().parent
+CACHE = HERE / ".tables"
+RESULTS = HERE / "results" / "wide.json"
+SHAPES = ((10_000, 200), (10_000, 1_000), (2_000, 1_000), (100_000, 500), (50, 10_000))
+LARGEST = ((100_000, 500), (50, 10_000))
+MISSING_SHARE = 0.005
+STRONG = ("blocks", "misleads", "weakens")
+ROBUST_RULE = "outliers.multivariate"
+
+FLOOR = r"""
+import sys
+import numpy as np
+import pyarrow.csv as pacsv
+table = pacsv.read_csv(sys.argv[1])
+X = np.column_stack([column.to_numpy(zero_copy_only=False) for column in table.columns]).astype(np.float64)
+X = X[np.isfinite(X).all(axis=1)]
+r = np.linalg.qr(X, mode="r")
+print(r.shape)
+"""
+
+ROBUST = r"""
+import sys, time
+from prefit.api import build_context, options_from
+from prefit.reading import read_table
+table, info = read_table(sys.argv[1])
+context = build_context(table, info, options_from(target="y"))
+context.design
+start = time.perf_counter()
+context.robust
+print(time.perf_counter() - start)
+"""
+
+
+def table_path(rows: int, columns: int) -> Path:
+    """Where the cached noise table of this shape lives."""
+    return CACHE / f"noise_{rows}x{columns}.csv"
+
+
+def generate(rows: int, columns: int) -> Path:
+    """Write one noise table (``columns`` predictors and the target) unless it is cached."""
+    import numpy as np
+    import pyarrow as pa
+    import pyarrow.csv as pacsv
+
+    path = table_path(rows, columns)
+    if path.exists():
+        return path
+    CACHE.mkdir(exist_ok=True)
+    rng = np.random.default_rng(rows * 100_000 + columns)
+    X = rng.standard_normal((rows, columns))
+    for j in range(0, columns, max(columns // 10, 1)):
+        X[rng.random(rows) < MISSING_SHARE, j] = np.nan
+    width = len(str(columns))
+    data = {f"x{j + 1:0{width}d}": pa.array(X[:, j], from_pandas=True) for j in range(columns)}
+    data["y"] = pa.array(rng.standard_normal(rows))
+    pacsv.write_csv(pa.table(data), path)
+    return path
+
+
+def check_command(path: Path, fmt: str) -> list[str]:
+    """The prefit command on one table in one output format."""
+    return [sys.executable, "-m", "prefit", "check", str(path), "--target", "y", "--format", fmt, "--no-config", "--skip", ROBUST_RULE]
+
+
+def timed_output(command: list[str], timeout: float | None = None) -> tuple[float, float, str]:
+    """Wall time (s), peak resident memory (MiB) and standard output of one whole process (exit 0 or 1).
+
+    With a ``timeout`` the process is ended after that many seconds (``TimeoutError``) and its memory is not measured.
+    """
+    import os
+    import subprocess
+    import tempfile
+    import time
+
+    with tempfile.TemporaryFile() as out:
+        start = time.perf_counter()
+        child = subprocess.Popen(command, stdout=out, stderr=subprocess.PIPE, env={**os.environ, **TIMED_ENVIRONMENT})
+        if timeout is None:
+            _, status, usage = os.wait4(child.pid, 0)
+            code, peak = os.waitstatus_to_exitcode(status), usage.ru_maxrss / 1024
+        else:
+            try:
+                code, peak = child.wait(timeout), float("nan")
+            except subprocess.TimeoutExpired:
+                child.kill()
+                child.wait()
+                raise TimeoutError(command[-1]) from None
+        elapsed = time.perf_counter() - start
+        stderr = child.stderr.read().decode() if child.stderr else ""
+        if code not in (0, 1):
+            raise RuntimeError(f"{' '.join(command)} exited {code}: {stderr[-500:]}")
+        out.seek(0)
+        return elapsed, peak, out.read().decode()
+
+
+def measure(rows: int, columns: int, robust_timeout: float) -> dict[str, object]:
+    """Time and peak memory of the floor and of prefit on one shape, with the report's size and strong findings."""
+    path = generate(rows, columns)
+    floor_seconds, floor_mib = run_process([sys.executable, "-c", FLOOR, str(path)])
+    seconds, mib, output = timed_output(check_command(path, "json"))
+    report = json.loads(output)
+    findings = report["findings"]
+    strong = Counter(finding["rule"] for finding in findings if finding["grade"] in STRONG)
+    text_lines = timed_output(check_command(path, "text"))[2].count("\n")
+    try:
+        robust: float | None = float(timed_output([sys.executable, "-c", ROBUST, str(path)], robust_timeout)[2].strip())
+    except TimeoutError:
+        robust = None
+    row: dict[str, object] = {
+        "rows": rows,
+        "columns": columns,
+        "file_mib": path.stat().st_size / 2**20,
+        "floor_seconds": floor_seconds,
+        "floor_peak_mib": floor_mib,
+        "prefit_seconds": seconds,
+        "prefit_peak_mib": mib,
+        "time_over_floor": seconds / floor_seconds,
+        "memory_over_floor": mib / floor_mib,
+        "robust_seconds": robust,
+        "findings": len(findings),
+        "strong_findings": dict(sorted(strong.items())),
+        "text_lines": text_lines,
+    }
+    print(
+        f"{rows:>7,} x {columns:<6,} floor {floor_seconds:6.2f} s {floor_mib:6.0f} MiB  prefit {seconds:6.2f} s {mib:6.0f} MiB"
+        f"  time {row['time_over_floor']:5.2f}x (robust estimate alone: {'over the timeout' if robust is None else f'{robust:.2f} s'})"
+        f"  memory {row['memory_over_floor']:4.2f}x  text {text_lines} lines  weakens+ {dict(strong) or 'none'}",
+        flush=True,
+    )
+    return row
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--only", metavar="ROWSxCOLUMNS", help="one shape, e.g. 2000x1000")
+    parser.add_argument("--skip-largest", action="store_true", help="leave out 100,000 x 500 and 50 x 10,000")
+    parser.add_argument("--robust-timeout", type=float, default=600.0, help="seconds to give the robust estimate alone")
+    args = parser.parse_args()
+    shapes = tuple(shape for shape in SHAPES if not (args.skip_largest and shape in LARGEST))
+    if args.only:
+        shapes = tuple(shape for shape in SHAPES if f"{shape[0]}x{shape[1]}" == args.only)
+    results = [measure(rows, columns, args.robust_timeout) for rows, columns in shapes]
+    RESULTS.parent.mkdir(exist_ok=True)
+    previous = json.loads(RESULTS.read_text(encoding="utf-8")) if RESULTS.exists() else {"shapes": []}
+    measured = {(row["rows"], row["columns"]) for row in results}
+    kept = [row for row in previous["shapes"] if (row["rows"], row["columns"]) not in measured]
+    ordered = sorted(kept + results, key=lambda row: SHAPES.index((row["rows"], row["columns"])))
+    RESULTS.write_text(json.dumps({"environment": dict(TIMED_ENVIRONMENT), "shapes": ordered}, indent=2) + "\n", encoding="utf-8")
+    print(f"written to {RESULTS.relative_to(HERE.parent)}")
+
+
+if __name__ == "__main__":
+    main()
