@@ -105,7 +105,7 @@ class Report:
 
     def to_dict(self) -> dict[str, Any]:
         """The report as plain JSON types, in the documented schema; long texts cut (:func:`prefit.text.cut_texts`)."""
-        return cut_texts({
+        document: dict[str, Any] = cut_texts({
             "schema": REPORT_SCHEMA_VERSION,
             "tool": {"name": TOOL_NAME, "version": __version__},
             "table": {"path": self.info.path, "format": self.info.format, "rows": self.info.rows, "columns": self.info.columns, "sha256": self.info.sha256},
@@ -123,6 +123,7 @@ class Report:
             "accepted": len(self.accepted),
             **({"engine": self.engine.to_dict()} if self.engine is not None else {}),
         })
+        return document
 
     def to_json(self) -> str:
         """The JSON report: sorted findings, NaN and infinities as null, stable bytes."""
