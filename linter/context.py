@@ -27,6 +27,7 @@ from .stats.influence import RowInfluence, row_influence
 from .stats.mergeable import Moments
 from .stats.missingness import Holes
 from .stats.robust import RobustColumns, RobustDistances, median_and_mad, robust_distances
+from .stats.skewed import AdjustedFences, adjusted_fences
 from .stats.summaries import ColumnSummary, ColumnTally, summarise
 from .stats.textnumbers import TextNumbers
 
@@ -59,6 +60,7 @@ class RunContext:
     _text_numbers: dict[str, TextNumbers] = field(default_factory=dict, init=False, repr=False)
     _values: dict[str, np.ndarray] = field(default_factory=dict, init=False, repr=False)
     _spreads: dict[str, tuple[float, float]] = field(default_factory=dict, init=False, repr=False)
+    _fences: dict[str, AdjustedFences | None] = field(default_factory=dict, init=False, repr=False)
     _tallies: dict[str, ColumnTally] = field(default_factory=dict, init=False, repr=False)
 
     @cached_property
@@ -250,6 +252,12 @@ class RunContext:
             converted.setflags(write=False)
             self._values[column] = converted
         return self._values[column]
+
+    def fences(self, column: str) -> AdjustedFences | None:
+        """The adjusted boxplot of a numeric column's finite values over all table rows (computed once; None when the IQR is zero)."""
+        if column not in self._fences:
+            self._fences[column] = adjusted_fences(self.values(column))
+        return self._fences[column]
 
     def median_and_mad(self, column: str) -> tuple[float, float]:
         """Median and median absolute deviation of a numeric column's finite values over all table rows (computed once)."""

@@ -173,6 +173,7 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
     _require_columns(names, options.categorical, "--categorical")
     if options.order is not None:
         _require_columns(names, (options.order,), "--order")
+        _require_orderable(table.column(options.order), options.order)
     group, group_origin = _group_column(table, options)
     if options.predictors is not None:
         _require_columns(names, options.predictors, "--predictors")
@@ -244,6 +245,36 @@ def _group_column(table: pa.Table, options: CheckOptions) -> tuple[str | None, s
     return None, None
 
 
+ORDER_EXAMPLE_CHARS = 40
+
+
+def _require_orderable(column: pa.ChunkedArray, name: str) -> None:
+    """Raise a usage problem unless ``column`` holds numbers, dates, times or durations that can order the rows."""
+    t = column.type.value_type if pa.types.is_dictionary(column.type) else column.type
+    if _is_numeric_type(t) or pa.types.is_boolean(t) or (pa.types.is_temporal(t) and not pa.types.is_interval(t)):
+        return
+    present = column.drop_null()
+    if pa.types.is_dictionary(column.type):
+        present = present.cast(t)
+    if _is_text_type(t) and len(present):
+        days = pc.utf8_slice_codeunits(present, 0, 10)
+        dates = pc.strptime(days, format="%Y-%m-%d", unit="s", error_is_null=True)
+        # A day beyond its month (2024-02-30) parses as a later day; writing it back shows the difference.
+        valid = pc.fill_null(pc.equal(pc.strftime(dates, format="%Y-%m-%d"), days), False)
+        if dates.null_count < len(present):
+            bad = present.filter(pc.invert(valid))[0].as_py()
+            found = f"dates, but {bad[:ORDER_EXAMPLE_CHARS]!r} is not a valid date, so the column was read as text"
+        else:
+            found = f"text, such as {present[0].as_py()[:ORDER_EXAMPLE_CHARS]!r}, that is not a number or an ISO date"
+    else:
+        found = f"values of type {t}" if len(present) else "no values"
+    raise UsageProblem(
+        f"--order {name!r}",
+        f"must be a column of numbers, dates or times to put the rows in order; it holds {found}",
+        "name a date, time or number column, or write its values as ISO dates (YYYY-MM-DD) or numbers",
+    )
+
+
 def target_candidates(table: pa.Table) -> list[str]:
     """Columns that could be a least-squares response: numeric, and neither row numbers nor whole-number dates."""
     return [
@@ -283,14 +314,20 @@ def _text_reason(column: pa.ChunkedArray) -> str:
     return f"text with {distinct} distinct values in {present} rows; as a category it would cost {distinct - 1} parameters"
 
 
+UNITS_PER_DAY = {"s": 86_400.0, "ms": 86_400e3, "us": 86_400e6, "ns": 86_400e9}
+
+
 def numeric_values(column: pa.ChunkedArray) -> np.ndarray:
-    """A numeric, boolean or datetime column as float64 with NaN for missing values."""
+    """A numeric, boolean or datetime column as float64 with NaN for missing values (dates, times and durations in days)."""
     t = column.type
     if pa.types.is_dictionary(t):
         column = column.cast(t.value_type)
         t = column.type
     if pa.types.is_null(t):
         return np.full(len(column), np.nan)
+    if pa.types.is_duration(t) or pa.types.is_time(t):
+        units = pc.cast(column, pa.int64() if t.bit_width == 64 else pa.int32())
+        return np.asarray(units.to_numpy(zero_copy_only=False), dtype=np.float64) / UNITS_PER_DAY[t.unit]
     if pa.types.is_temporal(t):
         seconds = pc.cast(pc.cast(column, pa.timestamp("s")), pa.int64())
         return np.asarray(seconds.to_numpy(zero_copy_only=False), dtype=np.float64) / 86400.0

@@ -12,8 +12,8 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pytest
-from conftest import SAMPLE_TABLES, run_cli
-from hypothesis import HealthCheck, given, settings
+from conftest import SAMPLE_TABLES, examples, run_cli
+from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import prefit
@@ -76,7 +76,7 @@ def keys(frame: pd.DataFrame) -> dict[str, object]:
 
 
 @pytest.mark.parametrize("with_id", [False, True])
-@settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@settings(max_examples=examples(15))
 @given(order=st.permutations(range(ROWS)), columns=st.permutations(range(4)))
 def test_fingerprints_survive_reordering_of_rows_and_columns(with_id: bool, order: list[int], columns: list[int]) -> None:
     frame = invented(with_id)

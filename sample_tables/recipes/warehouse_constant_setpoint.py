@@ -10,7 +10,6 @@ FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
     ("hygiene.constant-predictor", "blocks", ("setpoint_c",)),
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles")),
 ]
 EXIT_CODE = 1
 

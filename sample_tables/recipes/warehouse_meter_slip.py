@@ -13,13 +13,13 @@ NAME = "warehouse_meter_slip"
 FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
-    ("assumptions.residual-normality", "note", ("energy_kwh",)),
-    ("influence.cooks-distance", "weakens", ()),
     ("influence.dfbetas", "misleads", ("door_openings", "defrost_cycles", "compressor_type")),
-    ("influence.dffits", "weakens", ()),
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles")),
     ("outliers.studentized-residual", "misleads", ("energy_kwh",)),
+    ("influence.cooks-distance", "weakens", ()),
+    ("influence.dffits", "weakens", ()),
     ("outliers.univariate", "weakens", ("energy_kwh",)),
+    ("assumptions.residual-normality", "note", ("energy_kwh",)),
+    ("outliers.multivariate", "note", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles")),
 ]
 EXIT_CODE = 1
 

@@ -12,12 +12,10 @@ FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
     ("grouping.residual-correlation", "misleads", ("compressor_type",)),
-    # Row-level tests count 3,600 rows where the site effects are 40 draws: the squares of the site-level sizes pick
-    # them up as a bend, and a large site's stock stands out row by row.
     ("assumptions.nonlinearity", "weakens", ("pallets_stored", "floor_area_m2")),
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles")),
-    ("outliers.univariate", "weakens", ("pallets_stored",)),
     ("grouping.few-groups", "note", ("site_id",)),
+    ("outliers.multivariate", "note", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles")),
+    ("outliers.univariate", "note", ("pallets_stored",)),
 ]
 EXIT_CODE = 1
 

@@ -10,7 +10,7 @@ FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--exclude", "day"]
 EXPECTED = [
     ("hygiene.identifier", "misleads", ("site_id",)),
-    ("outliers.multivariate", "weakens", ("site_id", "outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles")),
+    ("outliers.multivariate", "note", ("site_id", "outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles")),
 ]
 EXIT_CODE = 1
 
