@@ -36,6 +36,7 @@ from .roles import apply_missing_codes, distinct_labels, resolve_roles
 from .rule import RuleLike, RuleSettings
 from .scoring import check_declared_ranges, read_score_table
 from .stats.blas import one_blas_thread
+from .text import cut_texts, json_inert
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -105,8 +106,8 @@ class Report:
         return replace(self, findings=kept, accepted=self.accepted + matched)
 
     def to_dict(self) -> dict[str, Any]:
-        """The report as plain JSON types, in the documented schema."""
-        return {
+        """The report as plain JSON types, in the documented schema; long texts cut (:func:`prefit.text.cut_texts`)."""
+        document: dict[str, Any] = cut_texts({
             "schema": REPORT_SCHEMA_VERSION,
             "tool": {"name": TOOL_NAME, "version": __version__},
             "table": {"path": self.info.path, "format": self.info.format, "rows": self.info.rows, "columns": self.info.columns, "sha256": self.info.sha256},
@@ -124,11 +125,12 @@ class Report:
             "accepted": len(self.accepted),
             **({"engine": self.engine.to_dict()} if self.engine is not None else {}),
             **({"baseline": dict(self.baseline)} if self.baseline is not None else {}),
-        }
+        })
+        return document
 
     def to_json(self) -> str:
         """The JSON report: sorted findings, NaN and infinities as null, stable bytes."""
-        return json.dumps(self.to_dict(), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+        return json_inert(json.dumps(self.to_dict(), indent=2, ensure_ascii=False, allow_nan=False)) + "\n"
 
     def render(self, format: str, **settings: Any) -> str:
         """The report in any registered format (``text``, ``json``, ``sarif``, ``junit``, ``markdown``, ``html``)."""
@@ -211,10 +213,31 @@ def check_file(
     column of the whole table for a baseline profile.
     """
     from .batches import choose_engine
-    from .engines import StreamRunner, scaled_context
 
     read = ReadOptions(sep=options.sep, encoding=options.encoding)
     chosen = choose_engine(engine, path)
+    try:
+        return _check_with(chosen, path, read, options, scheduler, debug, progress, row_budget, profile)
+    except MemoryError:
+        if chosen == "memory" or path == "-":
+            raise UsageProblem(path, "does not fit in this process's memory", "rerun with --engine stream, which reads the table in row batches") from None
+        raise UsageProblem(path, "the rows kept for the rules do not fit in this process's memory", "lower --row-budget, e.g. --row-budget 100000") from None
+
+
+def _check_with(
+    chosen: str,
+    path: str,
+    read: ReadOptions,
+    options: CheckOptions,
+    scheduler: str | None,
+    debug: bool,
+    progress: RunProgress | None,
+    row_budget: int | None,
+    profile: bool,
+) -> Report:
+    """:func:`check_file` with the engine chosen."""
+    from .engines import StreamRunner, scaled_context
+
     if chosen == "memory" or path == "-":
         table, info = read_table(path, read)
         # Started after the read: the reader already keeps both cores busy.

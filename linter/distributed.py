@@ -83,6 +83,8 @@ class DaskRunner:
                 self._client = distributed.Client(self.scheduler, timeout=CONNECT_TIMEOUT)
             except (OSError, TimeoutError) as exc:
                 raise UsageProblem(f"--scheduler {self.scheduler}", f"cannot be reached ({exc})", "check the address, e.g. tcp://10.0.0.5:8786") from None
+            except (ValueError, TypeError) as exc:
+                raise UsageProblem(f"--scheduler {self.scheduler!r}", f"is not a scheduler address ({exc})", "write it as tcp://HOST:PORT, e.g. tcp://10.0.0.5:8786") from None
         else:
             self._cluster = distributed.LocalCluster(n_workers=LOCAL_WORKERS, threads_per_worker=1, host="127.0.0.1", dashboard_address=LOCAL_HTTP_ADDRESS, processes=True)
             self._client = distributed.Client(self._cluster)

@@ -87,6 +87,7 @@ def _as_codes(value: Any, where: str) -> dict[str, tuple[str, ...]]:
 
 
 def _as_number(value: Any, where: str) -> float:
+    """A finite number (nan and the infinities are refused: a nan limit would pass every comparison silently)."""
     if isinstance(value, str):
         try:
             value = float(value)
@@ -146,12 +147,10 @@ def _as_rules(value: Any, where: str) -> dict[str, RuleConfig]:
         if unknown:
             raise UsageProblem(here, f"has unknown key {unknown[0]!r}", f"use only {', '.join(sorted(RULE_KEYS))}")
         limits = body.get("thresholds", {})
-        if not isinstance(limits, Mapping) or not all(
-            isinstance(v, (int, float)) and not isinstance(v, bool) for v in limits.values()
-        ):
+        if not isinstance(limits, Mapping):
             raise UsageProblem(f"{here}.thresholds", "must map threshold names to numbers", "write e.g. {misleads = 8}")
         parsed[str(rule_id)] = RuleConfig(
-            thresholds={str(k): float(v) for k, v in limits.items()},
+            thresholds={str(k): _as_number(v, f"{here}.thresholds.{k}") for k, v in limits.items()},
             grade=_as_grade(body["grade"], f"{here}.grade") if "grade" in body else None,
             exempt=_as_names(body.get("exempt", []), f"{here}.exempt"),
             enabled=_as_bool(body.get("enabled", True), f"{here}.enabled"),

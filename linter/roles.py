@@ -144,6 +144,19 @@ def _require_columns(names: list[str], wanted: tuple[str, ...], what: str) -> No
             raise UsageProblem(f"{what} {name!r}", "is not a column of the table", closest_names(name, names))
 
 
+def _check_conflicts(names: list[str], options: CheckOptions) -> None:
+    """Raise when two options contradict each other, or a rule exempts a column the table does not have."""
+    if options.id is not None and options.id == options.target:
+        raise UsageProblem(f"--id {options.id!r}", "is also the --target column", "name the column of row labels, or leave --id out")
+    if options.target in options.exclude:
+        raise UsageProblem(f"--exclude {options.target!r}", "is the --target column, which is never a predictor", "remove it from --exclude")
+    both = [name for name in options.predictors or () if name in options.exclude]
+    if both:
+        raise UsageProblem(f"--predictors and --exclude {both[0]!r}", "both name this column", "keep it in one of them")
+    for rule_id, config in sorted(options.rules.items()):
+        _require_columns(names, config.exempt, f"rule {rule_id}: exempt")
+
+
 def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
     """Decide target, id and predictors from the options and the columns' kinds."""
     names = list(table.column_names)
@@ -167,6 +180,7 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
         for special, flag in ((options.target, "--target"), (options.id, "--id"), (group, "--group")):
             if special in options.predictors:
                 raise UsageProblem("--predictors", f"lists {special!r}, which is the {flag} column", "remove it from --predictors")
+    _check_conflicts(names, options)
     declared = set(options.categorical)
     kinds = {name: infer_kind(table.column(name), name in declared) for name in names}
     left_out: dict[str, str] = {}

@@ -13,6 +13,7 @@ from typing import TYPE_CHECKING, Any
 
 from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade, counted
 from ..rule import capped_names, fmt
+from ..text import inert_message
 from .base import ReportWriter, RunFacts, groups_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
@@ -62,8 +63,8 @@ STYLE = """
 
 
 def esc(text: Any) -> str:
-    """Text as HTML character data or attribute value: ``& < > " '`` become references."""
-    return html.escape(str(text), quote=True)
+    """Text as HTML character data or attribute value: made inert (:func:`prefit.text.inert_message`), then ``& < > " '`` as references."""
+    return html.escape(inert_message(str(text)), quote=True)
 
 
 def _verdict(report: "Report") -> tuple[str, str]:

@@ -15,6 +15,7 @@ from typing import TYPE_CHECKING
 
 from ..engine import RULE_ERROR
 from ..findings import Finding
+from ..text import inert_message
 from .base import ReportWriter, RunFacts
 
 if TYPE_CHECKING:
@@ -24,15 +25,16 @@ _NOT_XML = re.compile("[^\u0009\u000a\u000d\u0020-\ud7ff\ue000-\ufffd\U00010000-
 
 
 def xml_text(text: str) -> str:
-    """``text`` with the characters XML 1.0 cannot carry replaced by U+FFFD."""
-    return _NOT_XML.sub("\ufffd", text)
+    """``text`` made inert (:func:`prefit.text.inert_message`), with any other character XML 1.0 cannot carry replaced by U+FFFD."""
+    return _NOT_XML.sub("\ufffd", inert_message(text))
 
 
 def _finding_text(finding: Finding) -> str:
+    finding = finding.shown()
     columns = f" [{', '.join(finding.columns)}]" if finding.columns else ""
     rows = f" rows: {', '.join(str(r) for r in finding.rows[:10])}" + (f" (+{finding.row_count - 10} more)" if finding.row_count > 10 else "") if finding.rows else ""
     remedy = f"\n  fix: {finding.remedy}" if finding.remedy else ""
-    return xml_text(f"{finding.grade.word}: {finding.rule}{columns}: {finding.message}{rows}{remedy}")
+    return _NOT_XML.sub("\ufffd", f"{finding.grade.word}: {finding.rule}{columns}: {finding.message}{rows}{remedy}")
 
 
 class JunitWriter(ReportWriter):

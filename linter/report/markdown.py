@@ -1,9 +1,10 @@
 """A compact Markdown summary for a pull-request comment: verdict, counts per grade, findings, remedies.
 
 Text from the data (column names, row labels, messages quoting values) is
-escaped so that it renders as written: the characters that start emphasis,
-code, links, strike-through or a table cell get a backslash, ``<`` and ``&``
-become entities, and line breaks become spaces. Other punctuation is only
+made inert (:mod:`prefit.text`: controls and line breaks shown escaped, long
+texts cut) and escaped so that it renders as written: the characters that
+start emphasis, code, links, strike-through or a table cell get a backslash,
+and ``<`` and ``&`` become entities. Other punctuation is only
 special at the start of a line, where data text never stands.
 """
 
@@ -14,6 +15,7 @@ from typing import TYPE_CHECKING
 
 from ..findings import GRADES_STRONGEST_FIRST, Finding, count_by_grade, counted
 from ..rule import capped_names
+from ..text import inert_message
 from .base import ReportWriter, RunFacts, baseline_sentence, row_groups
 
 if TYPE_CHECKING:
@@ -25,7 +27,7 @@ LISTED_ROWS = 5
 
 def md_text(text: str) -> str:
     """``text`` as literal Markdown inline text, safe in a table cell."""
-    flat = " ".join(str(text).split())
+    flat = inert_message(str(text))
     flat = flat.replace("&", "&amp;").replace("<", "&lt;")
     return _PUNCTUATION.sub(r"\\\1", flat)
 
