@@ -173,25 +173,45 @@ class AcceptedEntry:
 ENTRY_KEYS = frozenset({"rule", "grade", "columns", "rows", "example", "reason"})
 
 
+def _identity(key: Fingerprint) -> tuple[str, tuple[str, ...], str | None]:
+    """A fingerprint without its grade: what stays the same when a finding weakens or strengthens."""
+    return key.rule, key.columns, key.rows
+
+
 @dataclass(frozen=True)
 class AcceptedSet:
-    """The entries of an accepted-findings file, looked up by fingerprint."""
+    """The entries of an accepted-findings file, looked up by fingerprint.
+
+    An entry covers a finding of the same rule, columns and rows at its own
+    grade or a weaker one: only a stronger grade makes the finding new.
+    """
 
     entries: tuple[AcceptedEntry, ...] = ()
 
     @cached_property
-    def _by_key(self) -> Mapping[Fingerprint, AcceptedEntry]:
-        return {e.key: e for e in self.entries}
+    def _by_identity(self) -> Mapping[tuple[str, tuple[str, ...], str | None], AcceptedEntry]:
+        strongest: dict[tuple[str, tuple[str, ...], str | None], AcceptedEntry] = {}
+        for entry in self.entries:
+            known = strongest.get(_identity(entry.key))
+            if known is None or Grade.parse(entry.key.grade) > Grade.parse(known.key.grade):
+                strongest[_identity(entry.key)] = entry
+        return strongest
+
+    def _entry_for(self, key: Fingerprint) -> AcceptedEntry | None:
+        entry = self._by_identity.get(_identity(key))
+        if entry is None or Grade.parse(key.grade) > Grade.parse(entry.key.grade):
+            return None
+        return entry
 
     def __contains__(self, key: object) -> bool:
-        return key in self._by_key
+        return isinstance(key, Fingerprint) and self._entry_for(key) is not None
 
     def __len__(self) -> int:
         return len(self.entries)
 
     def reason(self, key: Fingerprint) -> str | None:
-        """The reason given for ``key``, or None when it is not accepted."""
-        entry = self._by_key.get(key)
+        """The reason given for ``key`` (or for the same finding at a stronger grade), or None when it is not accepted."""
+        entry = self._entry_for(key)
         return entry.reason if entry is not None else None
 
     def to_json(self) -> str:
@@ -244,13 +264,20 @@ def load_accepted(path: str | Path) -> AcceptedSet:
         text = Path(path).read_text(encoding="utf-8")
     except FileNotFoundError:
         raise UsageProblem(where, "does not exist", "create it with --accept-current, which accepts today's findings") from None
+    except UnicodeDecodeError as exc:
+        raise UsageProblem(where, f"is not UTF-8 text (byte {exc.object[exc.start]:#04x} at offset {exc.start})", "save it as UTF-8 or rewrite it with --accept-current") from None
     except OSError as exc:
         raise UsageProblem(where, f"cannot be read ({exc.strerror})", "check its permissions") from None
     try:
         document = json.loads(text)
     except json.JSONDecodeError as exc:
         raise UsageProblem(where, f"is not valid JSON (line {exc.lineno}: {exc.msg})", "fix the syntax or rewrite it with --accept-current") from None
-    if not isinstance(document, Mapping) or document.get("prefit_accepted") != FILE_VERSION:
+    except (RecursionError, ValueError) as exc:
+        # Nesting deeper than the parser's stack, or an integer beyond Python's digit limit for text conversion.
+        problem = "nests too deeply" if isinstance(exc, RecursionError) else "holds a number too long to read"
+        raise UsageProblem(where, f"is not an accepted-findings file ({problem})", "rewrite it with --accept-current") from None
+    version = document.get("prefit_accepted") if isinstance(document, Mapping) else None
+    if type(version) is not int or version != FILE_VERSION:
         raise UsageProblem(where, f"is not a prefit accepted-findings file of version {FILE_VERSION}", "rewrite it with --accept-current")
     entries = document.get("findings", [])
     if not isinstance(entries, list):

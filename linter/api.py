@@ -20,6 +20,7 @@ from .accepted import (
     load_accepted,
     save_accepted,
 )
+from .baseline import BaselineProfile, load_baseline, profile_of, save_profile
 from .causes import find_causes
 from .context import RunContext
 from .engine import RuleOutcome, error_finding, run_rule, select_rules
@@ -36,6 +37,7 @@ from .roles import apply_missing_codes, distinct_labels, resolve_roles
 from .rule import RuleLike, RuleSettings
 from .scoring import check_declared_ranges, read_score_table
 from .stats.blas import one_blas_thread
+from .text import cut_texts, json_inert
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -71,6 +73,7 @@ class Report:
     engine: EngineRun | None = None
     fix_first: tuple[str, ...] = ()
     keyed: Mapping[str, Fingerprint] = field(default_factory=dict, compare=False, repr=False)
+    baseline: Mapping[str, Any] | None = None
     rules: tuple[RuleLike, ...] = field(default=(), compare=False, repr=False)
     context: RunContext | None = field(default=None, compare=False, repr=False)
 
@@ -112,8 +115,8 @@ class Report:
         return replace(self, findings=kept, accepted=self.accepted + matched, fix_first=tuple(k for k in self.fix_first if k in left))
 
     def to_dict(self) -> dict[str, Any]:
-        """The report as plain JSON types, in the documented schema."""
-        return {
+        """The report as plain JSON types, in the documented schema; long texts cut (:func:`prefit.text.cut_texts`)."""
+        document: dict[str, Any] = cut_texts({
             "schema": REPORT_SCHEMA_VERSION,
             "tool": {"name": TOOL_NAME, "version": __version__},
             "table": {"path": self.info.path, "format": self.info.format, "rows": self.info.rows, "columns": self.info.columns, "sha256": self.info.sha256},
@@ -131,11 +134,13 @@ class Report:
             "summary": count_by_grade(self.findings),
             "accepted": len(self.accepted),
             **({"engine": self.engine.to_dict()} if self.engine is not None else {}),
-        }
+            **({"baseline": dict(self.baseline)} if self.baseline is not None else {}),
+        })
+        return document
 
     def to_json(self) -> str:
         """The JSON report: sorted findings, NaN and infinities as null, stable bytes."""
-        return json.dumps(self.to_dict(), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+        return json_inert(json.dumps(self.to_dict(), indent=2, ensure_ascii=False, allow_nan=False)) + "\n"
 
     def render(self, format: str, **settings: Any) -> str:
         """The report in any registered format (``text``, ``json``, ``sarif``, ``junit``, ``markdown``, ``html``)."""
@@ -171,7 +176,8 @@ def build_context(table: pa.Table, info: TableInfo, options: CheckOptions) -> Ru
     roles = resolve_roles(table, options)
     check_declared_ranges(roles, options.ranges)
     score = read_score_table(options, roles)
-    return RunContext(table=table, info=info, roles=roles, options=options, replaced_codes=replaced, score=score)
+    baseline = load_baseline(options.baseline, options) if options.baseline is not None else None
+    return RunContext(table=table, info=info, roles=roles, options=options, replaced_codes=replaced, score=score, baseline=baseline)
 
 
 def context_for(table: "pa.Table | pd.DataFrame", target: str, **options: Any) -> RunContext:
@@ -206,19 +212,42 @@ def check_file(
     debug: bool = False,
     progress: RunProgress | None = None,
     row_budget: int | None = None,
+    profile: bool = False,
 ) -> Report:
     """Check a table file with the chosen engine (``auto``, ``memory``, ``stream`` or ``dask``).
 
     ``auto`` streams files larger than :data:`prefit.batches.AUTO_STREAM_BYTES`;
     ``scheduler`` is the address of an existing Dask scheduler (default: a
     local cluster); ``row_budget`` caps the rows the stream and Dask engines
-    keep in memory for the rules.
+    keep in memory for the rules; ``profile`` has their pass 1 tally every
+    column of the whole table for a baseline profile.
     """
     from .batches import choose_engine
-    from .engines import StreamRunner, scaled_context
 
     read = ReadOptions(sep=options.sep, encoding=options.encoding)
     chosen = choose_engine(engine, path)
+    try:
+        return _check_with(chosen, path, read, options, scheduler, debug, progress, row_budget, profile)
+    except MemoryError:
+        if chosen == "memory" or path == "-":
+            raise UsageProblem(path, "does not fit in this process's memory", "rerun with --engine stream, which reads the table in row batches") from None
+        raise UsageProblem(path, "the rows kept for the rules do not fit in this process's memory", "lower --row-budget, e.g. --row-budget 100000") from None
+
+
+def _check_with(
+    chosen: str,
+    path: str,
+    read: ReadOptions,
+    options: CheckOptions,
+    scheduler: str | None,
+    debug: bool,
+    progress: RunProgress | None,
+    row_budget: int | None,
+    profile: bool,
+) -> Report:
+    """:func:`check_file` with the engine chosen."""
+    from .engines import StreamRunner, scaled_context
+
     if chosen == "memory" or path == "-":
         table, info = read_table(path, read)
         # Started after the read: the reader already keeps both cores busy.
@@ -231,13 +260,13 @@ def check_file(
         from .batches import open_batches
         from .progress import pass_bars
 
-        context, run = scaled_context(StreamRunner(open_batches(path, read), pass_bars()), options, row_budget)
+        context, run = scaled_context(StreamRunner(open_batches(path, read), pass_bars()), options, row_budget, profile)
     else:
         from .distributed import DaskRunner
         from .progress import pass_bars
 
         with DaskRunner(path, read, scheduler, pass_bars()) as runner:
-            context, run = scaled_context(runner, options, row_budget)
+            context, run = scaled_context(runner, options, row_budget, profile)
     return report_for(context, registry, selected, run, debug, progress)
 
 
@@ -303,9 +332,19 @@ def report_for(
         engine=engine,
         fix_first=tuple(keys[i] for i in causes.fix_first),
         keyed=dict(zip(keys, prints)),
+        baseline=context.baseline.describe() if context.baseline is not None else None,
         rules=tuple(registry),
         context=context,
     )
+
+
+def write_baseline(report: Report, path: str | Path) -> BaselineProfile:
+    """Write the baseline profile of a checked table (``--save-baseline``) and return it."""
+    if report.context is None:
+        raise UsageProblem("--save-baseline", "needs the statistics of a check run in this process", "run the check and save in one call")
+    profile = profile_of(report.context)
+    save_profile(profile, path)
+    return profile
 
 
 def group_description(context: RunContext) -> dict[str, Any] | None:
@@ -405,6 +444,7 @@ def check(
     *,
     accept_file: str | Path | None = None,
     accept_current: bool = False,
+    save_baseline: str | Path | None = None,
     **options: Any,
 ) -> Report:
     """Vet ``table`` (a DataFrame, a pyarrow Table or a path) before fitting ``target`` on it.
@@ -412,15 +452,23 @@ def check(
     Keyword options are the configuration keys (``id``, ``exclude``,
     ``predictors``, ``categorical``, ``intercept``, ``fail_at``,
     ``skip_rules``, ``rule``, ``missing_codes``, ``sep``, ``encoding``,
+    ``ranges``, ``anticipated_r2``, ``score``, ``order``, ``purpose``, ``baseline``: a
+    profile written by ``save_baseline`` or the accepted table itself, to vet this table against).
+
+
     ``ranges``, ``anticipated_r2``, ``score``, ``order``, ``purpose``, ``group``).
     ``accept_file`` names an accepted-findings file: findings it lists are
     counted, not gated; with ``accept_current`` today's findings are written to it.
+    ``save_baseline`` writes this table's baseline profile to that path.
     """
     opts = options_from(target=target, **options)
     if accept_file is not None and not accept_current:
         load_accepted(accept_file)
     data, info = _as_table(table, ReadOptions(sep=opts.sep, encoding=opts.encoding))
-    return apply_accepted([run_check(data, info, opts)], accept_file, accept_current)[0]
+    report = run_check(data, info, opts)
+    if save_baseline is not None:
+        write_baseline(report, save_baseline)
+    return apply_accepted([report], accept_file, accept_current)[0]
 
 
 class NotReady(AssertionError):

@@ -9,9 +9,10 @@ are read whole and then cut into batches.
 
 from __future__ import annotations
 
+import io
 import os
 from dataclasses import dataclass
-from typing import Generator, Iterator
+from typing import Generator, Iterator, TextIO
 
 import pyarrow as pa
 
@@ -24,7 +25,12 @@ from .reading import (
     _check_header,
     _format_from_bytes,
     _format_from_name,
+    check_column_types,
+    check_quotes,
+    check_utf8_head,
+    codec_problem,
     csv_options,
+    csv_problem,
     decode_dictionaries,
     file_digest,
     is_arrow_file,
@@ -33,6 +39,8 @@ from .reading import (
     open_arrow,
     read_table,
     resolve_sep,
+    utf16_bom,
+    visible_names,
 )
 
 ENGINES = ("memory", "stream", "dask")
@@ -52,9 +60,14 @@ class BatchSource:
     rows: int | None
     sep: str | None = None
     streamed: bool = True
+    width: int = 0
 
     def batches(self, batch_rows: int = BATCH_ROWS) -> Generator[pa.Table, None, None]:
-        """The table's rows in order, at most ``batch_rows`` at a time, as one-chunk tables."""
+        """The table's rows in order, at most ``batch_rows`` at a time, as one-chunk tables (empty names made visible)."""
+        for batch in self._read_batches(batch_rows):
+            yield visible_names(batch)
+
+    def _read_batches(self, batch_rows: int) -> Iterator[pa.Table]:
         if self.format == "parquet":
             import pyarrow.parquet as pq
 
@@ -85,16 +98,28 @@ class BatchSource:
     def _csv_batches(self, batch_rows: int) -> Iterator[pa.Table]:
         import pyarrow.csv as pacsv
 
+        sep = self.sep or ","
         stream = pa.input_stream(self.path, compression=self.compression)
-        reader = pacsv.open_csv(stream, **csv_options(self.sep or ","))
+        last: pa.RecordBatch | None = None
         try:
+            reader = pacsv.open_csv(stream, **csv_options(sep))
             for batch in reader:
+                last = batch if batch.num_rows else last
                 for start in range(0, batch.num_rows, batch_rows):
                     yield pa.Table.from_batches([batch.slice(start, batch_rows)])
         except pa.ArrowInvalid as exc:
-            raise UsageProblem(self.path, f"cannot be read as delimited text ({str(exc).splitlines()[0]})", "check the file and --sep, or read it with --engine memory") from None
+            raise csv_problem(exc, self._text, sep, self.width, self.path) from None
+        except OSError as exc:
+            raise codec_problem(self.compression or "text", exc, self.path) from None
         finally:
             stream.close()
+        if last is not None and _ends_inside_quotes(last):
+            with self._text() as text:
+                check_quotes(text, sep, self.path)
+
+    def _text(self) -> TextIO:
+        """The file (decompressed) as text with line ends kept, for finding the line of a parse error."""
+        return io.TextIOWrapper(pa.input_stream(self.path, compression=self.compression), encoding="utf-8", errors="replace", newline="")
 
     def schema(self) -> pa.Schema:
         """The column names and types of the first batch."""
@@ -110,6 +135,16 @@ class BatchSource:
     def info(self, rows: int, columns: int) -> TableInfo:
         """The table facts, with the file's digest computed by streaming its bytes."""
         return TableInfo(path=self.path, format=self.format, rows=rows, columns=columns, sha256=file_digest(self.path))
+
+
+def _ends_inside_quotes(batch: pa.RecordBatch) -> bool:
+    """Whether a text value of the last row holds a line end, as one does when a quote opens and never closes."""
+    for column in batch.columns:
+        if pa.types.is_string(column.type) or pa.types.is_large_string(column.type):
+            value = column[batch.num_rows - 1].as_py()
+            if value is not None and ("\n" in value or "\r" in value):
+                return True
+    return False
 
 
 def open_batches(path: str, options: ReadOptions = ReadOptions()) -> BatchSource:
@@ -130,13 +165,23 @@ def open_batches(path: str, options: ReadOptions = ReadOptions()) -> BatchSource
     if fmt == "arrow":
         return _arrow_source(path, options)
     if fmt in (None, "csv") and is_utf8(options.encoding) and codec in (None, "gzip", "bz2", "zstd"):
-        text = pa.input_stream(path, compression=codec).read(SNIFF_BYTES) if codec else head
+        text = _head_text(path, codec) if codec else head
         content_fmt, _ = _format_from_bytes(text[:16])
-        if text.startswith(UTF8_BOM) or content_fmt is not None:
+        if text.startswith(UTF8_BOM) or utf16_bom(text) or content_fmt is not None:
             return BatchSource(path, content_fmt or "csv", None, options, None, streamed=False)
-        sep, _ = resolve_sep(options.sep, text.decode("utf-8", errors="ignore"), path)
-        return BatchSource(path, "csv", codec, options, None, sep)
+        check_utf8_head(text, path)
+        sep, header = resolve_sep(options.sep, text.decode("utf-8", errors="ignore"), path)
+        return BatchSource(path, "csv", codec, options, None, sep, width=len(header))
     return BatchSource(path, fmt or "csv", None, options, None, streamed=False)
+
+
+def _head_text(path: str, codec: str) -> bytes:
+    """The first :data:`SNIFF_BYTES` bytes of a compressed file, decompressed."""
+    try:
+        with pa.input_stream(path, compression=codec) as stream:
+            return bytes(stream.read(SNIFF_BYTES))
+    except (OSError, pa.ArrowInvalid) as exc:
+        raise codec_problem(codec, exc, path) from None
 
 
 def _parquet_source(path: str, options: ReadOptions) -> BatchSource:
@@ -146,6 +191,7 @@ def _parquet_source(path: str, options: ReadOptions) -> BatchSource:
         with pq.ParquetFile(path) as handle:
             meta = handle.metadata
             _check_header(list(handle.schema_arrow.names), path)
+            check_column_types(handle.schema_arrow, path)
             return BatchSource(path, "parquet", None, options, meta.num_rows)
     except (pa.ArrowInvalid, OSError) as exc:
         raise UsageProblem(path, f"is not a readable Parquet file ({str(exc).splitlines()[0]})", "re-export it or check that the copy is complete") from None
@@ -160,6 +206,7 @@ def _arrow_source(path: str, options: ReadOptions) -> BatchSource:
                 # An IPC stream has no footer: its row count is known only once it is read.
                 return BatchSource(path, "arrow", None, options, None)
             reader = ipc.open_file(source)
+            check_column_types(reader.schema, path)
             rows = sum(reader.get_batch(i).num_rows for i in range(reader.num_record_batches))
             return BatchSource(path, "arrow", None, options, rows)
     except (pa.ArrowInvalid, OSError) as exc:

@@ -11,6 +11,7 @@ from typing import Any, NoReturn, Sequence
 
 from . import __version__
 from .errors import UsageProblem
+from .text import NAME_CHARACTERS, inert
 
 EXIT_OK, EXIT_GATE, EXIT_USAGE, EXIT_INCOMPLETE = 0, 1, 2, 3
 
@@ -34,6 +35,7 @@ def _build_parser() -> argparse.ArgumentParser:
     commands = parser.add_subparsers(dest="command", parser_class=_Parser, metavar="COMMAND")
 
     check = commands.add_parser("check", help="vet a table and report graded findings")
+    check.add_argument("--debug", action="store_true", default=argparse.SUPPRESS, help="show tracebacks of errors")
     check.add_argument("tables", nargs="+", metavar="TABLE", help="CSV/TSV (optionally .gz/.bz2/.zst), Parquet, Arrow/Feather, JSON Lines; - for CSV on stdin; several tables share the options")
     check.add_argument("--target", help="the response column")
     check.add_argument("--id", help="a column of row labels (never a predictor)")
@@ -48,6 +50,8 @@ def _build_parser() -> argparse.ArgumentParser:
     check.add_argument("--anticipated-r2", metavar="R2", help="the R-squared expected of the model, for sample-size planning (default: the preliminary fit's adjusted R-squared)")
     check.add_argument("--purpose", choices=("explain", "predict"), help="what the model is for: explain (default; read its coefficients) or predict (score new rows; the prediction-model sample-size criteria gate)")
     check.add_argument("--score", metavar="NEWTABLE", help="a table of new rows the model will be asked to predict, checked for extrapolation")
+    check.add_argument("--baseline", metavar="BASELINE", help="vet the table against the last accepted extract: a profile written by --save-baseline, or that table itself")
+    check.add_argument("--save-baseline", metavar="FILE", help="write this table's baseline profile (summaries and fit, no rows) to FILE as JSON")
     check.add_argument("--sep", help="delimiter of a text table (sniffed when absent)")
     check.add_argument("--encoding", help="encoding of a text table (default utf-8)")
     check.add_argument("--order", metavar="COL", help="the column giving the rows' time order, for the autocorrelation preview (default: the first date column)")
@@ -151,6 +155,7 @@ def _options_from_args(args: argparse.Namespace) -> Any:
         ("group", args.group),
         ("anticipated-r2", args.anticipated_r2),
         ("score", args.score),
+        ("baseline", args.baseline),
         ("purpose", args.purpose),
     ):
         if value is not None:
@@ -170,9 +175,17 @@ def _options_from_args(args: argparse.Namespace) -> Any:
 
 
 def _write(text: str, output: str | None) -> None:
+    """Write the report to ``output`` or stdout; a reader that closed the pipe early (``| head -1``) ends it quietly."""
     if output is None:
-        sys.stdout.write(text)
-        sys.stdout.flush()
+        if sys.stdout is None:
+            raise UsageProblem("stdout", "is closed", "leave standard output open or write the report with --output FILE")
+        try:
+            sys.stdout.write(text)
+            sys.stdout.flush()
+        except BrokenPipeError:
+            _silence_stdout()
+        except OSError as exc:
+            raise UsageProblem("stdout", f"cannot be written ({exc.strerror})", "free space there or write the report with --output FILE") from None
         return
     try:
         Path(output).write_text(text, encoding="utf-8")
@@ -180,15 +193,26 @@ def _write(text: str, output: str | None) -> None:
         raise UsageProblem(f"--output {output}", f"cannot be written ({exc.strerror})", "choose a writable path") from None
 
 
+def _silence_stdout() -> None:
+    """Point stdout at the null device, so that nothing more is written to a closed pipe (nor at exit)."""
+    devnull = os.open(os.devnull, os.O_WRONLY)
+    try:
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):
+        pass
+    finally:
+        os.close(devnull)
+
+
 def _colour(choice: str, output: str | None) -> bool:
     if choice != "auto":
         return choice == "always"
-    return output is None and sys.stdout.isatty() and "NO_COLOR" not in os.environ
+    return output is None and sys.stdout is not None and sys.stdout.isatty() and "NO_COLOR" not in os.environ
 
 
 def _command_check(args: argparse.Namespace) -> int:
     from .accepted import load_accepted
-    from .api import apply_accepted, check_file
+    from .api import apply_accepted, check_file, write_baseline
     from .progress import progress_for
     from .report import FORMATS, WriterSettings, render
 
@@ -201,18 +225,45 @@ def _command_check(args: argparse.Namespace) -> int:
         raise UsageProblem("--accept-current", "needs a file to write", "add --accept-file FILE")
     if args.accept_file is not None and not args.accept_current:
         load_accepted(args.accept_file)
+    _refuse_overwriting_inputs(args, options)
     reports = []
     if args.scheduler is not None and args.engine != "dask":
         raise UsageProblem("--scheduler", "only applies to the Dask engine", "add --engine dask")
     if args.row_budget is not None and args.row_budget < 1:
         raise UsageProblem("--row-budget", "must be a positive number of rows", "e.g. --row-budget 500000")
+    if args.save_baseline is not None and len(args.tables) > 1:
+        raise UsageProblem("--save-baseline", f"writes the profile of one table, got {len(args.tables)} tables", "check the accepted table alone")
     for path in args.tables:
-        reports.append(check_file(path, options, args.engine, args.scheduler, args.debug, progress_for(), args.row_budget))
+        reports.append(check_file(path, options, args.engine, args.scheduler, args.debug, progress_for(), args.row_budget, args.save_baseline is not None))
+    if args.save_baseline is not None:
+        write_baseline(reports[0], args.save_baseline)
     reports = apply_accepted(reports, args.accept_file, args.accept_current)
     for format, output in destinations:
         settings = WriterSettings(colour=_colour(args.colour, output), explain=args.explain)
         _write(render(format, reports, settings), output)
     return max(report.exit_code for report in reports)
+
+
+def _same_file(first: str, second: str) -> bool:
+    """Whether two paths name one file (an existing one, through links too, or the same path)."""
+    if first == "-" or second == "-":
+        return False
+    try:
+        return os.path.samefile(first, second)
+    except OSError:
+        return os.path.abspath(first) == os.path.abspath(second)
+
+
+def _refuse_overwriting_inputs(args: argparse.Namespace, options: Any) -> None:
+    """Raise when ``--output`` or a written ``--accept-file`` names a table this run reads."""
+    inputs = [*args.tables, *([options.score] if options.score else [])]
+    written = [("--output", output) for output in args.output or []] + ([("--accept-file", args.accept_file)] if args.accept_current else [])
+    for flag, target in written:
+        if target is None:
+            continue
+        for table in inputs:
+            if _same_file(target, table):
+                raise UsageProblem(f"{flag} {target}", "is a table this run reads, and would be overwritten", f"give {flag} another path")
 
 
 def _command_schema(args: argparse.Namespace) -> int:
@@ -248,29 +299,83 @@ def _command_why(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+MEMORY_FIX = "rerun with --engine stream, which reads the table in row batches"
+
+
+def _is_out_of_memory(error: BaseException) -> bool:
+    """Whether ``error`` says the process ran out of memory or threads (as under ``ulimit -v``)."""
+    return isinstance(error, MemoryError) or (isinstance(error, RuntimeError) and "can't start new thread" in str(error))
+
+
+def _say(line: str) -> None:
+    if sys.stderr is not None:
+        print(line, file=sys.stderr)
+
+
 def main(argv: Sequence[str] | None = None) -> int:
-    """Run the command line; return the exit code."""
+    """Run the command line; return the exit code.
+
+    Usage and input problems end with exit 2 and one line naming the problem
+    and the fix; any other failure outside a rule with exit 3 and one line.
+    ``--debug`` adds the traceback before that line, never changes the code.
+    """
     parser = _build_parser()
     argv = list(sys.argv[1:] if argv is None else argv)
     debug = "--debug" in argv
     try:
         args = parser.parse_args(argv)
         if args.command is None:
-            parser.print_help()
-            return EXIT_USAGE
+            raise UsageProblem("command", "is missing", "run `prefit check TABLE --target COLUMN`, `prefit rules` or `prefit why`")
         handler = {"check": _command_check, "rules": _command_rules, "why": _command_why, "schema": _command_schema, "init": _command_init}[args.command]
         return handler(args)
-    except UsageProblem as problem:
-        if debug:
-            raise
-        print(f"prefit: {problem}", file=sys.stderr)
-        return EXIT_USAGE
-    except MemoryError:
-        print("prefit: the table does not fit in memory; run on a machine with more memory", file=sys.stderr)
-        return EXIT_USAGE
     except KeyboardInterrupt:
-        print("prefit: interrupted", file=sys.stderr)
+        _say("prefit: interrupted")
         return 130
+    except UsageProblem as problem:
+        _report_failure(debug, f"prefit: {inert(str(problem), NAME_CHARACTERS * 4)}")
+        return EXIT_USAGE
+    except Exception as error:  # noqa: BLE001  (the last line of defence: one line, never a bare traceback)
+        if _is_out_of_memory(error):
+            _report_failure(debug, f"prefit: the table does not fit in this process's memory; {MEMORY_FIX}")
+            return EXIT_USAGE
+        first = str(error).strip().splitlines()[0] if str(error).strip() else ""
+        detail = inert(f"{type(error).__name__}: {first}" if first else type(error).__name__, NAME_CHARACTERS)
+        _report_failure(debug, f"prefit: internal error ({detail}); rerun with --debug to see where, and report it")
+        return EXIT_INCOMPLETE
+
+
+def _report_failure(debug: bool, line: str) -> None:
+    """Print the one-line reason of a failed run, after its traceback when ``debug`` asks for it."""
+    if debug and sys.stderr is not None:
+        import traceback
+
+        traceback.print_exc(file=sys.stderr)
+    _say(line)
+
+
+M_ARENA_MAX = -8  # glibc mallopt parameter number (malloc.h)
+
+
+def fit_address_space_limit() -> None:
+    """Under an address-space limit (``ulimit -v``), keep glibc to one malloc arena.
+
+    Each thread otherwise reserves an arena of up to 128 MB of address space
+    (reserved, not used), so that a few worker threads exhaust a limit the
+    data alone would fit; OpenBLAS, which retries a failed allocation without
+    end, then hangs instead of failing. With one arena the run either fits or
+    ends with a MemoryError, which :func:`main` turns into one line.
+    """
+    import resource
+
+    soft, _ = resource.getrlimit(resource.RLIMIT_AS)
+    if soft == resource.RLIM_INFINITY:
+        return
+    import ctypes
+
+    try:
+        ctypes.CDLL(None).mallopt(M_ARENA_MAX, 1)
+    except (OSError, AttributeError):  # not glibc: nothing to tune
+        pass
 
 
 def run() -> NoReturn:
@@ -280,11 +385,13 @@ def run() -> NoReturn:
     freeing them one by one at interpreter exit takes up to half a second and
     changes nothing, so once the output is flushed the process ends at once.
     """
+    fit_address_space_limit()
     code = main()
     for stream in (sys.stdout, sys.stderr):
         try:
-            stream.flush()
-        except (BrokenPipeError, ValueError):  # the reader closed the pipe early (e.g. `| head`)
+            if stream is not None:
+                stream.flush()
+        except (OSError, ValueError):  # the reader closed the pipe early (e.g. `| head`), or the stream was closed
             pass
     os._exit(code)
 

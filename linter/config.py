@@ -36,6 +36,8 @@ def _load(path: Path) -> dict[str, Any]:
             return tomllib.load(handle)
     except tomllib.TOMLDecodeError as exc:
         raise UsageProblem(str(path), f"is not valid TOML ({exc})", "fix the syntax at that line") from None
+    except UnicodeDecodeError as exc:
+        raise UsageProblem(str(path), f"is not UTF-8 text (byte {exc.object[exc.start]:#04x} at offset {exc.start})", "give the path of a prefit.toml or pyproject.toml") from None
     except OSError as exc:
         raise UsageProblem(str(path), f"cannot be read ({exc.strerror})", "check its permissions") from None
 

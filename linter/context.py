@@ -9,6 +9,8 @@ from typing import Sequence
 import numpy as np
 import pyarrow as pa
 
+from .baseline import BaselineProfile
+from .comparison import ColumnComparison, ModelComparison, compare_columns, compare_model
 from .design import Design, build_design
 from .findings import MAX_LISTED_ROWS, RowLabel
 from .options import CheckOptions
@@ -28,6 +30,7 @@ from .stats.mergeable import Moments
 from .stats.missingness import Holes
 from .stats.resistant import MIN_ROWS_PER_PARAMETER, ResistantFit, resistant_fit, resistant_rows
 from .stats.robust import RobustColumns, RobustDistances, median_and_mad, robust_distances
+from .stats.skewed import AdjustedFences, adjusted_fences
 from .stats.summaries import ColumnSummary, ColumnTally, summarise
 from .stats.textnumbers import TextNumbers
 
@@ -53,13 +56,16 @@ class RunContext:
     options: CheckOptions
     replaced_codes: dict[str, int] = field(default_factory=dict)
     score: ScoreTable | None = None
+    baseline: BaselineProfile | None = None
     statistics: TableStatistics | None = field(default=None, repr=False)
+    whole_statistics: TableStatistics | None = field(default=None, repr=False)
     file_positions: np.ndarray | None = field(default=None, repr=False)
     table_model: IndicatorFactor | None = field(default=None, repr=False)
     _summaries: dict[str, ColumnSummary] = field(default_factory=dict, init=False, repr=False)
     _text_numbers: dict[str, TextNumbers] = field(default_factory=dict, init=False, repr=False)
     _values: dict[str, np.ndarray] = field(default_factory=dict, init=False, repr=False)
     _spreads: dict[str, tuple[float, float]] = field(default_factory=dict, init=False, repr=False)
+    _fences: dict[str, AdjustedFences | None] = field(default_factory=dict, init=False, repr=False)
     _tallies: dict[str, ColumnTally] = field(default_factory=dict, init=False, repr=False)
 
     @cached_property
@@ -217,6 +223,21 @@ class RunContext:
             return None
         return score_rows(self.score, self.design, self.roles, self.fit, self.row_scores.hat)
 
+    @cached_property
+    def comparison(self) -> ColumnComparison | None:
+        """The columns matched with the baseline's, unit changes recognised, shifts tested; None without ``--baseline``."""
+        if self.baseline is None:
+            return None
+        return compare_columns(self, self.baseline)
+
+    @cached_property
+    def model_comparison(self) -> ModelComparison | None:
+        """The new rows through the baseline's design and fit (O(n p^2)); None without a baseline fit to compare with."""
+        columns = self.comparison
+        if columns is None:
+            return None
+        return compare_model(self, columns)
+
     def summary(self, column: str) -> ColumnSummary:
         """Counts, moments and mode of one table column (all rows)."""
         if column not in self._summaries:
@@ -274,6 +295,12 @@ class RunContext:
             converted.setflags(write=False)
             self._values[column] = converted
         return self._values[column]
+
+    def fences(self, column: str) -> AdjustedFences | None:
+        """The adjusted boxplot of a numeric column's finite values over all table rows (computed once; None when the IQR is zero)."""
+        if column not in self._fences:
+            self._fences[column] = adjusted_fences(self.values(column))
+        return self._fences[column]
 
     def median_and_mad(self, column: str) -> tuple[float, float]:
         """Median and median absolute deviation of a numeric column's finite values over all table rows (computed once)."""

@@ -24,6 +24,9 @@ SPLIT_EVERY = 2
 CSV_BLOCK = "64MB"
 LOCAL_WORKERS = 2
 CONNECT_TIMEOUT = "5s"
+# The scheduler's HTTP server always starts (``None`` falls back to port 8787, shared by every cluster on the
+# machine); port 0 on the loopback interface lets the system pick a free port, so no run waits on another's.
+LOCAL_HTTP_ADDRESS = "127.0.0.1:0"
 
 
 def _import_dask() -> Any:
@@ -44,15 +47,8 @@ def _as_arrow(frame: Any, schema: pa.Schema) -> pa.Table:
         raise UsageProblem("table", f"has a partition whose column types differ from the first rows ({str(exc).splitlines()[0]})", "give every column one type, or use --engine stream") from None
 
 
-def _run_partition(frame: Any, task: Callable[[pa.Table, int], Any], offsets: Sequence[int], schema: pa.Schema, partition_info: dict[str, Any] | None = None) -> Any:
-    import pandas as pd
-
-    number = partition_info["number"] if partition_info is not None else 0
-    return pd.Series([task(_as_arrow(frame, schema), int(offsets[number]))], dtype=object)
-
-
-def _first(series: Any) -> Any:
-    return series.iloc[0]
+def _run_partition(frame: Any, task: Callable[[pa.Table, int], Any], offset: int, schema: pa.Schema) -> Any:
+    return task(_as_arrow(frame, schema), offset)
 
 
 def _merge_two(merge: Callable[[Sequence[Any]], Any], left: Any, right: Any) -> Any:
@@ -87,8 +83,10 @@ class DaskRunner:
                 self._client = distributed.Client(self.scheduler, timeout=CONNECT_TIMEOUT)
             except (OSError, TimeoutError) as exc:
                 raise UsageProblem(f"--scheduler {self.scheduler}", f"cannot be reached ({exc})", "check the address, e.g. tcp://10.0.0.5:8786") from None
+            except (ValueError, TypeError) as exc:
+                raise UsageProblem(f"--scheduler {self.scheduler!r}", f"is not a scheduler address ({exc})", "write it as tcp://HOST:PORT, e.g. tcp://10.0.0.5:8786") from None
         else:
-            self._cluster = distributed.LocalCluster(n_workers=LOCAL_WORKERS, threads_per_worker=1, host="127.0.0.1", dashboard_address=None, processes=True)
+            self._cluster = distributed.LocalCluster(n_workers=LOCAL_WORKERS, threads_per_worker=1, host="127.0.0.1", dashboard_address=LOCAL_HTTP_ADDRESS, processes=True)
             self._client = distributed.Client(self._cluster)
         if source.format == "parquet":
             self._frame = dd.read_parquet(self.path, dtype_backend="pyarrow")
@@ -108,13 +106,18 @@ class DaskRunner:
             self._cluster.close()
 
     def map_merge(self, task: Callable[[pa.Table, int], Any], merge: Callable[[Sequence[Any]], Any], label: str) -> Any:
-        """``task`` on every partition (with its first table position), merged pairwise up a tree on the cluster."""
-        import pandas as pd
+        """``task`` on every partition (with its first table position), merged pairwise up a tree on the cluster.
+
+        ``task`` and the schema are scattered to the cluster once; each partition's task refers to them.
+        """
         from dask.delayed import delayed
         from distributed import as_completed
 
-        parts = self._frame.map_partitions(_run_partition, task, self._offsets, self._schema, meta=pd.Series(dtype=object))
-        level = self._client.compute([delayed(_first)(part) for part in parts.to_delayed()])
+        # Sent to the cluster once and passed to every partition by reference, so the graph stays small
+        # whatever the task closes over.
+        shared_task, shared_schema = self._client.scatter([task, self._schema], hash=False)
+        parts = self._frame.to_delayed()
+        level = self._client.compute([delayed(_run_partition)(part, shared_task, offset, shared_schema) for part, offset in zip(parts, self._offsets)])
         if self.progress is not None:
             bar = self.progress(label, self._offsets[-1])
             rows = {future.key: self._offsets[i + 1] - self._offsets[i] for i, future in enumerate(level)}

@@ -5,7 +5,7 @@ from __future__ import annotations
 import traceback
 from contextlib import nullcontext
 from dataclasses import dataclass
-from typing import Iterable
+from typing import Iterable, Mapping
 
 import numpy as np
 
@@ -49,9 +49,24 @@ def select_rules(registry: Registry, options: CheckOptions) -> list[tuple[RuleLi
             except KeyError as exc:
                 names = ", ".join(t.name for t in rule.thresholds) or "none"
                 raise UsageProblem(f"rule {rule.id}", f"has no threshold {exc.args[0]!r}", f"its thresholds are: {names}") from None
+            _check_sides(rule, config.thresholds)
             settings = RuleSettings(settings.rule, settings.thresholds, config.grade, frozenset(config.exempt))
         chosen.append((rule, settings))
     return chosen
+
+
+def _check_sides(rule: RuleLike, configured: Mapping[str, float]) -> None:
+    """Raise when a configured threshold lies on the other side of zero from its default (every default is >= 0)."""
+    for default in rule.thresholds:
+        if default.name not in configured:
+            continue
+        value = configured[default.name]
+        floor_ok = value > 0 if default.value > 0 else value >= 0
+        if default.value >= 0 and not floor_ok:
+            side = "positive" if default.value > 0 else "zero or more"
+            raise UsageProblem(
+                f"rule {rule.id}: threshold {default.name!r}", f"must be {side} like its default {default.value:g}, got {value:g}", f"write e.g. {default.name} = {default.value:g}"
+            )
 
 
 def run_rule(rule: RuleLike, settings: RuleSettings, context: RunContext, debug: bool = False) -> RuleOutcome:
@@ -70,6 +85,8 @@ def run_rule(rule: RuleLike, settings: RuleSettings, context: RunContext, debug:
                 raise TypeError(f"check() yielded {type(item).__name__}, not a Finding")
     except NotApplicable as reason:
         return RuleOutcome(rule.id, (), not_applicable=str(reason))
+    except MemoryError:
+        raise  # the whole run is out of memory, not this rule: the engine says which option helps
     except Exception as exc:  # a rule never crashes the run
         if debug:
             traceback.print_exc()

@@ -179,13 +179,13 @@ class EngineRun:
         beyond = [f"{c.beyond:,} beyond {s.measure.replace('_', ' ')} {c.name}" for s in self.screens if s.column is None for c in s.cutoffs[-1:]]
         if beyond:
             text += f"; all {self.complete_rows:,} complete rows were screened against the whole table's fit: " + ", ".join(beyond)
-        fenced = [s for s in self.screens if s.measure == "modified_z"]
+        fenced = [s for s in self.screens if s.measure == "fence_score"]
         if fenced and self.fences is not None:
             values = sum(s.cutoffs[-1].beyond for s in fenced)
             worst = max(self.fences.rank_error(s.column) for s in fenced if s.column is not None)
             text += (
-                f"; every value of {len(fenced)} numeric column{'' if len(fenced) == 1 else 's'} was screened against the sample's median and MAD: "
-                f"{values:,} beyond |modified z| {self.fences.limit:g} (the sample's medians are within {worst:.2g} in rank of the whole "
+                f"; every value of {len(fenced)} numeric column{'' if len(fenced) == 1 else 's'} was screened against the sample's adjusted boxplot: "
+                f"{values:,} beyond its fences (the sample's quartiles are within {worst:.2g} in rank of the whole "
                 f"table's with probability {FENCE_CONFIDENCE:g}, Dvoretzky-Kiefer-Wolfowitz)"
             )
         return text
@@ -224,13 +224,17 @@ def keep_rows(runner: PassRunner, limit: int) -> KeptRows:
     return runner.map_merge(lambda batch, offset: KeptRows.of(batch, offset, limit), merge_all, "reading")
 
 
-def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | None = None) -> tuple[RunContext, EngineRun]:
+def scaled_context(
+    runner: PassRunner, options: CheckOptions, row_budget: int | None = None, tallies: bool = False
+) -> tuple[RunContext, EngineRun]:
     """Run the passes of the stream or Dask engine and build the context the rules read.
 
     Within the row budget (``row_budget`` rows, default ``SAMPLE_CELLS``
     cells) the context holds every row, and its column summaries and R factor
     are the merged pass-1 statistics; beyond it, the context holds the hashed
     sample and pass 2 screens every row against the whole table's fit.
+    ``tallies`` has pass 1 tally every column even beyond the budget (for a
+    baseline profile); the merged statistics are on the context as ``whole_statistics``.
     """
     from .api import build_context
 
@@ -239,15 +243,18 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
     info = runner.info(kept.seen, kept.table.num_columns)
     context = build_context(kept.table, info, options)
     roles, intercept, schema, codes = context.roles, options.intercept, context.table.schema, options.missing_codes
+    # The pass functions travel to every Dask partition: they close over small settings only, never the kept rows.
+    whole = kept.whole
 
     def pass_one(batch: pa.Table, offset: int) -> TableStatistics:
-        return first_pass(conformed(batch, schema, codes), roles, intercept, tallies=kept.whole)
+        return first_pass(conformed(batch, schema, codes), roles, intercept, tallies=whole or tallies)
 
     if kept.whole and runner.reads_in_process:
         # Every row is already in memory: pass 1 runs over the kept rows' batches instead of reading the file again.
         statistics = merge_all([first_pass(batch, roles, intercept) for batch in _batches(context.table)])
     else:
         statistics = runner.map_merge(pass_one, merge_all, "pass 1")
+    context.whole_statistics = statistics
     if kept.whole:
         context.statistics = statistics
         return context, EngineRun(runner.name, kept.seen, kept.seen, statistics.model.rows)
@@ -272,16 +279,14 @@ def scaled_context(runner: PassRunner, options: CheckOptions, row_budget: int | 
 
 
 def column_fences(context: RunContext) -> ColumnFences | None:
-    """The sample's median and MAD of each column ``outliers.univariate`` measures (those with a nonzero MAD), or None."""
-    spreads = [(name, *context.median_and_mad(name)) for name in context.value_screened_columns]
-    kept = [(name, median, mad) for name, median, mad in spreads if np.isfinite(mad) and mad > 0]
+    """The sample's adjusted-boxplot fences of each column ``outliers.univariate`` measures (those with a nonzero IQR), or None."""
+    kept = [(name, fence) for name in context.value_screened_columns if (fence := context.fences(name)) is not None]
     if not kept:
         return None
     return ColumnFences(
-        columns=tuple(name for name, _, _ in kept),
-        medians=tuple(median for _, median, _ in kept),
-        mads=tuple(mad for _, _, mad in kept),
-        sample_values=tuple(int(np.count_nonzero(np.isfinite(context.values(name)))) for name, _, _ in kept),
+        columns=tuple(name for name, _ in kept),
+        fences=tuple(fence for _, fence in kept),
+        sample_values=tuple(int(np.count_nonzero(np.isfinite(context.values(name)))) for name, _ in kept),
     )
 
 

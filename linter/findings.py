@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import enum
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Mapping, Sequence
 
 JSONScalar = str | int | float | bool | None
@@ -119,6 +119,21 @@ class Finding:
             self.columns,
             tuple((isinstance(r, str), str(r) if isinstance(r, str) else r) for r in self.rows),
             self.message,
+        )
+
+    def shown(self) -> "Finding":
+        """This finding with its texts as a report prints them: controls escaped, long names, labels and values cut.
+
+        See :mod:`prefit.text`; the measured numbers and ``details`` are unchanged.
+        """
+        from .text import inert, inert_message
+
+        return replace(
+            self,
+            message=inert_message(self.message),
+            columns=tuple(inert(c) for c in self.columns),
+            rows=tuple(inert(r) if isinstance(r, str) else r for r in self.rows),
+            remedy=inert_message(self.remedy),
         )
 
     def to_dict(self) -> dict[str, Any]:

@@ -41,6 +41,7 @@ class CheckOptions:
     order: str | None = None
     group: str | None = None
     purpose: str = "explain"
+    baseline: str | None = None
 
 
 PURPOSES = ("explain", "predict")
@@ -86,6 +87,7 @@ def _as_codes(value: Any, where: str) -> dict[str, tuple[str, ...]]:
 
 
 def _as_number(value: Any, where: str) -> float:
+    """A finite number (nan and the infinities are refused: a nan limit would pass every comparison silently)."""
     if isinstance(value, str):
         try:
             value = float(value)
@@ -145,12 +147,10 @@ def _as_rules(value: Any, where: str) -> dict[str, RuleConfig]:
         if unknown:
             raise UsageProblem(here, f"has unknown key {unknown[0]!r}", f"use only {', '.join(sorted(RULE_KEYS))}")
         limits = body.get("thresholds", {})
-        if not isinstance(limits, Mapping) or not all(
-            isinstance(v, (int, float)) and not isinstance(v, bool) for v in limits.values()
-        ):
+        if not isinstance(limits, Mapping):
             raise UsageProblem(f"{here}.thresholds", "must map threshold names to numbers", "write e.g. {misleads = 8}")
         parsed[str(rule_id)] = RuleConfig(
-            thresholds={str(k): float(v) for k, v in limits.items()},
+            thresholds={str(k): _as_number(v, f"{here}.thresholds.{k}") for k, v in limits.items()},
             grade=_as_grade(body["grade"], f"{here}.grade") if "grade" in body else None,
             exempt=_as_names(body.get("exempt", []), f"{here}.exempt"),
             enabled=_as_bool(body.get("enabled", True), f"{here}.enabled"),
@@ -190,6 +190,7 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("anticipated-r2", "anticipated_r2", _as_share, "the R-squared expected of the model, for sample-size planning"),
     Setting("score", "score", _as_text, "a table of new rows the model will be asked to predict"),
     Setting("order", "order", _as_text, "a column giving the rows' time order, for the autocorrelation preview"),
+    Setting("baseline", "baseline", _as_text, "the last accepted extract (a profile from --save-baseline, or the table) to vet this one against"),
     Setting("purpose", "purpose", _as_purpose, "what the model is for: explain (read its coefficients) or predict (score new rows)"),
     Setting("group", "group", _as_text, "a column whose equal values mark rows of one group (site, customer, machine); \"none\" turns grouping off"),
 )

@@ -23,13 +23,15 @@ import pyarrow as pa
 
 from .design import INTERCEPT, ModelColumns, Term, treatment_term
 from .roles import Kind, Roles, group_labels, label_values
+from .stats.distribution import dkw_rank_error
 from .stats.factor import DesignFactor
 from .stats.fit import PreliminaryFit
 from .stats.grouping import GroupFactors, GroupRows
 from .stats.influence import row_influence
 from .stats.mergeable import Moments, TriangularFactor, triangular
 from .stats.resistant import RESIDUAL_LIMIT, ResistantFit
-from .stats.robust import MODIFIED_Z_LIMIT, modified_z, squared_distances
+from .stats.robust import squared_distances
+from .stats.skewed import FENCE_MULTIPLE, AdjustedFences
 from .stats.summaries import ColumnTally
 
 TOP_ROWS = 20
@@ -40,7 +42,7 @@ SCREENED_RULES = {
     "dffits": "influence.dffits",
     "dfbetas": "influence.dfbetas",
     "robust_distance": "outliers.multivariate",
-    "modified_z": "outliers.univariate",
+    "fence_score": "outliers.univariate",
     "robust_residual": "influence.robust-distortion",
 }
 ROBUST_QUANTILE = 0.975
@@ -243,7 +245,7 @@ class MeasureScreen:
 
     @property
     def key(self) -> str:
-        """The measure, and the column for a per-column measure (``modified_z:kwh``)."""
+        """The measure, and the column for a per-column measure (``fence_score:kwh``)."""
         return self.measure if self.column is None else f"{self.measure}:{self.column}"
 
     def merge(self, other: "MeasureScreen") -> "MeasureScreen":
@@ -300,16 +302,15 @@ class RobustCentre:
 
 @dataclass(frozen=True)
 class ColumnFences:
-    """The median and MAD of numeric columns in the sample, to screen every value of the table against.
+    """The adjusted-boxplot fences of numeric columns in the sample, to screen every value of the table against.
 
     Beyond the row budget the sample the rules see is a uniform sample of
     rows, and it is the quantile sketch: by the Dvoretzky-Kiefer-Wolfowitz
     inequality with Massart's constant, a column's empirical distribution over
     its ``m`` sample values is within ``rank_error`` of the whole table's at
     every value, with probability :data:`FENCE_CONFIDENCE`. So the sample
-    median's rank in the whole table is within ``rank_error`` of one half,
-    and the table's share of values within median +- MAD within twice that of
-    one half (an interval is the difference of two distribution values).
+    quartiles' ranks in the whole table are within ``rank_error`` of one
+    quarter and three quarters.
 
     References
     ----------
@@ -318,31 +319,25 @@ class ColumnFences:
     """
 
     columns: tuple[str, ...]
-    medians: tuple[float, ...]
-    mads: tuple[float, ...]
+    fences: tuple[AdjustedFences, ...]
     sample_values: tuple[int, ...]
-    limit: float = MODIFIED_Z_LIMIT
+    limit: float = FENCE_MULTIPLE
 
     def rank_error(self, column: str) -> float:
         """The largest gap between the sample's and the table's distribution of ``column`` at confidence 0.99."""
         return dkw_rank_error(self.sample_values[self.columns.index(column)], FENCE_CONFIDENCE)
 
     def to_dict(self) -> dict[str, object]:
-        """Plain JSON types: per column, the sample's median and MAD, its values and the rank error bound."""
+        """Plain JSON types: per column, the sample's quartiles, medcouple and fences, its values and the rank error bound."""
         return {
             "from": "the uniform sample of rows the rules ran on",
             "confidence": FENCE_CONFIDENCE,
             "bound": "Dvoretzky-Kiefer-Wolfowitz inequality with Massart's constant (1990): rank error sqrt(ln(2 / (1 - confidence)) / (2 m))",
             "columns": {
-                name: {"median": median, "mad": mad, "sample_values": m, "rank_error": dkw_rank_error(m, FENCE_CONFIDENCE)}
-                for name, median, mad, m in zip(self.columns, self.medians, self.mads, self.sample_values)
+                name: {**fence.to_dict(), "sample_values": m, "rank_error": dkw_rank_error(m, FENCE_CONFIDENCE)}
+                for name, fence, m in zip(self.columns, self.fences, self.sample_values)
             },
         }
-
-
-def dkw_rank_error(values: int, confidence: float) -> float:
-    """``eps`` with ``P(sup |F_m - F| > eps) <= 1 - confidence`` for ``m = values`` sampled values (Massart 1990)."""
-    return float(np.sqrt(np.log(2.0 / (1.0 - confidence)) / (2.0 * values))) if values > 0 else float("inf")
 
 
 def second_pass(
@@ -360,8 +355,8 @@ def second_pass(
     ``offset`` is the 0-based table position of the batch's first row;
     measures are compared in absolute value. With ``robust``, each complete
     row's squared robust distance from it is screened too; with ``fences``,
-    every value of each fenced column (complete row or not) by its modified
-    z-score from the sample's median and MAD; with ``resistant`` (the
+    every value of each fenced column (complete row or not) by its fence
+    score against the sample's adjusted boxplot; with ``resistant`` (the
     sample's high-breakdown fit and the terms of the sample's design, whose
     reference levels may differ from the whole table's), each complete row's
     standardized robust residual.
@@ -391,12 +386,11 @@ def second_pass(
             all_cutoffs["robust_residual"] = ((f"{RESIDUAL_LIMIT:g}", RESIDUAL_LIMIT),)
         screens = [_screen(batch, offset, roles, measure, cutoffs, measured[measure], positions) for measure, cutoffs in all_cutoffs.items()]
     if fences is not None:
-        cutoff = ((f"{fences.limit:g}", fences.limit),)
-        for name, median, mad in zip(fences.columns, fences.medians, fences.mads):
+        cutoff = ((f"{fences.limit:g} IQR", fences.limit),)
+        for name, fence in zip(fences.columns, fences.fences):
             values = columns.y if name == roles.target else columns.numeric[name]
             present = np.flatnonzero(np.isfinite(values))
-            scores, _, _ = modified_z(values[present], (median, mad))
-            screens.append(_screen(batch, offset, roles, "modified_z", cutoff, np.abs(scores), present, name))
+            screens.append(_screen(batch, offset, roles, "fence_score", cutoff, fence.scores(values[present]), present, name))
     return tuple(screens)
 
 

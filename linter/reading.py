@@ -11,7 +11,7 @@ import os
 import sys
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, BinaryIO
+from typing import Any, BinaryIO, Callable, TextIO
 
 import pyarrow as pa
 
@@ -20,6 +20,7 @@ from .errors import UsageProblem
 SNIFF_BYTES = 64 * 1024
 CSV_BLOCK_BYTES = 1 << 24
 UTF8_BOM = b"\xef\xbb\xbf"
+UTF16_BOMS = (b"\xff\xfe", b"\xfe\xff")
 GZIP_MAGIC = b"\x1f\x8b"
 BZ2_MAGIC = b"BZh"
 ZSTD_MAGIC = b"\x28\xb5\x2f\xfd"
@@ -90,7 +91,13 @@ def _decompress(data: bytes, codec: str | None, where: str) -> bytes:
         stream = pa.input_stream(pa.py_buffer(data), compression="zstd")
         return bytes(stream.read())
     except (OSError, EOFError, ValueError, pa.ArrowException) as exc:
-        raise UsageProblem(where, f"is not a readable {codec} file ({exc})", "check that the file is complete") from None
+        raise codec_problem(codec, exc, where) from None
+
+
+def codec_problem(codec: str, error: Exception, where: str) -> UsageProblem:
+    """The one-line error for a compressed file that cannot be decompressed (truncated, or not of that format)."""
+    first = str(error).strip().splitlines()[0] if str(error).strip() else type(error).__name__
+    return UsageProblem(where, f"is not a readable {codec} file ({first})", "check that the file is complete and that its name ends with the right extension")
 
 
 def _sniff_sep(text_head: str, where: str) -> str:
@@ -117,9 +124,23 @@ def resolve_sep(sep: str | None, text_head: str, where: str) -> tuple[str, list[
         sep = "\t"
     if len(sep) != 1:
         raise UsageProblem("--sep", f"must be one character, got {sep!r}", "use e.g. --sep ';' or --sep '\\t'")
-    header = next(csv.reader(io.StringIO(text_head), delimiter=sep), [])
+    header = _header(text_head, sep)
+    if len(header) == 1:
+        other = _sniff_sep(text_head, where)
+        if other != sep and len(_header(text_head, other)) > 1:
+            raise UsageProblem(
+                where, f"has one column when split at {sep!r} but {len(_header(text_head, other))} when split at {other!r}", f"give --sep {other!r} (or leave --sep out)"
+            )
     _check_header(header, where)
     return sep, header
+
+
+def _header(text_head: str, sep: str) -> list[str]:
+    """The first record of ``text_head`` split at ``sep``; any line end (LF, CRLF, or CR alone) ends it."""
+    try:
+        return next(csv.reader(io.StringIO(text_head, newline=""), delimiter=sep), [])
+    except csv.Error:
+        return text_head.splitlines()[0].split(sep) if text_head.strip() else []
 
 
 def csv_options(sep: str) -> dict[str, Any]:
@@ -150,20 +171,44 @@ def open_arrow(source: pa.NativeFile) -> Any:
     return ipc.open_file(source) if is_arrow_file(source) else ipc.open_stream(source)
 
 
+def utf16_bom(head: bytes) -> bool:
+    """Whether ``head`` starts with a UTF-16 byte-order mark (either byte order)."""
+    return head.startswith(UTF16_BOMS)
+
+
+def _utf8_problem(data: bytes, error: UnicodeDecodeError, where: str) -> UsageProblem:
+    line = data.count(b"\n", 0, error.start) + data.count(b"\r", 0, error.start) - data.count(b"\r\n", 0, error.start) + 1
+    return UsageProblem(
+        where,
+        f"is not valid UTF-8 (byte {data[error.start]:#04x} on line {line})",
+        "name the file's encoding with --encoding, e.g. --encoding latin-1",
+    )
+
+
+def check_utf8_head(head: bytes, where: str) -> None:
+    """Raise the in-memory reader's error when the first bytes of a file are not UTF-8 (a character cut at the end is allowed)."""
+    try:
+        head.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        if exc.start < len(head) - 3:
+            raise _utf8_problem(head, exc, where) from None
+
+
 def _check_encoding(data: bytes, encoding: str, where: str) -> bytes:
-    """Return UTF-8 bytes (without BOM); any other encoding is transcoded when declared."""
+    """Return UTF-8 bytes (without BOM); any other encoding is transcoded when declared.
+
+    A file that starts with a UTF-16 byte-order mark is read as UTF-16 even
+    when no encoding is named: the mark says what it is.
+    """
+    if is_utf8(encoding) and utf16_bom(data):
+        encoding = "utf-16"
     if is_utf8(encoding):
         if data.startswith(UTF8_BOM):
             data = data[3:]
         try:
             data.decode("utf-8")
         except UnicodeDecodeError as exc:
-            line = data.count(b"\n", 0, exc.start) + 1
-            raise UsageProblem(
-                where,
-                f"is not valid UTF-8 (byte {data[exc.start]:#04x} on line {line})",
-                "name the file's encoding with --encoding, e.g. --encoding latin-1",
-            ) from None
+            raise _utf8_problem(data, exc, where) from None
         return data
     try:
         return data.decode(encoding).encode("utf-8")
@@ -183,22 +228,55 @@ def _read_csv(data: bytes, options: ReadOptions, where: str) -> pa.Table:
     try:
         table = pacsv.read_csv(io.BytesIO(data), **csv_options(sep))
     except pa.ArrowInvalid as exc:
-        text = str(exc)
-        if "Expected" in text and "columns" in text:
-            line, found = _first_ragged_line(data, sep, len(header))
-            raise UsageProblem(
-                where,
-                f"line {line} has {found} fields where the header has {len(header)}",
-                "fix that line (a stray delimiter or an unquoted value) or give the right --sep",
-            ) from None
-        if "Empty CSV file" in text:
-            raise UsageProblem(where, "is empty", "give a table with a header row and data rows") from None
-        raise UsageProblem(where, f"cannot be read as delimited text ({text.splitlines()[0]})", "check the file and --sep") from None
+        raise csv_problem(exc, lambda: _text(data), sep, len(header), where) from None
+    if data.count(b'"') % 2:
+        check_quotes(_text(data), sep, where)
     return table
 
 
-def _first_ragged_line(data: bytes, sep: str, width: int) -> tuple[int, int]:
-    reader = csv.reader(io.StringIO(data.decode("utf-8", errors="replace")), delimiter=sep)
+def _text(data: bytes) -> io.StringIO:
+    return io.StringIO(data.decode("utf-8", errors="replace"), newline="")
+
+
+def csv_problem(error: pa.ArrowInvalid, text: Callable[[], TextIO], sep: str, width: int, where: str) -> UsageProblem:
+    """The one-line error for delimited text pyarrow could not parse; ``text`` opens the file as text to find the line.
+
+    Shared by the in-memory and streaming readers so that both name the same line.
+    """
+    message = str(error)
+    if "Expected" in message and "columns" in message:
+        line, found = _first_ragged_line(text(), sep, width)
+        return UsageProblem(
+            where,
+            f"line {line} has {found} fields where the header has {width}",
+            "fix that line (a stray delimiter or an unquoted value) or give the right --sep",
+        )
+    if "Empty CSV file" in message:
+        return UsageProblem(where, "is empty", "give a table with a header row and data rows")
+    return UsageProblem(where, f"cannot be read as delimited text ({message.splitlines()[0]})", "check the file and --sep")
+
+
+def check_quotes(text: TextIO, sep: str, where: str) -> None:
+    """Raise when a quoted value opens and never closes, which would swallow the rest of the file into one value.
+
+    Called only when the file holds an odd number of quote characters (a
+    closed quote and a doubled quote inside one come in pairs; a quote
+    inside an unquoted value, such as an inch mark, is legal and passes).
+    """
+    reader = csv.reader(text, delimiter=sep, strict=True)
+    start = 1
+    try:
+        for _ in reader:
+            start = reader.line_num + 1
+    except csv.Error as exc:
+        if "end of data" in str(exc) or "unexpected end" in str(exc):
+            raise UsageProblem(
+                where, f"line {start} opens a quoted value that never closes (the rest of the file would become one value)", "close the quote on that line or remove it"
+            ) from None
+
+
+def _first_ragged_line(text: TextIO, sep: str, width: int) -> tuple[int, int]:
+    reader = csv.reader(text, delimiter=sep)
     for row in reader:
         if row and len(row) != width:
             return reader.line_num, len(row)
@@ -332,7 +410,9 @@ def read_table(path: str, options: ReadOptions = ReadOptions()) -> tuple[pa.Tabl
 
 
 def _checked(table: pa.Table, path: str, fmt: str, digest: str) -> tuple[pa.Table, TableInfo]:
+    table = visible_names(table)
     _check_header(list(table.column_names), path)
+    check_column_types(table.schema, path)
     table = decode_dictionaries(table)
     if table.num_columns == 0:
         raise UsageProblem(path, "has no columns", "give a table with a header row")
@@ -343,6 +423,31 @@ def _checked(table: pa.Table, path: str, fmt: str, digest: str) -> tuple[pa.Tabl
             raise UsageProblem(path, f"column {name!r} holds bytes that are not text", "name the file's encoding with --encoding")
     info = TableInfo(path=path, format=fmt, rows=table.num_rows, columns=table.num_columns, sha256=digest)
     return table, info
+
+
+def unnamed(position: int) -> str:
+    """The name shown for a column whose header is empty: its 1-based position."""
+    return f"(unnamed column {position})"
+
+
+def visible_names(table: pa.Table) -> pa.Table:
+    """The table with every empty column name replaced by :func:`unnamed`, so that reports show it and options can name it."""
+    names = list(table.column_names)
+    if all(names):
+        return table
+    return table.rename_columns([name or unnamed(i + 1) for i, name in enumerate(names)])
+
+
+def check_column_types(schema: pa.Schema, where: str) -> None:
+    """Raise for a column of lists, records or maps (nested JSON Lines, Parquet or Arrow), which no design can use."""
+    for field in schema:
+        kind = field.type
+        if pa.types.is_dictionary(kind):
+            kind = kind.value_type
+        if pa.types.is_nested(kind):
+            raise UsageProblem(
+                where, f"column {field.name!r} holds nested values ({kind}), which a linear model cannot use", "flatten it into plain columns, or drop it from the file"
+            )
 
 
 def decode_dictionaries(table: pa.Table) -> pa.Table:

@@ -144,6 +144,19 @@ def _require_columns(names: list[str], wanted: tuple[str, ...], what: str) -> No
             raise UsageProblem(f"{what} {name!r}", "is not a column of the table", closest_names(name, names))
 
 
+def _check_conflicts(names: list[str], options: CheckOptions) -> None:
+    """Raise when two options contradict each other, or a rule exempts a column the table does not have."""
+    if options.id is not None and options.id == options.target:
+        raise UsageProblem(f"--id {options.id!r}", "is also the --target column", "name the column of row labels, or leave --id out")
+    if options.target in options.exclude:
+        raise UsageProblem(f"--exclude {options.target!r}", "is the --target column, which is never a predictor", "remove it from --exclude")
+    both = [name for name in options.predictors or () if name in options.exclude]
+    if both:
+        raise UsageProblem(f"--predictors and --exclude {both[0]!r}", "both name this column", "keep it in one of them")
+    for rule_id, config in sorted(options.rules.items()):
+        _require_columns(names, config.exempt, f"rule {rule_id}: exempt")
+
+
 def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
     """Decide target, id and predictors from the options and the columns' kinds."""
     names = list(table.column_names)
@@ -160,12 +173,14 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
     _require_columns(names, options.categorical, "--categorical")
     if options.order is not None:
         _require_columns(names, (options.order,), "--order")
+        _require_orderable(table.column(options.order), options.order)
     group, group_origin = _group_column(table, options)
     if options.predictors is not None:
         _require_columns(names, options.predictors, "--predictors")
         for special, flag in ((options.target, "--target"), (options.id, "--id"), (group, "--group")):
             if special in options.predictors:
                 raise UsageProblem("--predictors", f"lists {special!r}, which is the {flag} column", "remove it from --predictors")
+    _check_conflicts(names, options)
     declared = set(options.categorical)
     kinds = {name: infer_kind(table.column(name), name in declared) for name in names}
     left_out: dict[str, str] = {}
@@ -230,6 +245,36 @@ def _group_column(table: pa.Table, options: CheckOptions) -> tuple[str | None, s
     return None, None
 
 
+ORDER_EXAMPLE_CHARS = 40
+
+
+def _require_orderable(column: pa.ChunkedArray, name: str) -> None:
+    """Raise a usage problem unless ``column`` holds numbers, dates, times or durations that can order the rows."""
+    t = column.type.value_type if pa.types.is_dictionary(column.type) else column.type
+    if _is_numeric_type(t) or pa.types.is_boolean(t) or (pa.types.is_temporal(t) and not pa.types.is_interval(t)):
+        return
+    present = column.drop_null()
+    if pa.types.is_dictionary(column.type):
+        present = present.cast(t)
+    if _is_text_type(t) and len(present):
+        days = pc.utf8_slice_codeunits(present, 0, 10)
+        dates = pc.strptime(days, format="%Y-%m-%d", unit="s", error_is_null=True)
+        # A day beyond its month (2024-02-30) parses as a later day; writing it back shows the difference.
+        valid = pc.fill_null(pc.equal(pc.strftime(dates, format="%Y-%m-%d"), days), False)
+        if dates.null_count < len(present):
+            bad = present.filter(pc.invert(valid))[0].as_py()
+            found = f"dates, but {bad[:ORDER_EXAMPLE_CHARS]!r} is not a valid date, so the column was read as text"
+        else:
+            found = f"text, such as {present[0].as_py()[:ORDER_EXAMPLE_CHARS]!r}, that is not a number or an ISO date"
+    else:
+        found = f"values of type {t}" if len(present) else "no values"
+    raise UsageProblem(
+        f"--order {name!r}",
+        f"must be a column of numbers, dates or times to put the rows in order; it holds {found}",
+        "name a date, time or number column, or write its values as ISO dates (YYYY-MM-DD) or numbers",
+    )
+
+
 def target_candidates(table: pa.Table) -> list[str]:
     """Columns that could be a least-squares response: numeric, and neither row numbers nor whole-number dates."""
     return [
@@ -269,14 +314,20 @@ def _text_reason(column: pa.ChunkedArray) -> str:
     return f"text with {distinct} distinct values in {present} rows; as a category it would cost {distinct - 1} parameters"
 
 
+UNITS_PER_DAY = {"s": 86_400.0, "ms": 86_400e3, "us": 86_400e6, "ns": 86_400e9}
+
+
 def numeric_values(column: pa.ChunkedArray) -> np.ndarray:
-    """A numeric, boolean or datetime column as float64 with NaN for missing values."""
+    """A numeric, boolean or datetime column as float64 with NaN for missing values (dates, times and durations in days)."""
     t = column.type
     if pa.types.is_dictionary(t):
         column = column.cast(t.value_type)
         t = column.type
     if pa.types.is_null(t):
         return np.full(len(column), np.nan)
+    if pa.types.is_duration(t) or pa.types.is_time(t):
+        units = pc.cast(column, pa.int64() if t.bit_width == 64 else pa.int32())
+        return np.asarray(units.to_numpy(zero_copy_only=False), dtype=np.float64) / UNITS_PER_DAY[t.unit]
     if pa.types.is_temporal(t):
         seconds = pc.cast(pc.cast(column, pa.timestamp("s")), pa.int64())
         return np.asarray(seconds.to_numpy(zero_copy_only=False), dtype=np.float64) / 86400.0

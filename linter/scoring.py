@@ -10,12 +10,12 @@ the fitted design's terms and reference levels, so that their leverage
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Mapping
+from typing import Mapping, Sequence
 
 import numpy as np
 import pyarrow as pa
 
-from .design import Design, category_codes
+from .design import Design, Term, category_codes
 from .errors import UsageProblem, closest_names
 from .options import CheckOptions
 from .reading import ReadOptions, TableInfo, read_table
@@ -125,32 +125,56 @@ class ScoredRows:
         return ~self.outside_any & (self.leverage > self.largest_leverage)
 
 
-def score_rows(score: ScoreTable, design: Design, roles: Roles, fit: PreliminaryFit, data_leverage: np.ndarray) -> ScoredRows:
-    """Build design rows for the scoring table with the fitted design's terms and reference levels.
+@dataclass(frozen=True)
+class TermRows:
+    """A table's rows through given design terms: which are complete, their design rows, and what the terms never saw.
 
-    The leverage of a new row, x' (X'X)^-1 x, comes from a triangular solve
-    with the design's R factor (O(rows p^2)); no rows x rows matrix is formed.
+    ``outside`` maps each predictor to a mask over all rows: a value outside
+    ``observed`` or a category level the terms lack; ``X`` holds the complete rows.
     """
-    table = score.table
+
+    complete: np.ndarray
+    X: np.ndarray
+    outside: Mapping[str, np.ndarray]
+    unseen_levels: Mapping[str, tuple[str, ...]]
+
+
+def rows_through_terms(
+    table: pa.Table,
+    terms: Sequence[Term],
+    observed: Mapping[str, tuple[float, float]],
+    path: str,
+    converted: Mapping[str, tuple[float, float]] | None = None,
+    unseen_complete: bool = True,
+) -> TermRows:
+    """Design rows of ``table`` with the given terms and reference levels.
+
+    A row whose category level the terms lack gets all-zero indicator
+    columns, or, without ``unseen_complete``, counts as incomplete.
+
+    ``converted`` maps a numeric column to ``(scale, offset)``: its values
+    are read as ``(value - offset) / scale`` (back into the units the terms
+    were fitted in).
+    """
     rows = table.num_rows
     complete = np.ones(rows, dtype=bool)
     blocks: list[np.ndarray] = []
     outside: dict[str, np.ndarray] = {}
-    observed: dict[str, tuple[float, float]] = {}
     unseen: dict[str, tuple[str, ...]] = {}
-    names = design.column_names
-    for term in design.terms:
+    for term in terms:
         if term.kind is None:
             blocks.append(np.ones((rows, 1)))
             continue
         column = table.column(term.source)
         if term.kind in NUMERIC_KINDS:
-            values = _numbers(column, term.source, score.info.path)
+            values = _numbers(column, term.source, path)
+            if converted and term.source in converted:
+                scale, offset = converted[term.source]
+                values = (values - offset) / scale
             present = np.isfinite(values)
-            fitted = design.X[:, names.index(term.columns[0])]
-            low, high = (float(fitted.min()), float(fitted.max())) if fitted.size else (np.nan, np.nan)
-            observed[term.source] = (low, high)
-            outside[term.source] = present & ((values < low) | (values > high))
+            if term.source in observed:
+                low, high = observed[term.source]
+                outside[term.source] = present & ((values < low) | (values > high))
             complete &= present
             blocks.append(np.where(present, values, 0.0)[:, None])
             continue
@@ -162,23 +186,40 @@ def score_rows(score: ScoreTable, design: Design, roles: Roles, fit: Preliminary
         outside[term.source] = is_unseen
         if is_unseen.any():
             unseen[term.source] = tuple(sorted({str(label) for label in labels[is_unseen]}))
-        complete &= present
+        complete &= present if unseen_complete else present & ~is_unseen
         if term.levels:
             blocks.append(np.column_stack([(labels == level) & present for level in term.levels]).astype(np.float64))
     X = np.hstack(blocks)[complete] if blocks else np.empty((int(complete.sum()), 0))
+    return TermRows(complete, np.ascontiguousarray(X), outside, unseen)
+
+
+def score_rows(score: ScoreTable, design: Design, roles: Roles, fit: PreliminaryFit, data_leverage: np.ndarray) -> ScoredRows:
+    """Build design rows for the scoring table with the fitted design's terms and reference levels.
+
+    The leverage of a new row, x' (X'X)^-1 x, comes from a triangular solve
+    with the design's R factor (O(rows p^2)); no rows x rows matrix is formed.
+    """
+    names = design.column_names
+    observed: dict[str, tuple[float, float]] = {}
+    for term in design.terms:
+        if term.kind in NUMERIC_KINDS:
+            fitted = design.X[:, names.index(term.columns[0])]
+            observed[term.source] = (float(fitted.min()), float(fitted.max())) if fitted.size else (np.nan, np.nan)
+    through = rows_through_terms(score.table, design.terms, observed, score.info.path)
+    X = through.X
     leverage = fit.score_rows(X, np.zeros(X.shape[0])).hat if X.shape[0] else np.zeros(0)
     largest = float(data_leverage.max()) if data_leverage.size else float("nan")
     return ScoredRows(
-        rows=rows,
-        complete=complete,
-        X=np.ascontiguousarray(X),
+        rows=score.table.num_rows,
+        complete=through.complete,
+        X=X,
         leverage=leverage,
-        outside=outside,
+        outside=through.outside,
         observed=observed,
-        unseen_levels=unseen,
+        unseen_levels=through.unseen_levels,
         largest_leverage=largest,
         info=score.info,
-        labels=_labels(table, roles.id),
+        labels=_labels(score.table, roles.id),
     )
 
 

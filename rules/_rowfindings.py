@@ -18,8 +18,9 @@ CHANCE = Threshold(
     "chance",
     0.05,
     "rows beyond a size-scaled cutoff are reported when a clean table of this size would show as many (Poisson "
-    "count) or one as extreme (Bonferroni bound) with probability below this level, under normal errors "
-    "(Beckman & Cook 1983, Technometrics 25); set it to 1 to report every crossing",
+    "count) or one as extreme (Bonferroni bound) with probability below half this level each, so that a clean "
+    "table is reported with probability at most this level, under normal errors (Beckman & Cook 1983, "
+    "Technometrics 25); set it to 2 to report every crossing",
 )
 IMPACT_ROWS = 20
 GROUP_UNIT = "SE (of the fit without them)"

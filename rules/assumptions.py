@@ -45,6 +45,7 @@ from prefit.stats.residual_tests import (
     default_lags,
     jarque_bera,
     reset,
+    scaled_squares,
     white_columns,
     white_within_budget,
 )
@@ -164,7 +165,7 @@ def _heteroscedasticity(ctx: RunContext, settings: RuleSettings) -> Iterator[Fin
         return
     grade, limit = graded
     value = change if graded is by_errors else spread_ratio
-    shares = _spread_share_by_term(ctx, residual**2)
+    shares = _spread_share_by_term(ctx, scaled_squares(residual))
     leader = max(shares, key=lambda name: (shares[name], name))
     coefficient = design.column_names[worst]
     direction = "too small" if ratio[worst] > 1 else "too large"

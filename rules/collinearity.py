@@ -17,7 +17,7 @@ from prefit.context import RunContext
 from prefit.design import INTERCEPT, Design
 from prefit.findings import Finding, Grade
 from prefit.rule import COMMON_PRACTICE, NotApplicable, Repair, Rule, RuleSettings, Threshold, capped_names, fmt
-from prefit.stats.collinearity import NearDependency, TermInflation
+from prefit.stats.collinearity import Collinearity, NearDependency, TermInflation
 from prefit.stats.factor import EPS, DesignFactor, Relation
 
 NEGLIGIBLE = 1e-9
@@ -271,6 +271,16 @@ def _vif_message(term: TermInflation, named: list[tuple[str, float]]) -> str:
     return f"{head}; explained mostly by {reasons}"
 
 
+def _unreliable(diagnostics: Collinearity) -> str:
+    """A sentence for a finding whose numbers double precision cannot resolve, or nothing."""
+    if diagnostics.reliable:
+        return ""
+    return (
+        f"; these numbers are beyond what double precision resolves (relative error up to {fmt(diagnostics.relative_error)}): "
+        "read them as 'extremely large', not as values"
+    )
+
+
 def _vif(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     if not _ready(ctx):
         return
@@ -300,7 +310,7 @@ def _vif(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
             reshape = f"merge levels of {term.term} that coincide with {_names(others) or 'the other predictors'}, or drop one of {together}"
         yield settings.finding(
             grade,
-            _vif_message(term, named),
+            _vif_message(term, named) + _unreliable(diagnostics),
             columns=[term.term],
             value=value,
             threshold=threshold,
@@ -316,6 +326,8 @@ def _vif(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
                 "auxiliary_r_squared": term.auxiliary_r_squared,
                 "explained_by": {other: without for other, without in named},
                 "design_columns": list(term.columns),
+                "reliable": diagnostics.reliable,
+                "relative_error": diagnostics.relative_error,
             },
         )
 
@@ -469,7 +481,7 @@ def _condition(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
             grade,
             f"near dependency among {_names(columns)}: condition index {fmt(dependency.index)} of the design (columns scaled "
             f"to unit length, intercept kept; condition number {fmt(diagnostics.condition_number)}); share of each "
-            f"coefficient's variance in this direction: {shares}; VIFs: {named_vifs or 'none estimable'}",
+            f"coefficient's variance in this direction: {shares}; VIFs: {named_vifs or 'none estimable'}{_unreliable(diagnostics)}",
             columns=columns,
             value=dependency.index,
             threshold=limit,
@@ -482,6 +494,8 @@ def _condition(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
                 "vifs": vifs,
                 "condition_number": diagnostics.condition_number,
                 "condition_indices": [float(v) for v in diagnostics.condition_indices],
+                "reliable": diagnostics.reliable,
+                "relative_error": diagnostics.relative_error,
             },
         )
 

@@ -14,6 +14,7 @@ from prefit.design import category_codes
 from prefit.findings import Finding, Grade, counted
 from prefit.roles import Kind, numeric_values
 from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.stats.robust import median
 from prefit.stats.rowmatch import ColumnBits, candidate_rows, value_bits
 from prefit.stats.spot import evenly_spaced, finite_spot, spot_step
 from prefit.stats.textnumbers import is_text_type, mostly_number_like
@@ -450,18 +451,19 @@ def _scale_disparity(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
         values = ctx.design_column(column)
         nonzero = np.abs(values[values != 0])
         if nonzero.size:
-            halved = float(np.median(nonzero * 0.5) * 2.0)  # halved: the middle pair's mean cannot overflow
-            magnitudes[column] = halved if halved > 0 else float(np.median(nonzero))  # nor a subnormal halve to 0
+            magnitudes[column] = median(nonzero)
     if len(magnitudes) < 2:
         return
     largest = max(magnitudes, key=lambda c: (magnitudes[c], c))
     smallest = min(magnitudes, key=lambda c: (magnitudes[c], c))
-    ratio = magnitudes[largest] / magnitudes[smallest]
+    with np.errstate(over="ignore"):
+        ratio = float(np.float64(magnitudes[largest]) / magnitudes[smallest])
     if not limit.crossed(ratio):
         return
     yield settings.finding(
         Grade.NOTE,
-        f"typical magnitudes of the numeric predictors differ by a factor of {ratio:.3g}: {largest} about "
+        f"typical magnitudes of the numeric predictors differ by a factor of {ratio:.3g}"
+        f"{'' if np.isfinite(ratio) else ' (beyond the largest double, 1.8e308)'}: {largest} about "
         f"{magnitudes[largest]:.3g}, {smallest} about {magnitudes[smallest]:.3g} (median absolute non-zero value)",
         columns=[largest, smallest],
         value=ratio,

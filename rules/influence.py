@@ -18,7 +18,6 @@ from prefit.stats.chance import (
     chance_check,
     cooks_tail,
     expected_count,
-    hat_tail,
     t_tail,
 )
 from prefit.stats.influence import group_deletion
@@ -36,7 +35,10 @@ from ._rowfindings import (
 )
 
 LEVERAGE_SOURCE = "Hoaglin & Welsch (1978), The American Statistician 32(1); Velleman & Welsch (1981), The American Statistician 35(4)"
-COOK_MEDIAN_SOURCE = "Cook & Weisberg (1982), Residuals and Influence in Regression, sec. 3.4: D_i beyond the median of F(p, n-p)"
+COOK_MEDIAN_SOURCE = (
+    "Cook & Weisberg (1982), Residuals and Influence in Regression, sec. 3.4: D_i beyond the median of F(p, n-p); "
+    "misleads only when such rows are more, or more extreme, than a clean table of this design gives (chance level)"
+)
 COOK_FOUR_SOURCE = "common practice: Cook's distance above 4/n"
 BKW_SOURCE = "Belsley, Kuh & Welsch (1980), Regression Diagnostics, sec. 2.1 (size-adjusted cutoffs)"
 GROUP_CAP = 200
@@ -67,33 +69,54 @@ def _leverage(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     hat = ctx.row_scores.hat
     n, k = ctx.design.n, ctx.fit.rank
     relative = hat * n / k
-    for threshold in (settings.threshold("weakens"), settings.threshold("note")):
-        crossed = _crossed(threshold, relative)
-        if not crossed.any():
-            continue
-        cutoff = threshold.value * k / n
-        expected = n * float(hat_tail(np.array([cutoff]), n, k, ctx.design.intercept)[0])
-        check = chance_check(crossed, expected, hat_tail(np.array([hat[crossed].max()]), n, k, ctx.design.intercept))
-        if not beyond_chance(settings, check):
-            continue
-        rows = np.flatnonzero(crossed)
-        labels, values, total = _listed(ctx, rows, hat[rows])
-        assert threshold.grade is not None
+    high_limit, moving_limit = settings.threshold("note"), settings.threshold("weakens")
+    high = _crossed(high_limit, relative)
+    if not high.any():
+        return
+    cutoff = high_limit.value * k / n
+    rows = np.flatnonzero(high)
+    details: dict[str, object] = {"cutoff_multiple_of_p_over_n": high_limit.value, "high_leverage_rows": int(rows.size)}
+    moving = np.zeros(0, dtype=np.int64)
+    if _usable(ctx):
+        dof = ctx.fit.df_resid - 1
+        t = np.nan_to_num(ctx.influence.studentized[rows], nan=0.0)
+        bonferroni = np.minimum(1.0, rows.size * t_tail(t, dof))
+        moving = rows[bonferroni < moving_limit.value]
+        details["smallest_bonferroni_p"] = float(bonferroni.min())
+    if moving.size:
+        labels, values, total = _listed(ctx, moving, hat[moving])
+        impacts = single_row_impacts(ctx, moving, hat[moving])
+        details["impact"] = impacts
         yield settings.finding(
-            threshold.grade,
-            f"{total:,} of {n:,} complete rows {'has' if total == 1 else 'have'} leverage above {threshold.value:g}p/n = "
-            f"{fmt(cutoff)} (largest h = {fmt(float(hat[rows].max()))}, {fmt(float(relative[rows].max()))} times the "
-            f"average p/n; {check.describe()}): these rows sit far from the rest in predictor space and can pull the fit; "
-            "leverage alone does no harm when the row lies on the line, Cook's distance and DFBETAS tell whether it does",
+            Grade.WEAKENS,
+            f"{rows_text(total)} of high leverage (h above {high_limit.value:g}p/n = {fmt(cutoff)}, largest "
+            f"{fmt(float(hat[moving].max()))}) {'lies' if total == 1 else 'lie'} off the fitted line beyond chance "
+            f"(externally studentized residual, Bonferroni over the {rows.size:,} high-leverage rows): such rows pull "
+            f"the fit towards themselves{impact_message(impacts)}",
             rows=labels,
             row_values=values,
             row_count=total,
-            value=float(hat[rows].max()),
+            value=float(hat[moving].max()),
             threshold=cutoff,
-            source=threshold.source,
-            details={"cutoff_multiple_of_p_over_n": threshold.value, **chance_details(check)},
+            source=high_limit.source + "; " + moving_limit.source,
+            details=details,
         )
         return
+    labels, values, total = _listed(ctx, rows, hat[rows])
+    yield settings.finding(
+        Grade.NOTE,
+        f"{total:,} of {n:,} complete rows {'has' if total == 1 else 'have'} leverage above {high_limit.value:g}p/n = "
+        f"{fmt(cutoff)} (largest h = {fmt(float(hat[rows].max()))}, {fmt(float(relative[rows].max()))} times the "
+        "average p/n): these rows sit far from the rest in predictor space and decide the slopes more than others; none "
+        "of them lies off the fitted line beyond chance, so they do no harm to this fit",
+        rows=labels,
+        row_values=values,
+        row_count=total,
+        value=float(hat[rows].max()),
+        threshold=cutoff,
+        source=high_limit.source,
+        details=details,
+    )
 
 
 _ARRAY_COMPARISONS = {">": np.greater, ">=": np.greater_equal, "<": np.less, "<=": np.less_equal}
@@ -120,7 +143,14 @@ def _cooks(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     f_median = float(scipy.stats.f.ppf(median_limit.value, k, fit.df_resid))
     four_cutoff = four_limit.value / n
     finite = np.nan_to_num(cooks, nan=-np.inf)
-    strong = finite >= f_median
+    crossing = finite >= f_median
+    strong = crossing.copy()
+    strong_check = None
+    if crossing.any():
+        strongest = int(np.argmax(finite))
+        strong_expected = expected_count(infl.hat, lambda h: cooks_tail(np.full(h.shape, f_median), h, k, fit.df_resid))
+        strong_check = chance_check(crossing, strong_expected, cooks_tail(cooks[[strongest]], infl.hat[[strongest]], k, fit.df_resid))
+        strong &= beyond_chance(settings, strong_check)
     screened = _crossed(four_limit, finite * n)
     expected = expected_count(infl.hat, lambda h: cooks_tail(np.full(h.shape, four_cutoff), h, k, fit.df_resid))
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -129,15 +159,17 @@ def _cooks(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     check = chance_check(screened, expected, cooks_tail(cooks[[extreme]], infl.hat[[extreme]], k, fit.df_resid))
     group_rows = _group(ctx, screened, cooks)
     group = group_deletion(fit, ctx.design.X[group_rows], ctx.row_scores.residual[group_rows]) if group_rows.size >= 2 else None
-    masked = group is not None and not strong.any() and group.cooks >= f_median
-    if not strong.any() and not masked and not beyond_chance(settings, check):
+    masked = group is not None and not crossing.any() and group.cooks >= f_median and _group_off_line(ctx, settings)
+    if not crossing.any() and not masked and not beyond_chance(settings, check):
         return
-    details = {
+    details: dict[str, object] = {
         "f_median": f_median,
         "four_over_n": four_cutoff,
-        "rows_beyond_f_median": int(strong.sum()),
+        "rows_beyond_f_median": int(crossing.sum()),
         **chance_details(check),
     }
+    if strong_check is not None:
+        details["f_median_chance"] = chance_details(strong_check)
     group_text = ""
     if group is not None:
         moved = movement(ctx, group.shift, group.se_after)
@@ -154,6 +186,15 @@ def _cooks(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
             f"50% confidence region{impact_message(impacts)}{group_text}"
         )
         grade, limit, source = Grade.MISLEADS, f_median, median_limit.source
+    elif crossing.any() and strong_check is not None:
+        rows = np.flatnonzero(crossing)
+        labels, values, total = _listed(ctx, rows, cooks[rows])
+        message = (
+            f"{rows_text(total)} {'has' if total == 1 else 'have'} Cook's distance beyond the median of F({k}, {fit.df_resid}) = {fmt(f_median)} "
+            f"(largest D = {fmt(float(cooks[rows].max()))}), but a clean table of this size and design shows as much by chance "
+            f"({strong_check.describe()}){group_text}"
+        )
+        grade, limit, source = Grade.WEAKENS, f_median, median_limit.source
     elif masked:
         rows = group_rows
         labels, values, total = _listed(ctx, rows, cooks[rows])
@@ -182,6 +223,37 @@ def _cooks(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         source=source,
         details=details,
     )
+
+
+def _group_off_line(ctx: RunContext, settings: RuleSettings) -> bool:
+    """Whether the high-leverage rows, deleted together, lower the residual sum of squares beyond chance.
+
+    The rows are chosen by their leverage alone, so under the model the drop
+    is the mean-shift outlier test of the group: ``(drop / m) / ((RSS - drop)
+    / (n - k - m))`` is F(m, n - k - m). Deleting the most extreme rows of a
+    clean table always moves its fit; only a group that also lies off the
+    line is masking a problem.
+
+    References
+    ----------
+    Cook & Weisberg (1982), Residuals and Influence in Regression, sec. 2.2.4 (outlier test for a group of rows).
+    """
+    import scipy.stats
+
+    fit = ctx.fit
+    n, k = ctx.design.n, fit.rank
+    hat = ctx.row_scores.hat
+    high = np.flatnonzero(hat > LEVERAGE_GROUP_MULTIPLE * k / n)
+    high = high[np.lexsort((high, -hat[high]))][:GROUP_CAP]
+    remaining = n - k - high.size
+    if high.size < 2 or remaining <= 0:
+        return False
+    group = group_deletion(fit, ctx.design.X[high], ctx.row_scores.residual[high])
+    left = fit.rss - group.rss_drop
+    if not (np.isfinite(group.rss_drop) and left > 0):
+        return False
+    statistic = (group.rss_drop / high.size) / (left / remaining)
+    return bool(scipy.stats.f.sf(statistic, high.size, remaining) < settings.limit("chance"))
 
 
 def _group(ctx: RunContext, screened: np.ndarray, cooks: np.ndarray) -> np.ndarray:
@@ -244,13 +316,23 @@ def _dfbetas(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     strong_limit, weak_limit = settings.threshold("misleads"), settings.threshold("weakens")
     weak_cutoff = weak_limit.value / np.sqrt(n)
     largest = np.nan_to_num(infl.dfbetas_largest, nan=0.0) if design.p else np.zeros(n)
-    strong = _crossed(strong_limit, largest)
+    crossing = _crossed(strong_limit, largest)
     screened = largest > weak_cutoff
     dof = fit.df_resid - 1
+    strong_check = None
+    if crossing.any():
+        strong_expected = expected_count(
+            infl.dfbetas_reach, lambda reach: t_tail(_ratio(np.full(reach.shape, strong_limit.value), reach), dof)
+        )
+        strong_check = chance_check(crossing, strong_expected, t_tail(np.nanmax(np.abs(infl.studentized[crossing])), dof))
+    strong = crossing if strong_check is not None and beyond_chance(settings, strong_check) else np.zeros_like(crossing)
     expected = expected_count(infl.dfbetas_reach, lambda reach: t_tail(_ratio(np.full(reach.shape, weak_cutoff), reach), dof))
     check = chance_check(screened, expected, t_tail(np.nanmax(np.abs(infl.studentized[screened]), initial=0.0), dof))
     if strong.any():
         grade, cutoff, limit, selected = Grade.MISLEADS, strong_limit.value, strong_limit, strong
+    elif crossing.any() and strong_check is not None:
+        grade, cutoff, limit, selected = Grade.WEAKENS, strong_limit.value, strong_limit, crossing
+        check = strong_check
     elif beyond_chance(settings, check):
         grade, cutoff, limit, selected = Grade.WEAKENS, weak_cutoff, weak_limit, screened
     else:
@@ -267,12 +349,19 @@ def _dfbetas(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     details = {"coefficients": coefficient_names, "cutoff": cutoff, **chance_details(check)}
     counts = {names[j]: int((size[:, j] > cutoff).sum()) for j in moved_columns}
     moved_text = ", ".join(f"{name} ({rows_text(count)})" for name, count in counts.items())
-    if grade is Grade.MISLEADS:
+    if cutoff == strong_limit.value:
         impacts = single_row_impacts(ctx, rows, largest[rows])
         details["impact"] = impacts
+    if grade is Grade.MISLEADS:
         message = (
             f"{rows_text(total)} {'moves' if total == 1 else 'each move'} a coefficient by more than {fmt(cutoff)} standard error when deleted "
             f"(largest |DFBETAS| = {fmt(float(largest[rows].max()))}); coefficients moved: {moved_text}{impact_message(impacts)}"
+        )
+    elif cutoff == strong_limit.value:
+        message = (
+            f"{rows_text(total)} {'moves' if total == 1 else 'each move'} a coefficient by more than {fmt(cutoff)} standard error when deleted "
+            f"(largest |DFBETAS| = {fmt(float(largest[rows].max()))}), but a clean table of this size and design shows as much by chance "
+            f"({check.describe()}); coefficients moved: {moved_text}{impact_message(impacts)}"
         )
     else:
         message = (
@@ -405,7 +494,7 @@ def _robust_distortion(ctx: RunContext, settings: RuleSettings) -> Iterator[Find
 RULES = [
     Rule(
         id="influence.leverage",
-        summary="Rows far from the others in predictor space (hat values h_ii above 2p/n or 3p/n).",
+        summary="Rows far from the others in predictor space (hat values h_ii above 3p/n), and whether they also lie off the line.",
         why="A row's leverage h_ii is the weight its own target value has on its fitted value. High-leverage rows "
         "decide the slopes almost alone: if such a row is also off the line (a wrong reading, a different kind of "
         "site) it drags the whole fit; if it lies on the line it only makes the slopes look more precise than the "
@@ -414,9 +503,15 @@ RULES = [
         "should cover that range, or fit with and without them and compare",
         check=_leverage,
         thresholds=(
-            Threshold("note", 2, LEVERAGE_SOURCE + ": h_ii > 2p/n", Grade.NOTE, ">"),
-            Threshold("weakens", 3, LEVERAGE_SOURCE + ": h_ii > 3p/n", Grade.WEAKENS, ">"),
-            CHANCE,
+            Threshold("note", 3, LEVERAGE_SOURCE + ": h_ii > 3p/n (a description of the design: no chance model)", Grade.NOTE, ">"),
+            Threshold(
+                "weakens",
+                0.05,
+                "a high-leverage row graded weakens only when it also lies off the line: Bonferroni-adjusted outlier test "
+                "over the high-leverage rows (Cook & Weisberg 1982, sec. 2.2.3)",
+                Grade.WEAKENS,
+                "<",
+            ),
         ),
         needs=frozenset({"rows", "fit"}),
     ),
@@ -457,7 +552,14 @@ RULES = [
         "without the rows",
         check=_dfbetas,
         thresholds=(
-            Threshold("misleads", 1, BKW_SOURCE + ": |DFBETAS| > 1", Grade.MISLEADS, ">"),
+            Threshold(
+                "misleads",
+                1,
+                BKW_SOURCE + ": |DFBETAS| > 1; misleads only when such rows are more, or more extreme, than a clean table "
+                "of this design gives (chance level), weakens otherwise",
+                Grade.MISLEADS,
+                ">",
+            ),
             Threshold("weakens", 2, BKW_SOURCE + ": |DFBETAS| > 2/sqrt(n) (value is the numerator)", Grade.WEAKENS, ">"),
             CHANCE,
         ),

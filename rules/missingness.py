@@ -332,12 +332,13 @@ def _mcar(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     hole_counts = holes.counts()
     arrays: dict[str, np.ndarray] = {}
     present: dict[str, int] = {}
+    largest: dict[str, float] = {}
     extra_holes = False
     for column in candidates:
-        values, count, spread = _usable_values(ctx.values(column), ctx.table.num_rows - hole_counts[column])
+        values, count, low, high = _usable_values(ctx.values(column), ctx.table.num_rows - hole_counts[column])
         extra_holes |= count < ctx.table.num_rows - hole_counts[column]
-        if spread > 0:
-            arrays[column], present[column] = values, count
+        if count > 1 and high > low:
+            arrays[column], present[column], largest[column] = values, count, max(abs(low), abs(high))
     usable = tuple(arrays)
     holes_by_column = {c: ctx.table.num_rows - present[c] for c in usable}
     columns = bounded_columns(usable, holes_by_column, ctx.roles.target, int(settings.limit("columns")))
@@ -348,7 +349,9 @@ def _mcar(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         masks, row_group, _ = pattern_index(np.column_stack([np.isnan(arrays[c]) for c in columns]))
     else:
         row_group, masks = holes.row_pattern, holes.pattern_masks[:, [holes.columns.index(c) for c in columns]]
-    moments = PatternMoments.grouped(columns, [arrays[c] for c in columns], row_group, masks).standardized()
+    # Little's statistic is invariant to rescaling a column; at most 1 in magnitude, no sum of squares overflows.
+    scales = np.array([largest[c] for c in columns])
+    moments = PatternMoments.grouped(columns, [arrays[c] for c in columns], row_group, masks, scales).standardized()
     with one_blas_thread():
         test = little_mcar(moments)
     if test is None:
@@ -384,20 +387,20 @@ def _mcar(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     )
 
 
-def _usable_values(values: np.ndarray, present: int) -> tuple[np.ndarray, int, float]:
-    """A numeric column with NaN also where it is infinite or too large to square, its count of values and their range.
+def _usable_values(values: np.ndarray, present: int) -> tuple[np.ndarray, int, float, float]:
+    """A numeric column with NaN also where it is infinite or too large to square, its count of values, their least and largest.
 
     ``present`` counts the values that are not NaN; the column is copied only
-    when it holds an infinite or oversized value.
+    when it holds an infinite or oversized value. Without values the bounds are 0.
     """
     if present > 0:
         low, high = float(np.fmin.reduce(values)), float(np.fmax.reduce(values))
         if -SQUARE_SAFE <= low and high <= SQUARE_SAFE:
-            return values, present, high - low if present > 1 else 0.0
+            return values, present, low, high
     usable = np.isfinite(values) & (np.abs(values) <= SQUARE_SAFE)
     count = int(np.count_nonzero(usable))
     kept = np.where(usable, values, np.nan)
-    return kept, count, float(np.nanmax(kept) - np.nanmin(kept)) if count > 1 else 0.0
+    return kept, count, float(np.nanmin(kept)) if count else 0.0, float(np.nanmax(kept)) if count else 0.0
 
 
 # ---------------------------------------------------------------- informative

@@ -15,6 +15,8 @@ from pathlib import Path
 from typing import Any
 
 import pytest
+from hypothesis import HealthCheck, settings
+from hypothesis.database import DirectoryBasedExampleDatabase
 
 from prefit.cli import main
 from prefit.registry import Registry, discover
@@ -22,6 +24,28 @@ from prefit.registry import Registry, discover
 ROOT = Path(__file__).resolve().parent.parent
 SAMPLE_TABLES = ROOT / "sample_tables"
 REFERENCE = Path(__file__).resolve().parent / "reference"
+
+# Property tests: derandomised with a fixed number of examples by default (CI), so that a run cannot fail at random;
+# PREFIT_EXPLORE=1 selects a randomised profile with many more examples (2,000 per test; PREFIT_EXPLORE=N sets N),
+# for exploration (see DEVELOPERS.md).
+_SLOW_FIXTURES = [HealthCheck.function_scoped_fixture, HealthCheck.too_slow, HealthCheck.data_too_large]
+settings.register_profile("ci", derandomize=True, database=None, max_examples=60, deadline=None, suppress_health_check=_SLOW_FIXTURES)
+_EXPLORE = os.environ.get("PREFIT_EXPLORE", "")
+EXPLORING = _EXPLORE not in ("", "0")
+settings.register_profile(
+    "explore",
+    derandomize=False,
+    database=DirectoryBasedExampleDatabase(ROOT / ".hypothesis" / "examples"),
+    max_examples=int(_EXPLORE) if _EXPLORE.isdigit() and int(_EXPLORE) > 1 else 2000,
+    deadline=None,
+    suppress_health_check=_SLOW_FIXTURES,
+)
+settings.load_profile("explore" if EXPLORING else "ci")
+
+
+def examples(in_ci: int) -> int:
+    """How many examples a property test draws: ``in_ci`` in CI, the exploration profile's count when exploring."""
+    return settings.get_profile("explore").max_examples if EXPLORING else in_ci
 
 
 @dataclass

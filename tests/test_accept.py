@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import shutil
+from dataclasses import replace
 from pathlib import Path
 from typing import Iterator
 
@@ -11,12 +12,12 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pytest
-from conftest import SAMPLE_TABLES, run_cli
-from hypothesis import HealthCheck, given, settings
+from conftest import SAMPLE_TABLES, examples, run_cli
+from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import prefit
-from prefit.accepted import DEFAULT_REASON, AcceptedSet, load_accepted
+from prefit.accepted import DEFAULT_REASON, AcceptedSet, fingerprints, load_accepted
 from prefit.api import run_check
 from prefit.context import RunContext
 from prefit.findings import Finding, Grade
@@ -75,7 +76,7 @@ def keys(frame: pd.DataFrame) -> dict[str, object]:
 
 
 @pytest.mark.parametrize("with_id", [False, True])
-@settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@settings(max_examples=examples(15))
 @given(order=st.permutations(range(ROWS)), columns=st.permutations(range(4)))
 def test_fingerprints_survive_reordering_of_rows_and_columns(with_id: bool, order: list[int], columns: list[int]) -> None:
     frame = invented(with_id)
@@ -105,10 +106,6 @@ def test_a_stronger_grade_makes_the_fingerprint_new() -> None:
     report = demo_report(invented(False))
     finding = report.findings[0]
     stronger = demo_report(invented(False))
-    from dataclasses import replace
-
-    from prefit.accepted import fingerprints
-
     raised = replace(finding, grade=Grade.BLOCKS)
     assert fingerprints([raised], stronger.context)[0] != fingerprints([finding], stronger.context)[0]
 
@@ -215,6 +212,38 @@ def test_accept_flags_need_each_other_or_an_existing_file(tmp_path: Path) -> Non
     assert alone.code == 2 and "--accept-file" in alone.err
     missing = run_cli("check", table, "--target", "energy_kwh", "--accept-file", tmp_path / "none.json")
     assert missing.code == 2 and "--accept-current" in missing.err
+
+
+@pytest.mark.parametrize(
+    "content, problem",
+    [
+        ('{"prefit_accepted": 1, "findings": [{"rule": "caf\xe9"}]}'.encode("latin-1"), "is not UTF-8 text"),
+        (b"[" * 200_000, "nests too deeply"),
+        (b'{"prefit_accepted": ' + b"9" * 5000 + b"}", "holds a number too long to read"),
+        (b'{"prefit_accepted": true, "findings": []}', "is not a prefit accepted-findings file"),
+        (b'{"prefit_accepted": 1.0, "findings": []}', "is not a prefit accepted-findings file"),
+        (b'{"schema": 1, "findings": []}', "is not a prefit accepted-findings file"),
+        (b'{"prefit_accepted": 1, "findings": [{"rule": "x.y", "grade": "note", "reason": "r", "rows": [1, 2]}]}', "must be a digest text or null"),
+    ],
+)
+def test_a_hostile_or_foreign_accepted_findings_file_is_one_line_usage_error(tmp_path: Path, content: bytes, problem: str) -> None:
+    accept = tmp_path / "accepted.json"
+    accept.write_bytes(content)
+    table = tmp_path / "t.csv"
+    invented(False).to_csv(table, index=False)
+    run = run_cli("check", table, "--target", "energy_kwh", "--accept-file", accept)
+    assert run.code == 2 and problem in run.err and run.err.count("\n") == 1, run.err
+
+
+def test_a_weaker_grade_of_an_accepted_finding_is_not_new() -> None:
+    report = demo_report(invented(True))
+    stronger = [replace(f, grade=Grade.BLOCKS) for f in report.findings]
+    accepted = AcceptedSet.from_findings(stronger, fingerprints(stronger, report.context))
+    after = report.accepting(accepted)
+    assert after.findings == () and len(after.accepted) == len(report.findings)
+    weaker = [replace(f, grade=Grade.NOTE) for f in report.findings]
+    only_notes = AcceptedSet.from_findings(weaker, fingerprints(weaker, report.context))
+    assert report.accepting(only_notes).findings == report.findings
 
 
 def test_an_edit_to_a_row_no_finding_names_keeps_every_finding_accepted(tmp_path: Path) -> None:

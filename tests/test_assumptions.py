@@ -169,6 +169,62 @@ def test_order_names_an_unknown_column(cli: Any) -> None:
     assert "--order" in run.err and "day" in run.err
 
 
+@pytest.mark.parametrize(
+    ("values", "shown"),
+    [(["screw", "scroll", "CO2 transcritical"], "'screw'"), (["1969-01-01", "1969-02-01", "1969-02-30"], "'1969-02-30' is not a valid date")],
+    ids=["text", "invalid-date"],
+)
+def test_order_naming_a_column_that_cannot_order_rows_is_a_usage_error(
+    cli: Any, tmp_path: Any, seatbelts: pd.DataFrame, values: list[str], shown: str
+) -> None:
+    frame = seatbelts[["DriversKilled", "kms", "PetrolPrice"]].assign(when=[values[i % 3] for i in range(len(seatbelts))])
+    path = tmp_path / "ordered.csv"
+    frame.to_csv(path, index=False)
+    run = cli("check", path, "--target", "DriversKilled", "--order", "when")
+    assert run.code == 2 and run.out == "" and len(run.err.strip().splitlines()) == 1
+    assert "--order 'when'" in run.err and shown in run.err
+
+
+def test_a_duration_column_orders_the_rows(tmp_path: Any, seatbelts: pd.DataFrame) -> None:
+    months = seatbelts[["DriversKilled", "kms", "PetrolPrice", "law"]].assign(
+        elapsed=pd.to_timedelta(np.arange(len(seatbelts)) * 30, unit="D")
+    )
+    path = tmp_path / "elapsed.parquet"
+    months.sample(frac=1.0, random_state=3).to_parquet(path, index=False)
+    report = check(str(path), target="DriversKilled", predictors=["kms", "PetrolPrice", "law"], order="elapsed")
+    found = [f for f in report.findings if f.rule == "assumptions.autocorrelation"]
+    assert [f.columns for f in found] == [("elapsed",)]
+    reference = sm.OLS(months["DriversKilled"], sm.add_constant(months[["kms", "PetrolPrice", "law"]])).fit()
+    # source: statsmodels durbin_watson on the rows in elapsed-time order
+    assert_allclose(found[0].details["durbin_watson"], durbin_watson(reference.resid), rtol=1e-9)
+
+
+def test_durations_and_times_of_day_are_read_in_days() -> None:
+    import datetime
+
+    import pyarrow as pa
+
+    from prefit.roles import numeric_values
+
+    elapsed = pa.chunked_array([pa.array([datetime.timedelta(hours=36), None], pa.duration("ms"))])
+    clock = pa.chunked_array([pa.array([datetime.time(18, 0), None], pa.time32("s"))])
+    # source: pandas Timedelta.total_seconds() / 86400
+    assert_allclose(numeric_values(elapsed), [pd.Timedelta(hours=36).total_seconds() / 86_400, np.nan])
+    assert_allclose(numeric_values(clock), [pd.Timedelta(hours=18).total_seconds() / 86_400, np.nan])
+
+
+def test_spread_tests_are_unchanged_by_residuals_too_large_to_square(wages: pd.DataFrame) -> None:
+    ctx = context_for(wages, "wage")
+    residual = ctx.row_scores.residual
+    # source: statsmodels het_breuschpagan on the ordinary residuals; LM = n R^2 does not change when e is scaled
+    reference = het_breuschpagan(reference_fit(ctx).resid, ctx.design.X, robust=True)
+    huge = residual_tests.breusch_pagan(ctx.factor, ctx.design.X, residual * 1e160, intercept=True)
+    assert_allclose([huge.statistic, huge.p_value], reference[:2], rtol=RTOL)
+    spreads = auxiliary.r_squared_on_each(ctx.design.X * 1e200, residual_tests.scaled_squares(residual * 1e160), [[1], [2]])
+    plain = auxiliary.r_squared_on_each(ctx.design.X, residual**2, [[1], [2]])
+    assert_allclose(spreads, plain, rtol=1e-9)
+
+
 def test_order_is_a_config_key() -> None:
     assert options_from(target="y", order="day").order == "day"
 

@@ -150,3 +150,75 @@ def test_a_repeating_id_column_is_reported_as_not_unique(tmp_path: Path) -> None
     frame.assign(row=range(len(frame))).to_csv(unique, index=False)
     labelled = run_cli("check", unique, "--target", "energy_kwh", "--id", "row", "--exclude", "day,site_id")
     assert "not unique" not in labelled.out
+
+
+OK_TABLE = "y,x,z\n1,2,3\n3,5,1\n4,4,2\n5,7,1\n6,5,3\n7,9,9\n"
+
+
+def _prefit(*args: str, **kwargs: object) -> subprocess.CompletedProcess[bytes]:
+    """The real console entry point in a child process (its own stdout, stderr and exit code)."""
+    return subprocess.run([sys.executable, "-c", "from prefit.cli import run; run()", *args], capture_output=True, timeout=300, **kwargs)  # type: ignore[call-overload]
+
+
+def test_no_command_prints_one_usage_line_and_exits_2() -> None:
+    run = run_cli()
+    assert run.code == 2 and run.err.count("\n") == 1 and "prefit check TABLE --target COLUMN" in run.err
+
+
+def test_debug_on_a_usage_error_shows_the_traceback_then_the_line_and_keeps_exit_2(tmp_path: Path) -> None:
+    table = tmp_path / "t.csv"
+    table.write_text(OK_TABLE)
+    for args in (("--debug", "check", str(table)), ("check", "--debug", str(table))):
+        done = _prefit(*args)
+        err = done.stderr.decode()
+        assert done.returncode == 2, err
+        assert "Traceback" in err and err.rstrip().splitlines()[-1].startswith("prefit: --target: is required")
+
+
+def test_an_internal_failure_is_exit_3_with_one_line(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    import prefit.api
+
+    def broken(*args: object, **kwargs: object) -> None:
+        raise KeyError("lost")
+
+    monkeypatch.setattr(prefit.api, "check_file", broken)
+    table = tmp_path / "t.csv"
+    table.write_text(OK_TABLE)
+    run = run_cli("check", table, "--target", "y")
+    assert run.code == 3 and run.err.count("\n") == 1 and "internal error (KeyError: 'lost')" in run.err
+
+
+def test_memory_exhaustion_is_exit_2_naming_the_stream_engine(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    import prefit.api
+
+    def exhausted(*args: object, **kwargs: object) -> None:
+        raise MemoryError
+
+    monkeypatch.setattr(prefit.api, "run_check", exhausted)
+    table = tmp_path / "t.csv"
+    table.write_text(OK_TABLE)
+    run = run_cli("check", table, "--target", "y")
+    assert run.code == 2 and run.err.count("\n") == 1 and "--engine stream" in run.err
+
+
+def test_closed_full_or_early_closed_stdout_ends_without_a_traceback(tmp_path: Path) -> None:
+    table = tmp_path / "t.csv"
+    table.write_text(OK_TABLE)
+    closed = _prefit("check", str(table), "--target", "y", stdout=None, stdin=subprocess.DEVNULL, close_fds=True, preexec_fn=lambda: __import__("os").close(1))
+    assert closed.returncode == 2 and b"stdout: is closed" in closed.stderr and b"Traceback" not in closed.stderr
+    with open("/dev/full", "wb") as full:
+        done = subprocess.run([sys.executable, "-c", "from prefit.cli import run; run()", "check", str(table), "--target", "y"], stdout=full, stderr=subprocess.PIPE, timeout=300)
+    assert done.returncode == 2 and b"No space left" in done.stderr and done.stderr.count(b"\n") == 1
+    piped = subprocess.run(
+        f"{sys.executable} -c 'from prefit.cli import run; run()' check {table} --target y --explain | head -1", shell=True, capture_output=True, timeout=300
+    )
+    assert piped.stdout.decode().startswith("prefit ") and piped.stderr == b""
+
+
+def test_a_successful_run_with_plots_keeps_stderr_empty(tmp_path: Path) -> None:
+    columns = {f"a_rather_long_column_name_{i:03d}": np.arange(30.0) * (i + 1) % 7 for i in range(40)}
+    frame = pd.DataFrame(columns)
+    frame["y"] = np.arange(30.0)
+    frame.to_csv(tmp_path / "wide.csv", index=False)
+    done = _prefit("check", str(tmp_path / "wide.csv"), "--target", "y", "--format", "html", "--output", str(tmp_path / "r.html"))
+    assert done.returncode in (0, 1) and done.stderr == b""

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+from fractions import Fraction
 from itertools import combinations
 
 import numpy as np
@@ -268,3 +270,115 @@ def test_a_relation_whose_weights_overflowed_is_left_unwritten() -> None:
     assert _balanced(Relation(0, (1,), (0.0,), 0.0), type("Zero", (), {"scales": np.array([0.0, 1.0])})()) is None  # type: ignore[arg-type]
     # hand arithmetic: a = 2 b, so a's column norm is twice b's; equal weights, the first column goes left
     assert _balanced(Relation(0, (1,), (2.0,), 0.0), type("Norms", (), {"scales": np.array([2.0, 1.0])})()) == (0, [(1, 2.0)])  # type: ignore[arg-type]
+
+
+def _hard_table() -> pd.DataFrame:
+    """Two copies of a column whose one value of 1.9e12 dwarfs the rest, beside a 0/1 column and a category."""
+    column = [1.0, 1.903164e12, None, 0.0, 0.0, 0.0, 0.0]
+    return pd.DataFrame(
+        {
+            "00": column,
+            "000": column,
+            "0": [0, 0, 0, 0, 1, 0, 0],
+            "kind": ["scroll", "CO2 transcritical", "screw", "screw", "CO2 transcritical", "screw", "scroll"],
+        }
+    )
+
+
+def _exact_determinant(matrix: list[list[Fraction]]) -> Fraction:
+    """Determinant by Gaussian elimination in exact rational arithmetic."""
+    a = [row[:] for row in matrix]
+    det = Fraction(1)
+    for k in range(len(a)):
+        pivot = next((i for i in range(k, len(a)) if a[i][k] != 0), None)
+        if pivot is None:
+            return Fraction(0)
+        if pivot != k:
+            a[k], a[pivot] = a[pivot], a[k]
+            det = -det
+        det *= a[k][k]
+        for i in range(k + 1, len(a)):
+            factor = a[i][k] / a[k][k]
+            a[i] = [x - factor * y for x, y in zip(a[i], a[k])]
+    return det
+
+
+def _exact_gvif(X: np.ndarray, inside: list[int], dropped: tuple[int, ...] = ()) -> float:
+    """Fox & Monette's GVIF ``det(S_JJ) det(S_-J) / det(S)`` on the centred cross-products, in exact arithmetic.
+
+    The GVIF does not change when columns are rescaled, so the centred
+    cross-product matrix S stands in for the correlation matrix; every float
+    is a rational number, so nothing is rounded.
+    """
+    keep = [j for j in range(X.shape[1]) if j not in dropped]
+    rows = [[Fraction(float(v)) for v in row] for row in X[:, keep]]
+    n = len(rows)
+    means = [sum(row[j] for row in rows) / n for j in range(len(keep))]
+    centred = [[row[j] - means[j] for j in range(len(keep))] for row in rows]
+    S = [[sum(r[a] * r[b] for r in centred) for b in range(len(keep))] for a in range(len(keep))]
+    J = [keep.index(j) for j in inside]
+    rest = [j for j in range(len(keep)) if j not in J]
+
+    def sub(index: list[int]) -> list[list[Fraction]]:
+        return [[S[a][b] for b in index] for a in index]
+
+    return float(_exact_determinant(sub(J)) * _exact_determinant(sub(rest)) / _exact_determinant(S))
+
+
+def test_inflation_of_a_badly_scaled_design_matches_exact_arithmetic() -> None:
+    ctx = context_for(_hard_table(), target="00")
+    diagnostics = ctx.collinearity
+    X = ctx.design.X[:, list(diagnostics.predictors)]
+    names = diagnostics.predictor_names()
+    by_term = {term.term: term for term in diagnostics.terms}
+    # source: exact rational arithmetic (Python fractions) of Fox & Monette (1992)'s determinant formula
+    for term in diagnostics.terms:
+        assert_allclose(term.gvif, _exact_gvif(X, list(term.indices)), rtol=1e-2)
+        assert term.vif_scale >= 1.0 and np.isfinite(term.vif_scale)
+    kind = by_term["kind"]
+    for other, without in diagnostics.relief(by_term["000"]):
+        dropped = by_term[other].indices
+        assert_allclose(without, _exact_gvif(X, [names.index("000")], dropped), rtol=1e-2)
+    for other, without in diagnostics.relief(kind):
+        assert_allclose(without, _exact_gvif(X, list(kind.indices), by_term[other].indices) ** 0.5, rtol=1e-2)
+    assert diagnostics.reliable
+
+
+def test_a_badly_scaled_design_gives_collinearity_findings_not_rule_errors() -> None:
+    report = check(_hard_table(), target="00")
+    rules = [f.rule for f in report.findings]
+    assert "engine.rule-error" not in rules
+    outcomes = {o.rule: o for o in report.outcomes}
+    for rule in ("collinearity.vif", "collinearity.condition"):
+        # seven rows for three predictors: either a finding, or the rule stands aside because chance alone
+        # would cross its limit at this size; never an error
+        assert rule in rules or "chance" in (outcomes[rule].not_applicable or ""), outcomes[rule]
+    for finding in _findings(report, "collinearity.vif"):
+        assert finding.details["reliable"] is True and finding.value >= 1.0
+
+
+def test_inflation_beyond_double_precision_says_so() -> None:
+    from prefit.registry import discover
+    from prefit.rule import RuleSettings
+
+    frame = _longley()
+    ctx = context_for(frame, target="Employed")
+    assert ctx.collinearity.reliable
+    # a centring that magnified round-off 1e15 times: the bound passes 0.1 and the findings must say so
+    ctx.__dict__["collinearity"] = replace(ctx.collinearity, centring_loss=1e15)
+    assert not ctx.collinearity.reliable and ctx.collinearity.relative_error >= 0.1
+    rule = discover().get("collinearity.vif")
+    findings = list(rule.check(ctx, RuleSettings.defaults(rule)))
+    assert findings and all(f.details["reliable"] is False and "beyond what double precision resolves" in f.message for f in findings)
+
+
+def test_semidefinite_helpers_neither_raise_nor_go_negative_on_a_singular_matrix() -> None:
+    from prefit.stats.collinearity import _determinant, _solve_semidefinite
+
+    rank_one = np.outer([9.6e24, 9.6e24], [1.0, 1.0])
+    b = np.array([[1.0], [3.0]])
+    # source: numpy.linalg.pinv (SVD pseudo-inverse) as the reference solution of a singular system
+    assert_allclose(_solve_semidefinite(rank_one, b), np.linalg.pinv(rank_one) @ b, rtol=1e-12)
+    assert _determinant(rank_one) >= 0.0
+    assert np.linalg.det(rank_one + np.diag([0.0, -1e9])) < 0  # the round-off a plain determinant can show
+    assert _determinant(rank_one + np.diag([0.0, -1e9])) == 0.0

@@ -6,6 +6,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import pytest
 from conftest import run_cli
 
 
@@ -113,3 +114,31 @@ def test_the_readme_configuration_example_is_valid(tmp_path: Path) -> None:
     report = run.json()
     assert report["target"] == "energy_kwh" and "design.possible-code" not in report["rules_run"]
     assert report["design"]["missing_codes_applied"]["humidity_pct"] > 0
+
+
+@pytest.mark.parametrize(
+    "body, problem",
+    [
+        ('[rule."collinearity.vif"]\nthresholds = {misleads = nan}\n', "thresholds.misleads: must be a finite number, got nan"),
+        ('[rule."collinearity.vif"]\nthresholds = {misleads = inf}\n', "thresholds.misleads: must be a finite number, got inf"),
+        ('[rule."collinearity.vif"]\nthresholds = {misleads = -3}\n', "threshold 'misleads': must be positive like its default 10"),
+        ('[rule."collinearity.vif"]\nthresholds = {misleads = 0}\n', "threshold 'misleads': must be positive like its default 10"),
+        ("target = \n", "is not valid TOML"),
+        ('targt = "y"\n', "key 'targt': is not a prefit setting"),
+    ],
+)
+def test_a_threshold_off_its_meaningful_side_or_a_broken_file_names_the_key(tmp_path: Path, body: str, problem: str) -> None:
+    (tmp_path / "prefit.toml").write_text(body)
+    table = tmp_path / "t.csv"
+    table.write_text("y,x,z\n1,2,3\n3,5,1\n4,4,2\n5,7,1\n6,5,3\n7,9,9\n")
+    run = run_cli("check", table, "--target", "y")
+    assert run.code == 2 and problem in run.err and run.err.count("\n") == 1, run.err
+
+
+def test_a_binary_config_file_is_one_line_usage_error(tmp_path: Path) -> None:
+    config = tmp_path / "binary.toml"
+    config.write_bytes(bytes(range(256)) * 4)
+    table = tmp_path / "t.csv"
+    table.write_text("y,x\n1,2\n2,3\n3,5\n")
+    run = run_cli("check", table, "--target", "y", "--config", config)
+    assert run.code == 2 and "is not UTF-8 text" in run.err and run.err.count("\n") == 1

@@ -20,7 +20,7 @@ from typing import Any, Iterator
 import pytest
 from conftest import ROOT
 from sample_reports import NAMES, sample_html, sample_report
-from test_reports import HOSTILE, plugin_report
+from test_reports import HOSTILE, hostile_report, plugin_report
 
 CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
 pytestmark = pytest.mark.skipif(
@@ -211,3 +211,11 @@ def test_hostile_names_render_as_text_in_the_browser(browser: DevTools) -> None:
     assert HOSTILE in facts["text"]
     assert "invented <warehouse>.csv" in facts["text"]
     assert {"t1-influence", "t1-missingness", "t1-collinearity", "t1-ranges"} <= {f["id"] for f in facts["figures"]}
+
+
+def test_a_table_of_hostile_names_and_cells_runs_no_script_and_loads_nothing(browser: DevTools) -> None:
+    facts = load(browser, hostile_report().to_html(), "hostile-cells")
+    assert facts["errors"] == [] and facts["requests"] == [] and facts["scripts"] == 0
+    assert "<script>alert(1)</script>" in facts["text"]  # shown as text, never parsed as an element
+    assert "line\\nbreak" in facts["text"] and "(5,000,000 characters)" in facts["text"]
+    assert "\x1b" not in facts["text"] and "\u202e" not in facts["text"]

@@ -234,6 +234,34 @@ def test_scale_disparity_after_a_unit_change(tmp_path: Path) -> None:
     assert finding["columns"] == ["wt", "am"]
 
 
+@pytest.mark.parametrize("tiny", [5e-324, 1e-308, 1e-300])
+def test_scale_disparity_with_the_smallest_doubles(tmp_path: Path, tiny: float) -> None:
+    mtcars = _mtcars()
+    frame = mtcars[["mpg", "hp"]].assign(gap=[tiny if i % 3 else 0.0 for i in range(len(mtcars))])
+    report = _report(tmp_path, frame, "--target", "mpg")
+    assert not _findings(report, "engine.rule-error")
+    finding = _findings(report, "hygiene.scale-disparity")[0]
+    # reference: numpy medians of absolute non-zero values (a subnormal median stays itself)
+    assert finding["details"]["magnitudes"] == {"gap": np.median(np.abs(frame["gap"][frame["gap"] != 0])), "hp": np.median(frame["hp"])}
+    with np.errstate(over="ignore"):
+        ratio = np.median(frame["hp"]) / tiny
+    if np.isfinite(ratio):
+        assert_allclose(finding["value"], ratio, rtol=1e-12)
+    else:
+        assert finding["value"] is None and "beyond the largest double" in finding["message"]
+
+
+def test_median_keeps_a_middle_pair_near_the_largest_double_finite() -> None:
+    from prefit.stats.robust import median
+
+    rng = np.random.default_rng(5)
+    ordinary = rng.normal(size=12)
+    # reference: numpy.median (the mean of the two middle values) where it does not overflow
+    assert median(ordinary.copy()) == np.median(ordinary)
+    assert median(np.array([1.7e308, 1.6e308, -1.0, 1.75e308])) == 1.7e308 / 2 + 1.6e308 / 2
+    assert median(np.array([5e-324, 5e-324, 0.0, 1.0])) == np.median([5e-324, 5e-324, 0.0, 1.0])
+
+
 # ---------------------------------------------------------------- target-leak
 
 

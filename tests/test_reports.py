@@ -9,6 +9,7 @@ the standard library's XML and HTML parsers, and ``markdown-it-py``.
 from __future__ import annotations
 
 import csv
+import functools
 import io
 import json
 import xml.etree.ElementTree as ET
@@ -515,6 +516,77 @@ def test_a_label_shared_by_several_rows_is_shown_once_with_its_count() -> None:
     assert row_groups(shared, 1) == (["CS-002 (3 rows)"], 6)
     unique = Finding(rule="demo.rows", grade=Grade.NOTE, message="m", rows=(4, 9, 1), row_count=3)
     assert row_groups(unique, 2) == (["4", "9"], 1)
+
+
+# Hostile text in names and cells, in every format
+
+HOSTILE_TEXTS = (
+    "<script>alert(1)</script>",
+    "end]]>cdata",
+    "\x1b[2J\x1b[H READY at gate misleads: 0 blocks \x1b[8m",
+    "bell\x07ring",
+    "right\u202eto-left",
+    "isolate\u2066x\u2069",
+    "c1\x85next",
+    "pipe | and `tick`",
+    "line\nbreak",
+    "tab\there",
+    "quote\"and'apostrophe",
+    "L" * 5000,
+)
+BIG_CELL = 5_000_000
+# Control, bidirectional and separator characters no report may carry raw; line feeds and tabs are layout in some formats.
+RAW_CONTROL = "[\x00-\x08\x0b-\x1f\x7f-\x9f\u061c\u200e\u200f\u2028\u2029\u202a-\u202e\u2066-\u2069]"
+
+
+@functools.lru_cache(maxsize=1)
+def hostile_report() -> prefit.Report:
+    """A table whose column names, id cells and category levels hold every hostile text, and one 5 MB id cell."""
+    import pyarrow as pa
+
+    rng = np.random.default_rng(14)
+    n = 36
+    columns: dict[str, Any] = {"energy_kwh": rng.normal(100, 10, n)}
+    for i, name in enumerate(HOSTILE_TEXTS):
+        values = rng.normal(0, 1, n)
+        values[i] = 40.0  # an outlier per column, so that findings name the columns and rows
+        columns[name] = values
+    labels = [HOSTILE_TEXTS[i % len(HOSTILE_TEXTS)] + f" #{i}" for i in range(n)]
+    labels[0] = "C" * BIG_CELL
+    columns["site\x1b]0;title\x07"] = labels
+    columns["kind\u202e"] = [HOSTILE_TEXTS[i % 3] for i in range(n)]
+    table = pa.table(columns)
+    info = TableInfo(path="hostile\x1b[31m|`<b>`.csv", format="csv", rows=n, columns=table.num_columns, sha256=None)
+    return run_check(table, info, CheckOptions(target="energy_kwh", id="site\x1b]0;title\x07"))
+
+
+@pytest.mark.parametrize("fmt", ["text", "json", "sarif", "junit", "markdown", "html"])
+def test_hostile_names_and_cells_are_inert_in_every_format(fmt: str) -> None:
+    import re
+
+    report = hostile_report()
+    assert report.findings and any(f.rows for f in report.findings)
+    text = report.render(fmt, colour=False)
+    assert not re.search(RAW_CONTROL, text), repr(re.search(RAW_CONTROL, text))
+    assert len(text) < BIG_CELL // 5 and "C" * 200 not in text and "L" * 200 not in text
+    assert "(5,000,000 characters)" in text or fmt == "junit" and report.findings[0].rows == ()
+    if fmt in ("json", "sarif"):
+        document = json.loads(text)
+        if fmt == "sarif":
+            assert sarif_errors(document) == []
+        else:
+            assert "line\nbreak" in document["design"]["kinds"]  # JSON escapes by its own syntax: the name reads back whole
+    if fmt == "junit":
+        ET.fromstring(text.encode("utf-8"))  # well-formed XML, ]]> and all
+    if fmt == "html":
+        assert "<script" not in text.lower().replace("&lt;script", "")
+    if fmt == "markdown":
+        rows = markdown_tables(text)[1][1:]
+        assert len(rows) == len(report.findings) and all(len(cells) == 4 for cells in rows)
+        assert "<script>" not in MarkdownIt("commonmark").enable("table").render(text)
+    if fmt in ("text", "markdown", "html"):
+        shown = MarkdownIt("commonmark").enable("table").render(text) if fmt == "markdown" else text
+        assert "line\\nbreak" in shown and "\\x1b[2J" in shown and "right\\u202eto-left" in shown
 
 
 @pytest.mark.parametrize("purpose", ["explain", "predict"])

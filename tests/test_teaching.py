@@ -23,6 +23,7 @@ from prefit.teaching.assumptions import (
 from prefit.teaching.base import fit_line
 from prefit.teaching.collinearity import area_and_racks, lost_digits, parts_and_total
 from prefit.teaching.design import codes_as_numbers, date_as_a_number
+from prefit.teaching.drift import changed_defrost_schedule, dropped_column, fahrenheit_export, hotter_month, new_compressor_type
 from prefit.teaching.grouping import (
     few_sites,
     noise_site_facts,
@@ -56,7 +57,7 @@ from prefit.teaching.ranges import heat_wave_beyond_the_data, mostly_one_value, 
 from prefit.teaching.sample_size import small_extract, too_few_to_see
 from prefit.teaching.target import flat_meter, skewed_energy, unread_days, yes_no_target
 
-BUILT_IN_FAMILIES = ("assumptions", "collinearity", "design", "grouping", "hygiene", "influence", "missingness", "outliers", "range", "sample-size", "target")
+BUILT_IN_FAMILIES = ("assumptions", "collinearity", "design", "drift", "grouping", "hygiene", "influence", "missingness", "outliers", "range", "sample-size", "target")
 ALL_DEMONSTRATIONS: list[Callable[[], Demonstration]] = [
     area_and_racks, mega_site, tenfold_reading, dropout_codes, duplicated_days, narrow_setpoint, small_extract,
     skewed_energy, codes_as_numbers, uneven_spread, heat_bend, skewed_errors, autocorrelated_days,
@@ -64,7 +65,8 @@ ALL_DEMONSTRATIONS: list[Callable[[], Demonstration]] = [
     date_as_a_number, kwh_as_text, levels_eat_rows, one_infinite_reading, one_setpoint, site_number_as_predictor,
     two_row_level, watt_hours_beside_degrees, own_prediction_pull, one_column_with_holes, sites_that_stop_reporting,
     unusual_combination, heat_wave_beyond_the_data, mostly_one_value, too_few_to_see, flat_meter, unread_days,
-    yes_no_target, shared_site_effect, noise_site_facts, few_sites, warm_sites_cold_days, one_large_site, one_site_decides,
+    yes_no_target, fahrenheit_export, new_compressor_type, hotter_month, changed_defrost_schedule, dropped_column,
+    shared_site_effect, noise_site_facts, few_sites, warm_sites_cold_days, one_large_site, one_site_decides,
 ]
 
 
@@ -118,6 +120,19 @@ def test_collinearity_demonstration_flips_signs_until_fixed() -> None:
     assert shown["bootstrap_sd"] > 5 * shown["bootstrap_sd_fixed"]
     # reference: the bootstrap SD of a least-squares slope estimates its standard error (Efron & Tibshirani 1993, from memory)
     assert_allclose([shown["bootstrap_sd"], shown["bootstrap_sd_fixed"]], [shown["se"], shown["se_fixed"]], rtol=0.35)
+
+
+def test_drift_demonstration_fahrenheit_export_multiplies_the_prediction_error() -> None:
+    numbers = fahrenheit_export().numbers
+    assert numbers["rms_celsius"] < 1.2 * numbers["residual_sd"] < numbers["rms_fahrenheit"] / 3
+
+
+def test_drift_demonstrations_show_the_damage_they_claim() -> None:
+    levels, hotter, schedule, dropped = new_compressor_type().numbers, hotter_month().numbers, changed_defrost_schedule().numbers, dropped_column().numbers
+    assert levels["rms_new_type"] > 3 * levels["rms_known"]
+    assert hotter["rms_july"] > 2 * hotter["residual_sd"]
+    assert schedule["rms_july"] > 1.5 * schedule["residual_sd"] and schedule["shift_in_se"] > 10
+    assert dropped["slope_without"] > dropped["slope_with"] * 1.1
 
 
 def test_influence_demonstration_one_row_moves_the_slope() -> None:

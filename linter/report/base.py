@@ -96,6 +96,15 @@ def labels_not_unique(report: "Report") -> str | None:
     return f"not unique: {values:,} values for {report.info.rows:,} rows"
 
 
+def baseline_sentence(report: "Report") -> str | None:
+    """``vetted against the baseline base.json (sha256 ...; profile of last.csv, 1,200 rows)``, or None without one."""
+    baseline = report.baseline
+    if baseline is None:
+        return None
+    source = f"; profile of {baseline['table']}, {baseline['rows']:,} rows" if baseline["table"] != baseline["path"] else f"; {baseline['rows']:,} rows"
+    return f"vetted against the baseline {baseline['path']} (sha256 {baseline['sha256'] or 'unknown'}{source})"
+
+
 def groups_sentence(report: "Report") -> str | None:
     """``rows grouped by 'site_id' (40 groups of 90 rows; from the repeating --id)``, or None when grouping is off."""
     groups = report.design.get("groups")

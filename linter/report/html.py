@@ -13,6 +13,7 @@ from typing import TYPE_CHECKING, Any
 
 from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade, counted
 from ..rule import capped_names, fmt
+from ..text import inert_message
 from .base import ReportWriter, RunFacts, fix_first, folded, groups_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
@@ -64,8 +65,8 @@ STYLE = """
 
 
 def esc(text: Any) -> str:
-    """Text as HTML character data or attribute value: ``& < > " '`` become references."""
-    return html.escape(str(text), quote=True)
+    """Text as HTML character data or attribute value: made inert (:func:`prefit.text.inert_message`), then ``& < > " '`` as references."""
+    return html.escape(inert_message(str(text)), quote=True)
 
 
 def _verdict(report: "Report") -> tuple[str, str]:
@@ -102,6 +103,9 @@ def _facts(report: "Report") -> str:
     ]
     if report.info.sha256:
         pairs.append(("sha256", report.info.sha256))
+    if report.baseline is not None:
+        pairs.append(("baseline", str(report.baseline["path"])))
+        pairs.append(("baseline sha256", str(report.baseline["sha256"])))
     body = "".join(f"<dt>{esc(k)}</dt><dd>{esc(v)}</dd>" for k, v in pairs)
     return f'<dl class="facts">{body}</dl>'
 

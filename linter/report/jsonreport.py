@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 from typing import TYPE_CHECKING, Any
 
+from ..text import json_inert
 from .base import ReportWriter
 
 if TYPE_CHECKING:
@@ -25,4 +26,4 @@ class JsonWriter(ReportWriter):
         if len(self.tables) == 1:
             return self.tables[0].to_json()
         documents = [r.to_dict() for r in self.tables]
-        return json.dumps(documents, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+        return json_inert(json.dumps(documents, indent=2, ensure_ascii=False, allow_nan=False)) + "\n"

@@ -15,6 +15,7 @@ from typing import TYPE_CHECKING
 
 from ..engine import RULE_ERROR
 from ..findings import Finding
+from ..text import inert_message
 from .base import ReportWriter, RunFacts
 
 if TYPE_CHECKING:
@@ -24,11 +25,12 @@ _NOT_XML = re.compile("[^\u0009\u000a\u000d\u0020-\ud7ff\ue000-\ufffd\U00010000-
 
 
 def xml_text(text: str) -> str:
-    """``text`` with the characters XML 1.0 cannot carry replaced by U+FFFD."""
-    return _NOT_XML.sub("\ufffd", text)
+    """``text`` made inert (:func:`prefit.text.inert_message`), with any other character XML 1.0 cannot carry replaced by U+FFFD."""
+    return _NOT_XML.sub("\ufffd", inert_message(text))
 
 
 def _finding_text(finding: Finding) -> str:
+    finding = finding.shown()
     columns = f" [{', '.join(finding.columns)}]" if finding.columns else ""
     rows = f" rows: {', '.join(str(r) for r in finding.rows[:10])}" + (f" (+{finding.row_count - 10} more)" if finding.row_count > 10 else "") if finding.rows else ""
     remedy = f"\n  fix: {finding.remedy}" if finding.remedy else ""
@@ -62,6 +64,7 @@ class JunitWriter(ReportWriter):
             ("purpose", report.purpose),
             ("accepted", str(len(report.accepted))),
             ("fix_first", " ".join(report.fix_first)),
+            *((("baseline", str(report.baseline["path"])), ("baseline_sha256", str(report.baseline["sha256"]))) if report.baseline is not None else ()),
         ):
             ET.SubElement(properties, "property", {"name": name, "value": xml_text(value)})
         counts = {"tests": 0, "failures": 0, "errors": 0, "skipped": 0}

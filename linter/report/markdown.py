@@ -1,9 +1,10 @@
 """A compact Markdown summary for a pull-request comment: verdict, counts per grade, findings, remedies.
 
 Text from the data (column names, row labels, messages quoting values) is
-escaped so that it renders as written: the characters that start emphasis,
-code, links, strike-through or a table cell get a backslash, ``<`` and ``&``
-become entities, and line breaks become spaces. Other punctuation is only
+made inert (:mod:`prefit.text`: controls and line breaks shown escaped, long
+texts cut) and escaped so that it renders as written: the characters that
+start emphasis, code, links, strike-through or a table cell get a backslash,
+and ``<`` and ``&`` become entities. Other punctuation is only
 special at the start of a line, where data text never stands.
 """
 
@@ -14,7 +15,8 @@ from typing import TYPE_CHECKING
 
 from ..findings import GRADES_STRONGEST_FIRST, Finding, count_by_grade, counted
 from ..rule import capped_names
-from .base import ReportWriter, RunFacts, fix_first, folded, row_groups
+from ..text import inert_message
+from .base import ReportWriter, RunFacts, baseline_sentence, fix_first, folded, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -25,7 +27,7 @@ LISTED_ROWS = 5
 
 def md_text(text: str) -> str:
     """``text`` as literal Markdown inline text, safe in a table cell."""
-    flat = " ".join(str(text).split())
+    flat = inert_message(str(text))
     flat = flat.replace("&", "&amp;").replace("<", "&lt;")
     return _PUNCTUATION.sub(r"\\\1", flat)
 
@@ -69,6 +71,9 @@ class MarkdownWriter(ReportWriter):
         sampled = report.engine.sentence() if report.engine is not None else None
         if sampled is not None:
             lines.append(f"Note: {md_text(sampled)}.")
+        against = baseline_sentence(report)
+        if against is not None:
+            lines.append(f"{md_text(against[0].upper() + against[1:])}.")
         lines.append("")
         counts = count_by_grade(self.findings)
         words = [g.word for g in GRADES_STRONGEST_FIRST]

@@ -23,6 +23,7 @@ from ..design import INTERCEPT
 from ..findings import RowLabel
 from ..rule import fmt
 from ..stats.resistant import RESIDUAL_LIMIT, RowClass, classify, distance_cutoff
+from ..text import inert
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
@@ -57,8 +58,8 @@ class Plot:
 
 
 def _plain(text: object) -> str:
-    """Text drawn literally by matplotlib: dollar signs would otherwise start mathematics."""
-    return str(text).replace("\\", "\\\\").replace("$", r"\$")
+    """Text drawn literally by matplotlib: made inert (:func:`prefit.text.inert`), dollar signs escaped (they would start mathematics)."""
+    return inert(text).replace("\\", "\\\\").replace("$", r"\$")
 
 
 def _svg(figure: "Figure", key: str) -> str:
@@ -460,6 +461,14 @@ PLOTS = (influence, robust_map, missingness, collinearity, ranges)
 
 
 def draw_all(report: "Report", prefix: str = "") -> list[Plot]:
-    """Every plot that applies to the report, in page order; ``prefix`` keeps SVG ids unique on a page."""
-    drawn = (plot(report, f"{prefix}{plot.__name__}") for plot in PLOTS)
+    """Every plot that applies to the report, in page order; ``prefix`` keeps SVG ids unique on a page.
+
+    matplotlib's layout warnings (a figure too small for very many or very
+    long labels) say nothing the reader can act on and stay off stderr.
+    """
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", UserWarning)
+        drawn = [plot(report, f"{prefix}{plot.__name__}") for plot in PLOTS]
     return [p for p in drawn if p is not None]

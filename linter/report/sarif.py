@@ -23,6 +23,7 @@ from urllib.parse import quote
 from ..accepted import RowDigester
 from ..findings import Finding, Grade, json_number, plain_json
 from ..rule import default_grades
+from ..text import cut_texts, inert, inert_message, json_inert
 from .base import ReportWriter, RunFacts
 
 if TYPE_CHECKING:
@@ -114,19 +115,20 @@ class SarifWriter(ReportWriter):
             physical["region"] = {"startLine": line}
         location: dict[str, Any] = {"physicalLocation": physical}
         if with_columns and finding.columns:
-            location["logicalLocations"] = [{"name": c, "fullyQualifiedName": f"{self.report.info.path}::{c}", "kind": "variable"} for c in finding.columns]
+            location["logicalLocations"] = [{"name": inert(c), "fullyQualifiedName": inert(f"{self.report.info.path}::{c}", None), "kind": "variable"} for c in finding.columns]
         if label is not None:
-            location["message"] = {"text": f"row {label}"}
+            location["message"] = {"text": f"row {inert(label)}"}
         return location
 
     def finding(self, finding: Finding) -> None:
         rows = list(finding.rows)
         first = rows[0] if rows else None
+        shown = finding.shown()
         result: dict[str, Any] = {
             "ruleId": finding.rule,
             "ruleIndex": self._rule_index(finding.rule),
             "level": LEVELS[finding.grade],
-            "message": {"text": finding.message + (f" Remedy: {finding.remedy}" if finding.remedy else "")},
+            "message": {"text": shown.message + (f" Remedy: {shown.remedy}" if shown.remedy else "")},
             "locations": [self._location(finding, first, with_columns=True)],
             "partialFingerprints": {FINGERPRINT_NAME: self.keys[id(finding)].digest},
             "properties": {
@@ -152,7 +154,7 @@ class SarifWriter(ReportWriter):
                 self.notifications.append(
                     {
                         "level": "error",
-                        "message": {"text": f"{report.info.path}: rule {outcome.rule} failed: {outcome.error}"},
+                        "message": {"text": inert_message(f"{report.info.path}: rule {outcome.rule} failed: {outcome.error}")},
                         "descriptor": {"id": outcome.rule},
                     }
                 )
@@ -168,6 +170,7 @@ class SarifWriter(ReportWriter):
                 "accepted": len(report.accepted),
                 "exitCode": report.exit_code,
                 "design": report.design,
+                **({"baseline": dict(report.baseline)} if report.baseline is not None else {}),
             }
         )
 
@@ -189,4 +192,4 @@ class SarifWriter(ReportWriter):
                 }
             ],
         }
-        return json.dumps(plain_json(log), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+        return json_inert(json.dumps(cut_texts(plain_json(log)), indent=2, ensure_ascii=False, allow_nan=False)) + "\n"

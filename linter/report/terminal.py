@@ -20,7 +20,8 @@ from ..findings import (
     counted,
 )
 from ..rule import LISTED_NAMES, capped_names
-from .base import ReportWriter, RunFacts, fix_first, folded, groups_sentence, labels_not_unique, row_groups
+from ..text import inert
+from .base import ReportWriter, RunFacts, baseline_sentence, fix_first, folded, groups_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
     from ..api import Report
@@ -50,7 +51,7 @@ def _facts(report: "Report") -> Text:
     pairs = [
         ("rows", f"{report.info.rows:,}"),
         ("columns", f"{report.info.columns:,}"),
-        ("target", report.target),
+        ("target", inert(report.target)),
         ("parameters", f"{report.parameters:,}"),
         ("complete cases", f"{report.complete_cases:,}"),
         ("purpose", report.purpose),
@@ -72,9 +73,9 @@ def _design_line(report: "Report") -> Text:
     coded: list[str] = []
     for term in terms:
         if "reference" in term:
-            coded.append(f"{term['column']} ({counted(term['parameters'], 'dummy', 'dummies')}, reference {term['reference']!r})")
+            coded.append(f"{inert(term['column'])} ({counted(term['parameters'], 'dummy', 'dummies')}, reference {inert(repr(term['reference']))})")
         elif term["kind"] in ("categorical", "boolean"):
-            coded.append(f"{term['column']} (no complete rows)")
+            coded.append(f"{inert(term['column'])} (no complete rows)")
     shown = coded if len(coded) <= LISTED_NAMES else coded[: LISTED_NAMES - 2] + [f"{len(coded) - LISTED_NAMES + 2:,} more categories"]
     parts += shown
     line = Text()
@@ -82,12 +83,12 @@ def _design_line(report: "Report") -> Text:
     line.append(" + ".join(parts) or "empty")
     left_out = report.design.get("left_out", {})
     if report.design.get("id"):
-        line.append(f"; row labels from {report.design['id']!r}{_shared_labels(report)}")
+        line.append(f"; row labels from {inert(repr(report.design['id']))}{_shared_labels(report)}")
     grouping = groups_sentence(report)
     if grouping:
         line.append(f"; {grouping}")
     if left_out:
-        line.append("; left out: " + capped_names(list(left_out)))
+        line.append("; left out: " + capped_names([inert(name) for name in left_out]))
     return line
 
 
@@ -110,6 +111,7 @@ def _once(label: str, text: str, told: set[tuple[str, str]]) -> str:
 
 
 def _finding_lines(finding: Finding, explain: str | None, told: set[tuple[str, str]]) -> list[tuple[int, RenderableType]]:
+    finding = finding.shown()
     title = Text(finding.rule, style="finding.rule")
     if finding.columns:
         title.append("  " + capped_names(finding.columns), style="finding.columns")
@@ -144,12 +146,15 @@ def render_terminal(report: "Report", colour: bool, width: int | None = None, ex
         emoji=False,
         soft_wrap=False,
     )
-    console.print(Text(f"prefit {report.info.path}", style="bold"))
+    console.print(Text(f"prefit {inert(report.info.path, None)}", style="bold"))
     console.print(Padding(_facts(report), (0, 0, 0, INDENT_HEAD)))
     console.print(Padding(_design_line(report), (0, 0, 0, INDENT_HEAD)))
     sampled = report.engine.sentence() if report.engine is not None else None
     if sampled is not None:
         console.print(Padding(Text(sampled), (0, 0, 0, INDENT_HEAD)))
+    against = baseline_sentence(report)
+    if against is not None:
+        console.print(Padding(Text(against), (0, 0, 0, INDENT_HEAD)))
     counts = count_by_grade(report.findings)
     told: set[tuple[str, str]] = set()
     first = fix_first(report)

@@ -336,13 +336,17 @@ def r_squared_on_each(X: np.ndarray, v: np.ndarray, groups: Sequence[Sequence[in
     if n == 0:
         return [0.0 for _ in groups]
     with one_blas_thread():
-        sums = np.zeros(len(used))
+        # Each column over its largest magnitude: no R^2 changes, and no sum overflows.
+        sums, largest = np.zeros(len(used)), np.zeros(len(used))
         for start in range(0, n, BATCH_ROWS):
-            sums += X[start : start + BATCH_ROWS, used].sum(axis=0)
+            largest = np.fmax(largest, np.max(np.abs(X[start : start + BATCH_ROWS, used]), axis=0))
+        scales = np.where(np.isfinite(largest) & (largest > 0), largest, 1.0)
+        for start in range(0, n, BATCH_ROWS):
+            sums += (X[start : start + BATCH_ROWS, used] / scales).sum(axis=0)
         means, centre = sums / n, float(np.mean(v))
         merged = np.zeros((0, len(used) + 1))
         for start in range(0, n, BATCH_ROWS):
-            block = np.column_stack([X[start : start + BATCH_ROWS, used] - means, v[start : start + BATCH_ROWS] - centre])
+            block = np.column_stack([X[start : start + BATCH_ROWS, used] / scales - means, v[start : start + BATCH_ROWS] - centre])
             merged = _absorbed(merged, block)
     merged = triangular(merged) if merged.shape[0] < len(used) + 1 else merged
     target = merged[:, -1]
@@ -350,6 +354,9 @@ def r_squared_on_each(X: np.ndarray, v: np.ndarray, groups: Sequence[Sequence[in
     shares = []
     for group in groups:
         columns = merged[:, [used.index(int(j)) for j in group]]
+        if not (np.all(np.isfinite(columns)) and np.isfinite(total)):
+            shares.append(float("nan"))
+            continue
         coef, *_ = np.linalg.lstsq(columns, target, rcond=None)
         left = target - columns @ coef
         shares.append(1.0 - float(left @ left) / total if total > 0 else 0.0)

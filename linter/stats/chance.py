@@ -43,10 +43,15 @@ class ChanceCheck:
     single_p: float
 
     def beyond_chance(self, level: float) -> bool:
-        """Whether the crossings are more, or more extreme, than a clean table gives with probability ``level``."""
+        """Whether the crossings are more, or more extreme, than a clean table gives with probability ``level``.
+
+        The count and the most extreme row are two tests of one table: each is
+        held to ``level / 2`` (Bonferroni), so a clean table is reported with
+        probability at most ``level``.
+        """
         if self.crossed == 0:
             return False
-        return self.count_p < level or self.single_p < level
+        return self.count_p < level / 2.0 or self.single_p < level / 2.0
 
     def describe(self) -> str:
         """E.g. ``about 4.1 expected by chance in a clean table of this size``, and the most extreme row's chance when smaller."""

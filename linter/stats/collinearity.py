@@ -21,10 +21,13 @@ import numpy as np
 import scipy.linalg
 
 from ..design import INTERCEPT, Design
-from .factor import DesignFactor
+from .factor import EPS, DesignFactor
+from .factor import condition_number as condition_of
 
 DOMINANT_PROPORTION = 0.5
 MAX_BALANCED_RELATIONS = 50
+RELIABLE_ERROR = 0.1
+CANCELLATION_LIMIT = 1.0 / np.sqrt(EPS)
 
 
 def dependent_columns(factor: DesignFactor, names: tuple[str, ...]) -> tuple[int, ...]:
@@ -69,6 +72,49 @@ def _unpivoted(factor: DesignFactor, columns: list[int]) -> np.ndarray:
     position[factor.perm] = np.arange(factor.p)
     block = factor.r[:, position[columns]]
     return scipy.linalg.qr(block, mode="r", check_finite=False)[0][: len(columns)]
+
+
+def _last_diagonal(factor: np.ndarray, columns: list[int], last: list[int]) -> np.ndarray:
+    """Diagonal of the R factor of ``factor[:, columns + last]`` at the ``last`` columns."""
+    r = scipy.linalg.qr(factor[:, columns + last], mode="r", check_finite=False)[0]
+    return np.abs(np.diag(r)[len(columns) :])
+
+
+def _generalised_vif(factor: np.ndarray, inside: list[int]) -> float:
+    """Fox & Monette's ``det(C_JJ) det(C^-1_JJ)`` for the columns ``inside`` of ``C = factor' factor``, by QR alone.
+
+    For one column this is its VIF, ``1 / r_jj^2`` with the column ordered last.
+
+    ``det(C_JJ)`` is the squared product of the diagonal of the R factor of
+    ``factor[:, J]``; ordering ``J`` last, ``C^-1_JJ`` is the inverse of the
+    trailing block's cross-product, so ``det(C^-1_JJ)`` is one over its
+    squared diagonal product. Both are squares, so the result is never
+    negative, as a difference of determinants of inverses can be in round-off.
+    """
+    others = [i for i in range(factor.shape[1]) if i not in inside]
+    alone = _last_diagonal(factor, [], inside)
+    after = _last_diagonal(factor, others, inside)
+    with np.errstate(divide="ignore", over="ignore"):
+        return float(np.prod((alone / after) ** 2))
+
+
+def _determinant(symmetric: np.ndarray) -> float:
+    """Determinant of a positive semi-definite matrix: the product of its eigenvalues, round-off below zero clipped to zero."""
+    with np.errstate(over="ignore"):
+        return float(np.prod(np.clip(np.linalg.eigvalsh(symmetric), 0.0, None)))
+
+
+def _solve_semidefinite(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """``a^+ b`` for a symmetric positive semi-definite ``a``, from its eigen-decomposition.
+
+    Eigenvalues at or below ``size * eps`` times the largest count as zero
+    (the pseudo-inverse), so a numerically singular ``a`` neither raises nor
+    warns.
+    """
+    values, vectors = np.linalg.eigh(a)
+    kept = values > values[-1] * a.shape[0] * EPS if values.size else values > 0
+    basis = vectors[:, kept]
+    return np.asarray(basis @ ((basis.T @ b) / values[kept, None]))
 
 
 @dataclass(frozen=True)
@@ -129,7 +175,10 @@ class Collinearity:
     one), ``r_scaled`` their R factor with unit-length columns, ``scales``
     their Euclidean norms, ``predictors`` the kept non-intercept columns and
     ``correlation_factor`` the upper-triangular ``R_c`` with ``R_c' R_c`` the
-    predictor correlation matrix (uncentred without an intercept).
+    predictor correlation matrix (uncentred without an intercept);
+    ``centring_loss`` is the largest ratio of a kept predictor's length to its
+    length after centring (1 without an intercept), the factor by which
+    centring magnified its round-off.
     """
 
     design_names: tuple[str, ...]
@@ -141,6 +190,7 @@ class Collinearity:
     predictors: tuple[int, ...]
     correlation_factor: np.ndarray
     centred: bool
+    centring_loss: float
 
     @classmethod
     def of(cls, design: Design, factor: DesignFactor) -> "Collinearity":
@@ -168,6 +218,7 @@ class Collinearity:
             predictors=predictors,
             correlation_factor=corr_factor,
             centred=bool(skip),
+            centring_loss=float(1.0 / norms[varying].min()) if np.any(varying) else 1.0,
         )
 
     @cached_property
@@ -203,13 +254,40 @@ class Collinearity:
         out: list[TermInflation] = []
         for term in dict.fromkeys(sources):
             inside = [i for i, s in enumerate(sources) if s == term]
-            block = np.ix_(inside, inside)
             if len(inside) == 1:
                 gvif = float(self.precision[inside[0], inside[0]])
             else:
-                gvif = float(np.linalg.det(self.correlation[block]) * np.linalg.det(self.precision[block]))
-            out.append(TermInflation(term, tuple(names[i] for i in inside), tuple(inside), gvif))
+                gvif = _generalised_vif(self.correlation_factor, inside)
+            out.append(TermInflation(term, tuple(names[i] for i in inside), tuple(inside), max(gvif, 1.0)))
         return tuple(out)
+
+    @cached_property
+    def relative_error(self) -> float:
+        """First-order bound on the relative error of the VIFs and condition indices computed here.
+
+        Inverting the correlation factor ``R_c`` magnifies its relative
+        round-off by its condition number (Higham 2002, sec. 14.1), and
+        centring a column that barely varies about its mean has already
+        magnified that round-off by the ratio of its length to its centred
+        length. A condition index ``s_max / s_k`` is as uncertain as
+        ``eps * s_max / s_k`` (singular values are perturbed by about
+        ``eps * s_max``). Beyond about 0.1 even the leading digit is noise.
+
+        References
+        ----------
+        Higham, N. J. (2002). Accuracy and Stability of Numerical Algorithms, 2nd ed., sec. 14.1 and 19.3. SIAM.
+        """
+        k = self.correlation_factor.shape[0]
+        if k == 0:
+            return 0.0
+        kappa = condition_of(scipy.linalg.svdvals(self.correlation_factor, check_finite=False))
+        with np.errstate(over="ignore"):
+            return float(EPS * max(kappa * self.centring_loss, self.condition_number))
+
+    @property
+    def reliable(self) -> bool:
+        """Whether the VIFs keep at least their leading digit (:attr:`relative_error` below :data:`RELIABLE_ERROR`)."""
+        return self.relative_error < RELIABLE_ERROR
 
     @cached_property
     def _reliefs(self) -> dict[str, tuple[tuple[str, float], ...]]:
@@ -229,22 +307,36 @@ class Collinearity:
 
     def _relief(self, inflation: TermInflation) -> tuple[tuple[str, float], ...]:
         P, J = self.precision, list(inflation.indices)
-        kept_j = float(np.linalg.det(self.correlation[np.ix_(J, J)])) if len(J) > 1 else 1.0
+        kept_j = _determinant(self.correlation[np.ix_(J, J)]) if len(J) > 1 else 1.0
         others = [term for term in self.terms if term.term != inflation.term]
         singles = [term for term in others if term.df == 1]
         out: list[tuple[str, float]] = []
         if singles and len(J) == 1:
             t = np.array([term.indices[0] for term in singles])
             j = J[0]
-            without = np.maximum(P[j, j] - P[j, t] ** 2 / P[t, t], 1.0)
-            out += [(term.term, float(v)) for term, v in zip(singles, without)]
+            with np.errstate(over="ignore", invalid="ignore"):
+                without = np.maximum(P[j, j] - P[j, t] ** 2 / P[t, t], 1.0)
+            out += [(term.term, self._checked_relief(inflation, term, float(v))) for term, v in zip(singles, without)]
             others = [term for term in others if term.df > 1]
         for other in others:
             T = list(other.indices)
-            schur = P[np.ix_(J, J)] - P[np.ix_(J, T)] @ np.linalg.solve(P[np.ix_(T, T)], P[np.ix_(T, J)])
-            gvif = max(kept_j * float(np.linalg.det(schur)), 1.0)
-            out.append((other.term, gvif ** (1.0 / len(J))))
+            schur = P[np.ix_(J, J)] - P[np.ix_(J, T)] @ _solve_semidefinite(P[np.ix_(T, T)], P[np.ix_(T, J)])
+            gvif = max(kept_j * _determinant(schur), 1.0)
+            out.append((other.term, self._checked_relief(inflation, other, gvif ** (1.0 / len(J)))))
         return tuple(sorted(out, key=lambda item: (item[1], item[0])))
+
+    def _checked_relief(self, inflation: TermInflation, other: TermInflation, downdated: float) -> float:
+        """``downdated`` (GVIF^(1/df) without ``other``, from the inverse), or refactored when the downdate cancelled.
+
+        Subtracting from the inverse loses the digits by which the relief
+        shrinks the inflation; beyond half of double precision's digits the
+        answer is recomputed from the R factor without ``other``'s columns.
+        """
+        if not downdated * CANCELLATION_LIMIT < inflation.vif_scale:
+            return downdated
+        rest = [i for i in range(self.correlation_factor.shape[1]) if i not in other.indices]
+        inside = [rest.index(i) for i in inflation.indices]
+        return float(max(_generalised_vif(self.correlation_factor[:, rest], inside), 1.0) ** (1.0 / inflation.df))
 
     @cached_property
     def _svd(self) -> tuple[np.ndarray, np.ndarray]:

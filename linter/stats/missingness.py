@@ -227,7 +227,12 @@ class PatternMoments:
 
     @classmethod
     def grouped(
-        cls, columns: tuple[str, ...], arrays: Sequence[np.ndarray], row_group: np.ndarray, group_missing: np.ndarray
+        cls,
+        columns: tuple[str, ...],
+        arrays: Sequence[np.ndarray],
+        row_group: np.ndarray,
+        group_missing: np.ndarray,
+        scales: np.ndarray | None = None,
     ) -> "PatternMoments":
         """Moments from one array per column, given each row's group and each group's pattern.
 
@@ -236,6 +241,9 @@ class PatternMoments:
         same pattern are pooled. One counting sort puts the rows in group
         order, O(rows); each group's observed columns are then gathered
         ``MOMENT_ROWS`` rows at a time, and the blocks' moments merged.
+        ``scales``, when given, divides each column as it is gathered (the
+        moments are then those of the scaled values): dividing by a column's
+        largest magnitude keeps its squares from overflowing.
         """
         if row_group.size == 0:
             return cls(columns, {})
@@ -250,7 +258,9 @@ class PatternMoments:
         with one_blas_thread():
             for pattern, start, end in zip(patterns, ends - np.diff(ends, prepend=0), ends):
                 if end > start:
-                    groups[tuple(bool(v) for v in pattern)] = _group_moments(arrays, np.flatnonzero(~pattern), order[start:end])
+                    observed = np.flatnonzero(~pattern)
+                    scale = None if scales is None else scales[observed]
+                    groups[tuple(bool(v) for v in pattern)] = _group_moments(arrays, observed, order[start:end], scale)
         return cls(columns, groups)
 
     def merge(self, other: "PatternMoments") -> "PatternMoments":
@@ -285,16 +295,20 @@ class PatternMoments:
         return [(np.array([not m for m in p]), g) for p, g in sorted(self.groups.items()) if not all(p)]
 
 
-def _group_moments(arrays: Sequence[np.ndarray], observed: np.ndarray, rows: np.ndarray) -> PatternGroup:
-    """Count, mean and co-moment of ``arrays[j][rows]`` over the ``observed`` columns ``j``, block by block."""
+def _group_moments(arrays: Sequence[np.ndarray], observed: np.ndarray, rows: np.ndarray, scale: np.ndarray | None) -> PatternGroup:
+    """Count, mean and co-moment of ``arrays[j][rows] / scale`` over the ``observed`` columns ``j``, block by block."""
     block = np.empty((min(MOMENT_ROWS, rows.size), observed.size), order="F")
     parts = (rows[start : start + MOMENT_ROWS] for start in range(0, rows.size, MOMENT_ROWS))
-    return reduce(PatternGroup.merge, (_block_moments(arrays, observed, part, block[: part.size]) for part in parts))
+    return reduce(PatternGroup.merge, (_block_moments(arrays, observed, part, block[: part.size], scale) for part in parts))
 
 
-def _block_moments(arrays: Sequence[np.ndarray], observed: np.ndarray, rows: np.ndarray, block: np.ndarray) -> PatternGroup:
+def _block_moments(
+    arrays: Sequence[np.ndarray], observed: np.ndarray, rows: np.ndarray, block: np.ndarray, scale: np.ndarray | None
+) -> PatternGroup:
     for k, j in enumerate(observed):
         np.take(arrays[j], rows, out=block[:, k])
+    if scale is not None:
+        block /= scale
     mean = block.mean(axis=0)
     block -= mean
     return PatternGroup(int(rows.size), mean, block.T @ block)

@@ -64,6 +64,19 @@ def _constant_unless(intercept: bool, n: int) -> np.ndarray:
     return np.zeros((n, 0)) if intercept else np.ones((n, 1))
 
 
+def scaled_squares(residual: np.ndarray) -> np.ndarray:
+    """The squared residuals over the largest of them, in [0, 1].
+
+    Every statistic built on ``e^2`` by regression (an R^2, ``n R^2``) is
+    unchanged by scaling it, and residuals beyond 1.3e154 no longer square
+    to infinity.
+    """
+    largest = float(np.max(np.abs(residual))) if residual.size else 0.0
+    if not (np.isfinite(largest) and largest > 0):
+        return np.square(residual)
+    return np.square(residual / largest)
+
+
 def breusch_pagan(factor: DesignFactor, X: np.ndarray, residual: np.ndarray, intercept: bool) -> ResidualTest:
     """Koenker's studentized Breusch-Pagan test: ``n R^2`` of ``e^2`` on the design (and a constant).
 
@@ -91,7 +104,7 @@ def breusch_pagan_and_spread(
     below :data:`SPREAD_MIN_ROWS` rows per fifth, where two equal spreads
     differ twofold too often by chance.
     """
-    squared = residual**2
+    squared = scaled_squares(residual)
     fit = regress_added(factor, X, squared, _constant_unless(intercept, X.shape[0]), keep_residual=keep_spread)
     test = _lagrange_multiplier(fit, _centred_total(squared), fit.rank - 1)
     fifth = residual.size // SPREAD_GROUPS
@@ -139,7 +152,7 @@ def white(factor: DesignFactor, X: np.ndarray, residual: np.ndarray, intercept_c
     White, H. (1980). A heteroskedasticity-consistent covariance matrix
     estimator and a direct test for heteroskedasticity. Econometrica 48(4).
     """
-    squared = residual**2
+    squared = scaled_squares(residual)
     fit = regress_added(factor, X, squared, white_products(X, intercept_column), keep_residual=False)
     return _lagrange_multiplier(fit, _centred_total(squared), fit.rank - 1)
 

@@ -11,6 +11,7 @@ import pandas as pd
 COMPRESSOR_TYPES = ("screw", "scroll", "reciprocating", "CO2 transcritical")
 TYPE_EFFECT_KWH = {"screw": 0.0, "scroll": 350.0, "reciprocating": 650.0, "CO2 transcritical": -300.0}
 START_DAY = "2026-06-01"
+NEW_TYPE_EFFECT_KWH = -450.0
 
 
 def sites(rng: np.random.Generator, count: int = 40, similar: bool = False) -> pd.DataFrame:
@@ -38,14 +39,22 @@ def sites(rng: np.random.Generator, count: int = 40, similar: bool = False) -> p
 
 
 def site_days(
-    rng: np.random.Generator, site_count: int = 40, days: int = 90, noise_kwh: float = 400.0, similar_sites: bool = False
+    rng: np.random.Generator,
+    site_count: int = 40,
+    days: int = 90,
+    noise_kwh: float = 400.0,
+    similar_sites: bool = False,
+    facts: pd.DataFrame | None = None,
+    start: str = START_DAY,
 ) -> pd.DataFrame:
     """One invented row per site-day, with a linear, homoscedastic energy response.
 
-    With ``similar_sites`` the day-to-day stock varies by a fixed amount rather than in proportion to the site.
+    With ``similar_sites`` the day-to-day stock varies by a fixed amount rather than in proportion to the site;
+    ``facts`` gives the sites (default: drawn with ``rng``), ``start`` the first day.
     """
-    facts = sites(rng, site_count, similar=similar_sites)
-    calendar = pd.date_range(START_DAY, periods=days, freq="D")
+    facts = sites(rng, site_count, similar=similar_sites) if facts is None else facts
+    site_count = len(facts)
+    calendar = pd.date_range(start, periods=days, freq="D")
     frame = facts.loc[facts.index.repeat(days)].reset_index(drop=True)
     frame.insert(1, "day", np.tile(calendar.date, site_count))
     n = len(frame)
@@ -66,7 +75,7 @@ def site_days(
         + 55 * frame["outdoor_c"]
         + 2.5 * frame["door_openings"]
         + 140 * frame["defrost_cycles"]
-        + frame["compressor_type"].map(TYPE_EFFECT_KWH)
+        + frame["compressor_type"].map(TYPE_EFFECT_KWH).fillna(NEW_TYPE_EFFECT_KWH)
         + rng.normal(0, noise_kwh, n)
     )
     frame["energy_kwh"] = energy.round(1)

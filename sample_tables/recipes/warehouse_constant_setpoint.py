@@ -10,11 +10,9 @@ FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
     ("hygiene.constant-predictor", "blocks", ("setpoint_c",)),
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles")),
 ]
 FIX_FIRST = [
     ("hygiene.constant-predictor", "blocks", ("setpoint_c",), 0),
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles"), 0),
 ]
 EXIT_CODE = 1
 

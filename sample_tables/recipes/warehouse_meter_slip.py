@@ -17,13 +17,12 @@ EXPECTED = [
     ("influence.cooks-distance", "weakens", ()),
     ("influence.dfbetas", "misleads", ("door_openings", "defrost_cycles", "compressor_type")),
     ("influence.dffits", "weakens", ()),
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles")),
+    ("outliers.multivariate", "note", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles")),
     ("outliers.studentized-residual", "misleads", ("energy_kwh",)),
     ("outliers.univariate", "weakens", ("energy_kwh",)),
 ]
 FIX_FIRST = [
     ("outliers.univariate", "weakens", ("energy_kwh",), 5),
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles"), 0),
 ]
 EXIT_CODE = 1
 

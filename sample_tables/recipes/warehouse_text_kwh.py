@@ -11,6 +11,7 @@ ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
     ("target.not-numeric", "blocks", ("energy_kwh",)),
     ("hygiene.numeric-as-text", "misleads", ("energy_kwh",)),
+    ("outliers.univariate", "note", ("floor_area_m2",)),
 ]
 FIX_FIRST = [
     ("target.not-numeric", "blocks", ("energy_kwh",), 0),

@@ -11,6 +11,7 @@ ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
     ("hygiene.numeric-as-text", "weakens", ("last_year_kwh",)),
     ("design.excluded-column", "note", ("last_year_kwh",)),
+    ("outliers.univariate", "note", ("pallets_stored",)),
 ]
 FIX_FIRST = [
     ("hygiene.numeric-as-text", "weakens", ("last_year_kwh",), 0),

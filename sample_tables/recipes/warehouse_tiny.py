@@ -10,16 +10,17 @@ FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--id", "site_day"]
 EXPECTED = [
     ("collinearity.condition", "misleads", ("outdoor_c", "floor_area_m2", "racks")),
-    ("influence.cooks-distance", "misleads", ()),
-    ("influence.dfbetas", "misleads", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "humidity_pct", "racks", "staff_on_shift", "forklift_hours")),
-    ("sample-size.per-parameter", "misleads", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "humidity_pct", "racks", "staff_on_shift", "forklift_hours")),
+    ("influence.cooks-distance", "weakens", ()),
+    ("influence.dfbetas", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "humidity_pct", "racks", "staff_on_shift", "forklift_hours")),
+    ("outliers.univariate", "note", ("outdoor_c", "pallets_stored")),
     ("sample-size.minimum", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "humidity_pct", "racks", "staff_on_shift", "forklift_hours")),
+    ("sample-size.per-parameter", "misleads", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "humidity_pct", "racks", "staff_on_shift", "forklift_hours")),
 ]
 FIX_FIRST = [
     ("collinearity.condition", "misleads", ("outdoor_c", "floor_area_m2", "racks"), 0),
-    ("influence.cooks-distance", "misleads", (), 0),
-    ("influence.dfbetas", "misleads", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "humidity_pct", "racks", "staff_on_shift", "forklift_hours"), 0),
     ("sample-size.per-parameter", "misleads", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "humidity_pct", "racks", "staff_on_shift", "forklift_hours"), 0),
+    ("influence.cooks-distance", "weakens", (), 0),
+    ("influence.dfbetas", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "humidity_pct", "racks", "staff_on_shift", "forklift_hours"), 0),
     ("sample-size.minimum", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "humidity_pct", "racks", "staff_on_shift", "forklift_hours"), 0),
 ]
 EXIT_CODE = 1
