@@ -220,7 +220,7 @@ def table_section(report: "Report", findings: list[Finding], run: RunFacts, plot
             + (f' <span class="columns">{esc(", ".join(root.columns))}</span>' if root.columns else "")
             + (f' <span class="label">explains {explained} finding{"" if explained == 1 else "s"}</span>' if explained else "")
             + "</li>"
-            for root, explained in first
+            for root, explained in ((r.shown(), n) for r, n in first)
         )
         out.append(f'<h2 id="{prefix}fix-first">Fix first</h2><ol class="fix-first">{items}</ol>')
     out.append(f'<h2 id="{prefix}findings">Findings</h2>')

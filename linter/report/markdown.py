@@ -85,6 +85,7 @@ class MarkdownWriter(ReportWriter):
         if first:
             lines += ["**Fix first**", ""]
             for number, (root, explained) in enumerate(first, 1):
+                root = root.shown()
                 columns = f" ({', '.join(md_text(c) for c in root.columns)})" if root.columns else ""
                 also = f": explains {explained} finding{'' if explained == 1 else 's'}" if explained else ""
                 lines.append(f"{number}. {root.grade.word} `{root.rule}`{columns}{also}")
@@ -96,9 +97,9 @@ class MarkdownWriter(ReportWriter):
             for root, effects in folded(report):
                 if root.key not in shown:
                     continue
-                for f in [root, *effects]:
+                for position, f in enumerate(x.shown() for x in [root, *effects]):
                     columns = md_text(capped_names(f.columns)) or "-"
-                    grade = f.grade.word if f is root else f"&#8627; {f.grade.word}"
+                    grade = f.grade.word if position == 0 else f"&#8627; {f.grade.word}"
                     lines.append(f"| {grade} | `{f.rule}` | {columns} | {md_text(f.message)}{_rows(f)} |")
             lines.append("")
             remedies: list[str] = []

@@ -162,6 +162,7 @@ def render_terminal(report: "Report", colour: bool, width: int | None = None, ex
         console.print()
         console.print(Text("FIX FIRST", style="bold"))
         for number, (root, explained) in enumerate(first, 1):
+            root = root.shown()
             entry = Text(f"{number}. ")
             entry.append(MARKERS[root.grade], style=f"grade.{root.grade.word}")
             entry.append(f" {root.rule}", style="finding.rule")
@@ -189,12 +190,15 @@ def render_terminal(report: "Report", colour: bool, width: int | None = None, ex
                 console.print(Padding(line, (0, 0, 0, indent)))
             if effects:
                 console.print(Padding(Text("explained by this finding (gone once it is fixed):", style="facts.label"), (0, 0, 0, INDENT_BODY)))
-            for effect in effects:
+            for effect in (e.shown() for e in effects):
                 folded_line = Text(MARKERS[effect.grade] + " ", style=f"grade.{effect.grade.word}")
                 folded_line.append(effect.rule, style="finding.rule")
                 if effect.columns:
                     folded_line.append("  " + ", ".join(effect.columns), style="finding.columns")
                 folded_line.append(": " + effect.message)
+                if effect.rows:
+                    items, more = row_groups(effect, 10)
+                    folded_line.append("; rows: " + ", ".join(items) + (f" and {counted(more, 'more row')}" if more > 0 else ""), style="facts.label")
                 console.print(Padding(folded_line, (0, 0, 0, INDENT_BODY + 2)))
     console.print()
     summary = ", ".join(f"{n} {word}" for word, n in counts.items())
