@@ -132,7 +132,7 @@ class Planted:
 
 
 PROBLEMS = (
-    Planted("near-collinear", "collinearity.vif", "misleads", "a copy of one predictor plus noise (r = 0.995)"),
+    Planted("near-collinear", "collinearity.condition", "misleads", "a copy of one predictor plus noise (r = 0.995): one near dependency, named with its VIFs"),
     Planted("exact-dependency", "collinearity.exact", "blocks", "a column that is the sum of two predictors"),
     Planted("target-outlier", "outliers.studentized-residual", "misleads", "one target value moved by 12 error SDs"),
     Planted("unit-slip", "outliers.univariate", "weakens", "1% of a positive predictor's values multiplied by 100"),
