@@ -290,21 +290,21 @@ def target_candidates(table: pa.Table) -> list[str]:
 
 MAX_DESIGN_CELLS = 200_000_000
 """Dummy cells (levels x rows) one category may add to the design: 1.6 GB of doubles."""
-MIN_LEVEL_CAP = 1_000
+MAX_LEVELS = 1_000
 
 
 def _too_many_levels(column: pa.ChunkedArray) -> str | None:
     """Why a category has too many levels to enter the design as dummies, or None.
 
     Each level beyond the reference is a dense column of the design; a category of tens of thousands of levels
-    would need gigabytes and leaves a handful of rows per parameter. The cap is the larger of 1,000 levels and
-    :data:`MAX_DESIGN_CELLS` over the rows.
+    would need gigabytes and hours of factoring, and leaves a handful of rows per parameter. The cap is the smaller
+    of :data:`MAX_LEVELS` and :data:`MAX_DESIGN_CELLS` over the rows.
     """
     present = len(column) - column.null_count
     if present == 0:
         return None
     distinct = int(pc.count_distinct(column).as_py() or 0)
-    cap = max(MIN_LEVEL_CAP, MAX_DESIGN_CELLS // present)
+    cap = min(MAX_LEVELS, MAX_DESIGN_CELLS // present)
     if distinct - 1 <= cap:
         return None
     return (
