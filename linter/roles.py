@@ -207,6 +207,10 @@ def resolve_roles(table: pa.Table, options: CheckOptions) -> Roles:
             else:
                 chosen.append(name)
         predictors = tuple(chosen)
+    for name in predictors:
+        if kinds[name] is Kind.CATEGORICAL and (levels_reason := _too_many_levels(table.column(name))) is not None:
+            left_out[name] = levels_reason
+    predictors = tuple(name for name in predictors if name not in left_out)
     if options.intercept and INTERCEPT in predictors:
         raise UsageProblem(
             f"column {INTERCEPT!r}", "has the name of the model's constant term", f"rename the column, --exclude {INTERCEPT}, or add --no-intercept"
@@ -282,6 +286,31 @@ def target_candidates(table: pa.Table) -> list[str]:
         for name in table.column_names
         if infer_kind(table.column(name), False) is Kind.NUMERIC and _numeric_index_reason(table.column(name)) is None
     ]
+
+
+MAX_DESIGN_CELLS = 200_000_000
+"""Dummy cells (levels x rows) one category may add to the design: 1.6 GB of doubles."""
+MAX_LEVELS = 1_000
+
+
+def _too_many_levels(column: pa.ChunkedArray) -> str | None:
+    """Why a category has too many levels to enter the design as dummies, or None.
+
+    Each level beyond the reference is a dense column of the design; a category of tens of thousands of levels
+    would need gigabytes and hours of factoring, and leaves a handful of rows per parameter. The cap is the smaller
+    of :data:`MAX_LEVELS` and :data:`MAX_DESIGN_CELLS` over the rows.
+    """
+    present = len(column) - column.null_count
+    if present == 0:
+        return None
+    distinct = int(pc.count_distinct(column).as_py() or 0)
+    cap = min(MAX_LEVELS, MAX_DESIGN_CELLS // present)
+    if distinct - 1 <= cap:
+        return None
+    return (
+        f"a category of {distinct:,} levels in {present:,} rows: its {distinct - 1:,} dummies would exceed the design's "
+        f"limit of {cap:,} for this many rows; group its levels, or use it as --id or --group"
+    )
 
 
 def _numeric_index_reason(column: pa.ChunkedArray) -> str | None:

@@ -89,3 +89,12 @@ def test_a_unique_text_column_is_offered_as_row_labels() -> None:
     assert offered and "--id extract_key" in offered[0].remedy
     labelled = [f for f in prefit.check(frame, target="energy_kwh", id="extract_key").findings if f.columns == ("extract_key",)]
     assert all("--id" not in f.remedy for f in labelled)
+
+
+def test_a_category_of_too_many_levels_is_left_out_instead_of_filling_memory() -> None:
+    rows = 5_000
+    frame = _site_days(rows)
+    frame["pallet_code"] = np.random.default_rng(9).integers(0, 2_000, rows)
+    report = prefit.check(frame, target="energy_kwh", categorical=["pallet_code"])
+    assert "dummies would exceed" in _left_out(report)["pallet_code"]
+    assert report.parameters == 2
