@@ -9,7 +9,7 @@ NAME = "warehouse_last_month"
 FORMAT = "csv"
 ARGS = ["--target", "energy_kwh", "--id", "site_id", "--exclude", "day"]
 EXPECTED = [
-    ("outliers.multivariate", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles")),
+    ("outliers.multivariate", "note", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles")),
 ]
 EXIT_CODE = 0
 SITES_SEED = 20260601
