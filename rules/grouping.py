@@ -17,7 +17,7 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.design import INTERCEPT
 from prefit.findings import Finding, Grade
-from prefit.rule import COMMON_PRACTICE, NotApplicable, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import COMMON_PRACTICE, NotApplicable, Repair, Rule, RuleSettings, Threshold, fmt
 from prefit.stats.chance import chance_check_counts
 from prefit.stats.grouping import (
     GroupFactors,
@@ -26,6 +26,7 @@ from prefit.stats.grouping import (
     group_deletions,
     one_way_icc,
     two_level_slopes,
+    within_group_residual,
 )
 from prefit.stats.robust import MODIFIED_Z_LIMIT, median_and_mad, modified_z, robust_distances
 
@@ -124,6 +125,47 @@ def _correlated(ctx: RunContext, settings: RuleSettings) -> IntraclassCorrelatio
     if not (np.isfinite(icc.p_value) and icc.p_value < settings.limit("alpha") and icc.icc > 0):
         return None
     return icc
+
+
+def _group_effects_allowed_for(ctx: RunContext, finding: Finding) -> Repair | None:
+    """The table with the target replaced, on the complete rows, by the fitted values plus the residuals of the fit with one intercept per group.
+
+    Those residuals are orthogonal to the design, so least squares of the
+    repaired target on the unchanged design has exactly them as residuals
+    (Frisch-Waugh-Lovell): the row diagnostics re-run on it see the fit with
+    the groups' shared offsets allowed for. Rows that stop being outlying or
+    influential were whole groups standing apart, not rows gone wrong.
+    """
+    import pyarrow as pa
+
+    rows = ctx.group_rows
+    if rows is None or not _fit_ready(ctx):
+        return None
+    design = ctx.design
+    residual = ctx.row_scores.residual
+    within = within_group_residual(design.X, design.y, rows)
+    target = ctx.roles.target
+    repaired = np.array(ctx.values(target), dtype=float)
+    repaired[design.positions] = design.y - residual + within
+    table = ctx.table.set_column(ctx.table.column_names.index(target), target, pa.array(repaired, from_pandas=True))
+    return Repair(f"one intercept per {_group_name(ctx)}", rows=design.n, table=table)
+
+
+def _influential_groups_left_out(ctx: RunContext, finding: Finding) -> Repair | None:
+    """The table with the target of the named groups' rows set missing: the fit without the groups that decide it."""
+    import pyarrow as pa
+
+    rows = ctx.group_rows
+    if rows is None or not finding.rows:
+        return None
+    named = set(finding.rows)
+    chosen = np.array([label in named for label in rows.labels], dtype=bool)
+    left_out = chosen[rows.codes]
+    target = ctx.roles.target
+    values = np.array(ctx.values(target), dtype=float)
+    values[ctx.design.positions[left_out]] = np.nan
+    table = ctx.table.set_column(ctx.table.column_names.index(target), target, pa.array(values, from_pandas=True))
+    return Repair(f"{len(named):,} {_group_name(ctx)} groups left out", rows=int(left_out.sum()), table=table)
 
 
 def _residual_correlation(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
@@ -436,6 +478,7 @@ RULES = [
         "for site-level predictors, so effects look more certain than they are.",
         remedy="report cluster-robust standard errors by group, or fit a mixed model with a random intercept per group",
         check=_residual_correlation,
+        repair=_group_effects_allowed_for,
         thresholds=(
             ALPHA,
             Threshold(
@@ -523,6 +566,7 @@ RULES = [
         "site moves the fit further than the usual standard errors (and the group Cook's distance built on them) allow for.",
         remedy="check the named group at the source; report the fit with and without it, or model what sets it apart",
         check=_group_influence,
+        repair=_influential_groups_left_out,
         thresholds=(
             Threshold(
                 "misleads",

@@ -77,6 +77,50 @@ def test_a_planted_root_opens_the_fix_first_list_and_explains_the_rest(plant, ro
     assert alone or any(f.rule not in clean_rules for f in explained)
 
 
+def invented_sites(seed: int, shifted_site: int | None) -> pd.DataFrame:
+    """Invented site-days of 40 sites x 60 days; one site's energy is offset by a shared amount when ``shifted_site`` is set."""
+    rng = np.random.default_rng(seed)
+    sites, days = 40, 60
+    offset = rng.normal(0.0, 3.0, sites)
+    if shifted_site is not None:
+        offset[shifted_site] += 40.0
+    site = np.repeat(np.arange(sites), days)
+    area = np.repeat(rng.uniform(2.0, 20.0, sites), days)
+    outdoor = rng.normal(5.0, 8.0, sites * days)
+    doors = rng.poisson(40, sites * days).astype(float)
+    energy = 100 + 4 * outdoor + 10 * area + 0.5 * doors + offset[site] + rng.normal(0.0, 6.0, sites * days)
+    return pd.DataFrame({
+        "site_id": [f"S{s:02d}" for s in site], "outdoor_c": outdoor.round(2), "floor_area_km2": area.round(3),
+        "door_openings": doors, "energy_kwh": energy.round(2),
+    })
+
+
+def test_a_whole_site_apart_is_the_root_of_the_row_findings_on_its_days() -> None:
+    report = check(invented_sites(7, shifted_site=5), "energy_kwh", group="site_id")
+    by_key = {f.key: f for f in report.findings}
+    first = by_key[report.fix_first[0]]
+    assert first.rule == "grouping.residual-correlation"
+    row_findings = [f for f in report.findings if f.rule.startswith(("outliers.studentized", "influence."))]
+    assert row_findings, "the shifted site should draw row-level findings"
+    # The shared offset, once allowed for (one intercept per site), leaves no row finding standing: each is explained.
+    assert all(first.key in f.explained_by for f in row_findings), [(f.rule, f.explained_by) for f in row_findings]
+    assert [f.rule for f in report.findings if f.grade >= Grade.WEAKENS and not f.explained_by] == [first.rule]
+
+
+def test_the_within_site_residuals_equal_the_fit_with_site_indicators() -> None:
+    from prefit.stats.grouping import GroupRows, within_group_residual
+
+    frame = invented_sites(3, shifted_site=None)
+    X = np.column_stack([np.ones(len(frame)), frame[["outdoor_c", "floor_area_km2", "door_openings"]].to_numpy()])
+    y = frame["energy_kwh"].to_numpy()
+    rows = GroupRows.of(frame["site_id"].to_numpy())
+    dummies = (rows.codes[:, None] == np.arange(1, rows.count)[None, :]).astype(float)
+    # reference: numpy least squares on the design with explicit site indicators (Frisch-Waugh-Lovell)
+    full = np.column_stack([X, dummies])
+    reference = y - full @ np.linalg.lstsq(full, y, rcond=None)[0]
+    np.testing.assert_allclose(within_group_residual(X, y, rows), reference, atol=1e-8)
+
+
 def test_the_bend_is_graded_by_its_effect() -> None:
     report = check(with_bend(invented_site_days(11)), "energy_kwh")
     (bend,) = [f for f in report.findings if f.rule == "assumptions.nonlinearity"]

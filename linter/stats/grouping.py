@@ -386,3 +386,27 @@ def two_level_slopes(groups: GroupFactors, intercept_column: int | None) -> TwoL
         if means_fit.df_resid > 0:
             between, between_se = means_fit.coef, means_fit.se
     return TwoLevelSlopes(within, within_se, between, between_se, both_ways)
+
+
+def within_group_residual(X: np.ndarray, y: np.ndarray, rows: GroupRows) -> np.ndarray:
+    """Residuals of ``y`` on ``X`` plus one intercept per group, without building the group indicators.
+
+    By the Frisch-Waugh-Lovell theorem these are the residuals of the group
+    means removed from ``y`` regressed on ``X`` with its group means removed
+    (columns constant within every group vanish and are dropped); the solve is
+    an SVD least squares, O(n p^2) whatever the number of groups.
+    """
+    sizes = np.maximum(rows.sizes, 1).astype(np.float64)
+    codes = rows.codes
+    y_within = y - (np.bincount(codes, weights=y, minlength=rows.count) / sizes)[codes]
+    if X.shape[1] == 0:
+        return y_within
+    sums = np.zeros((rows.count, X.shape[1]))
+    np.add.at(sums, codes, X)
+    X_within = X - (sums / sizes[:, None])[codes]
+    scale = np.sqrt(np.einsum("ij,ij->j", X_within, X_within))
+    varying = scale > 1e-9 * np.maximum(1.0, np.sqrt(np.einsum("ij,ij->j", X, X)))
+    if not varying.any():
+        return y_within
+    coef, *_ = np.linalg.lstsq(X_within[:, varying], y_within, rcond=None)
+    return y_within - X_within[:, varying] @ coef
