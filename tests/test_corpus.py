@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import hashlib
 import json
-import os
 import signal
 import sys
 from pathlib import Path
@@ -91,22 +90,7 @@ def test_corpus_case(name: str, unchanged: None) -> None:
     _check(CASES / case["file"], args, case["expect"])
 
 
-SLOW_CASES = {
-    # A report on 10,000 columns x 50 rows still takes minutes (the cost of the wide-table statistics), far beyond
-    # what a test run may spend; it runs with the slow tests until wide tables are fast.
-    "10,000 columns x 50 rows": "wide tables still take minutes to check",
-}
-
-
-@pytest.mark.parametrize(
-    "name",
-    [
-        pytest.param(n, marks=[pytest.mark.slow, pytest.mark.skipif(not os.environ.get("PREFIT_SLOW_TESTS"), reason=f"{SLOW_CASES[n]}; set PREFIT_SLOW_TESTS=1")])
-        if n in SLOW_CASES
-        else n
-        for n in sorted(make_corpus.LARGE_CASES)
-    ],
-)
+@pytest.mark.parametrize("name", sorted(make_corpus.LARGE_CASES))
 def test_large_corpus_case(name: str, tmp_path: Path) -> None:
     make, args, expected = make_corpus.LARGE_CASES[name]
     table = make(tmp_path)
