@@ -419,6 +419,7 @@ class DependencyGroup:
     grade: Grade
     limit: Threshold
     members: tuple[str, ...]
+    coexisting: tuple[tuple[str, float], ...] = ()
 
 
 def dependency_groups(ctx: RunContext, settings: RuleSettings) -> list[DependencyGroup]:
@@ -445,7 +446,65 @@ def dependency_groups(ctx: RunContext, settings: RuleSettings) -> list[Dependenc
         if grade < strongest and max(inflation.get(name, 1.0) for name in predictors) < settings.limit("weak-vif"):
             continue
         groups.append(DependencyGroup(dependency, grade, limit, predictors))
-    return groups
+    return _with_coexisting(ctx, groups, settings, inflation)
+
+
+def coexisting_limit(settings: RuleSettings) -> float:
+    """The condition index from which near dependencies count as coexisting: the strongest grade's limit."""
+    return max((t for t in settings.thresholds if t.grade is not None), key=lambda t: t.grade).value
+
+
+def _with_coexisting(
+    ctx: RunContext, groups: list[DependencyGroup], settings: RuleSettings, inflation: dict[str, float]
+) -> list[DependencyGroup]:
+    """Attach predictors inflated by several coexisting near dependencies to the group whose direction weighs most on them.
+
+    When near dependencies coexist, each predictor's variance is split among
+    their directions, and no single condition index need hold half of it:
+    judged one index at a time, a predictor with a VIF of 200 can belong to no
+    group. Its proportions summed over every index at or above the strongest
+    limit (two or more of them) show its involvement (Belsley, Kuh & Welsch 1980, sec. 3.3, on
+    coexisting and competing dependencies; from memory). Such a predictor,
+    inflated to the ``weak-vif`` level, joins the reported group whose
+    direction carries most of its variance, or, when no direction holds a
+    group of its own, the predictors so attached form one group at the
+    strongest index.
+    """
+    diagnostics = ctx.collinearity
+    indices = np.asarray(diagnostics.condition_indices, dtype=float)
+    proportions = np.asarray(diagnostics.variance_proportions, dtype=float)
+    strong = np.flatnonzero(indices >= coexisting_limit(settings))
+    if strong.size < 2:
+        return groups
+    names = diagnostics.column_names()
+    summed = proportions[strong].sum(axis=0)
+    grouped = {name for group in groups for name in group.members}
+    leftover = [
+        j for j, name in enumerate(names)
+        if name != INTERCEPT and name not in grouped and summed[j] > settings.limit("proportion")
+        and inflation.get(name, 1.0) >= settings.limit("weak-vif")
+    ]
+    if not leftover:
+        return groups
+    home = {id(group): int(np.argmin(np.abs(indices - group.dependency.index))) for group in groups}
+    attached: dict[int, list[tuple[str, float]]] = {}
+    for j in leftover:
+        if groups:
+            target = max(range(len(groups)), key=lambda g: (proportions[home[id(groups[g])], j], -g))
+        else:
+            target = -1
+        attached.setdefault(target, []).append((names[j], float(summed[j])))
+    out = [
+        replace(group, members=group.members + tuple(name for name, _ in attached.get(g, ())), coexisting=tuple(attached.get(g, ())))
+        for g, group in enumerate(groups)
+    ]
+    if -1 in attached and len(attached[-1]) >= 2:
+        k = int(strong[np.argmax(indices[strong])])
+        graded = settings.grade_of(float(indices[k]))
+        if graded is not None:
+            dependency = NearDependency(float(indices[k]), tuple((names[j], float(proportions[k, j])) for j in leftover))
+            out.append(DependencyGroup(dependency, graded[0], graded[1], tuple(name for name, _ in attached[-1]), tuple(attached[-1])))
+    return out
 
 
 def _grouped_terms(ctx: RunContext) -> set[str]:
@@ -477,6 +536,12 @@ def _condition(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
             grade = max([grade, *vif_grades])
         shares = ", ".join(f"{name} ({share:.2f})" for name, share in dependency.proportions)
         named_vifs = ", ".join(f"{name} {fmt(value)}" for name, value in vifs.items())
+        if group.coexisting:
+            shares += (
+                f"; coexisting near dependencies (condition indices of {coexisting_limit(settings):g} "
+                f"and above) also hold most of the variance of {_names([name for name, _ in group.coexisting])} (shares summed over "
+                f"them: {', '.join(f'{name} {share:.2f}' for name, share in group.coexisting)})"
+            )
         yield settings.finding(
             grade,
             f"near dependency among {_names(columns)}: condition index {fmt(dependency.index)} of the design (columns scaled "
@@ -491,6 +556,7 @@ def _condition(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
             details={
                 "condition_index": dependency.index,
                 "proportions": dict(dependency.proportions),
+                "coexisting": dict(group.coexisting),
                 "vifs": vifs,
                 "condition_number": diagnostics.condition_number,
                 "condition_indices": [float(v) for v in diagnostics.condition_indices],
