@@ -8,7 +8,7 @@ import textwrap
 from .errors import UsageProblem, closest_names
 from .registry import Registry, discover
 from .rule import RuleLike, default_grades, rule_family
-from .teaching import DEMONSTRATIONS, demonstration_for
+from .teaching import DEMONSTRATIONS, Demonstration, demonstration_for
 
 WRAP = 96
 
@@ -103,14 +103,51 @@ def explain_rule(rule_id: str, registry: Registry | None = None) -> str:
     out += ["Remedy:"] + textwrap.wrap(rule.remedy, WRAP, initial_indent="  ", subsequent_indent="  ")
     demo = getattr(rule, "demonstration", None)
     heading = "Demonstration on invented warehouse data:"
+    own = True
     if not callable(demo):
         demo = demonstration_for(rule.id)
         if rule.id not in DEMONSTRATIONS:
             family = rule_family(rule.id)
             heading = f"Demonstration for the {family} family (this rule has none of its own), on invented warehouse data:"
+            own = False
     if callable(demo):
-        out += ["", heading, str(demo())]
+        shown = demo()
+        out += ["", heading, str(shown)]
+        if own and shown.table:
+            out += ["", *_found_in_demonstration(rule, shown)]
     return "\n".join(out) + "\n"
+
+
+def _found_in_demonstration(rule: RuleLike, shown: Demonstration) -> list[str]:
+    """What the rule itself reports on the demonstration's table, as `prefit check` would print its first finding."""
+    from .findings import counted
+    from .teaching.checking import run_on_demonstration
+
+    outcome = run_on_demonstration(rule, shown)
+    flags = " ".join(_flag(key, value) for key, value in [*shown.options.items(), *shown.companions.items()])
+    lines = [f"{rule.id} on the demonstration's table ({flags}):"]
+    if outcome.error is not None or not outcome.findings:
+        reason = outcome.error or outcome.not_applicable or "no finding"
+        return lines + textwrap.wrap(f"nothing to report ({reason})", WRAP, initial_indent="  ", subsequent_indent="    ")
+    first = outcome.findings[0]
+    lines += textwrap.wrap(f"{first.grade.word}: {first.message}", WRAP, initial_indent="  ", subsequent_indent="    ")
+    if len(outcome.findings) > 1:
+        lines.append(f"  (and {counted(len(outcome.findings) - 1, 'more finding')})")
+    return lines
+
+
+def _flag(key: str, value: object) -> str:
+    """A check option as the command line spells it: ``--id site_id``, ``--group site_id``, ``--baseline last_month.parquet``."""
+    from .teaching.checking import COMPANION_FILES
+
+    if key in COMPANION_FILES:
+        return f"--{key} {COMPANION_FILES[key]}"
+    if key == "ranges" and isinstance(value, dict):
+        return " ".join(f"--range {column}={low:g}:{high:g}" for column, (low, high) in value.items())
+    flag = key.replace("_", "-")
+    if isinstance(value, (list, tuple)):
+        return f"--{flag} {','.join(str(v) for v in value)}"
+    return f"--{flag} {value}"
 
 
 def _explain_family(family: str, registry: Registry) -> str:

@@ -504,7 +504,8 @@ RULES = [
                 "spread-ratio",
                 2.0,
                 "common practice: group SDs within a factor of 2 (variances within 4) are tolerated by the pooled-variance "
-                "analysis (Moore & McCabe, Introduction to the Practice of Statistics, one-way ANOVA, from memory)",
+                "analysis (Moore, McCabe & Craig, Introduction to the Practice of Statistics, 9th ed., ch. 12: ANOVA can "
+                "be performed when the largest sample SD is less than twice the smallest)",
                 Grade.WEAKENS,
             ),
         ),

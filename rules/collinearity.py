@@ -26,15 +26,19 @@ NOTABLE_RELIEF = 0.9
 
 VIF_SOURCE = (
     f"{COMMON_PRACTICE}: VIF above 10 taken as serious (Kutner, Nachtsheim, Neter & Li 2005, Applied Linear "
-    "Statistical Models, 5th ed., sec. 10.5), 5 or 10 as problematic (James, Witten, Hastie & Tibshirani 2013, "
-    "An Introduction to Statistical Learning, sec. 3.3.3); from memory. Terms of several dummies: GVIF^(1/(2 df)) "
-    "against the square root of the limit (Fox & Monette 1992, JASA 87, 178-183)"
+    "Statistical Models, 5th ed., sec. 10.5, from memory; the same limit in Neter, Wasserman & Kutner 1989, as cited "
+    "by secondary sources), 5 or 10 as problematic (James, Witten, Hastie & Tibshirani 2013, An Introduction to "
+    "Statistical Learning, sec. 3.3.3: a VIF that exceeds 5 or 10 indicates a problematic amount of collinearity). "
+    "Terms of several dummies: GVIF^(1/(2 df)) against the square root of the limit (Fox & Monette 1992, JASA 87, 178-183)"
 )
 CONDITION_SOURCE = (
     "Belsley, Kuh & Welsch 1980, Regression Diagnostics, ch. 3: condition indices near 10 begin to affect "
     "estimates, 30 to 100 are moderate to strong and above 100 severe, with two or more variance-decomposition proportions above 0.5 (the ranges of their numerical experiments, as quoted by the colldiag implementations for R and Matlab)"
 )
-PAIRWISE_SOURCE = f"{COMMON_PRACTICE}: |r| of 0.9 and above between two predictors signals harmful collinearity; from memory"
+PAIRWISE_SOURCE = (
+    f"{COMMON_PRACTICE}: |r| of 0.9 and above between two predictors signals harmful collinearity (the limit applied "
+    "guides quote; some use 0.75)"
+)
 PRECISION_SOURCE = (
     "Higham 2002, Accuracy and Stability of Numerical Algorithms, 2nd ed., sec. 20.1 and 20.4 (QR loses about log10(kappa) "
     "of double precision's 16 digits, the normal equations about 2 log10(kappa)); Golub & Van Loan 2013, Matrix "

@@ -20,8 +20,9 @@ from prefit.rule import COMMON_PRACTICE, NotApplicable, Rule, RuleSettings, Thre
 
 NO_BASELINE = "no baseline: give the last accepted extract (or its profile from --save-baseline) with --baseline"
 PSI_SOURCE = (
-    "population stability index bands 0.1 and 0.25 (common practice in credit scoring: Siddiqi 2006, Credit Risk Scorecards, "
-    "Wiley, ch. 8, from memory; Yurdakul 2018, Statistical Properties of Population Stability Index, Western Michigan University)"
+    "population stability index bands 0.1 and 0.25 (common practice in credit scoring, as quoted on Cross Validated, "
+    "question 219822; Siddiqi 2006, Credit Risk Scorecards, Wiley, ch. 8, from memory; Yurdakul 2018, Statistical "
+    "Properties of Population Stability Index, Western Michigan University)"
 )
 TEST_SOURCE = (
     "two-sample Kolmogorov-Smirnov test (Smirnov 1948) or chi-square test of homogeneity, Holm (1979) adjusted across columns"

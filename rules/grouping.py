@@ -35,10 +35,17 @@ from .assumptions import worst_se_ratio
 
 ALPHA = Threshold("alpha", 0.01, "common practice: 1% significance level, as each grouping check is one of several tests")
 PER_PARAMETER_SOURCE = (
-    "common practice: at least 10 observations per estimated parameter (the lower end of 10 to 20, Harrell 2015, "
-    "Regression Modeling Strategies, 2nd ed., sec. 4.4, from memory), with groups as the observations of a group-level predictor"
+    "common practice: at least 10 observations per estimated parameter (the lower end of 10 to 20: the one-in-ten "
+    "rule, one in twenty where shrinkage matters: Harrell, Lee & Mark 1996, Stat. Med. 15; Peduzzi et al. 1996, "
+    "J. Clin. Epidemiol. 49; Harrell 2015, Regression Modeling Strategies, 2nd ed., sec. 4.4, pp. 72-73, about 15 per "
+    "parameter of the limiting sample size, as quoted by secondary sources), with groups as the observations of a "
+    "group-level predictor"
 )
 KISH = "Kish (1965), Survey Sampling, sec. 5.4: design effect 1 + (m - 1) ICC"
+MCD_ROWS_SOURCE = (
+    "the MCD assumes at least 5 rows per variable, as its authors' group documents it (LIBRA's mcdcov, the FAST-MCD of "
+    "Rousseeuw & Van Driessen 1999, Technometrics 41; robustbase's detMcd)"
+)
 CAMERON_MILLER = "Cameron & Miller (2015), A practitioner's guide to cluster-robust inference, J. Human Resources 50(2), sec. VI"
 MUNDLAK = "Mundlak (1978), Econometrica 46(1): the within and between slopes differ when group effects correlate with the predictor"
 NO_GROUPS = "rows are not grouped: name the group column with --group (or give a repeating --id)"
@@ -511,8 +518,8 @@ RULES = [
             Threshold(
                 "weakens",
                 20,
-                CAMERON_MILLER + ": with 20 or fewer clusters cluster-robust Wald tests over-reject markedly (Cameron, Gelbach & Miller "
-                "2008, Rev. Econ. Stat. 90(3), from memory)",
+                CAMERON_MILLER + ": with few clusters cluster-robust Wald tests over-reject (Cameron, Gelbach & Miller 2008, "
+                "Rev. Econ. Stat. 90(3), 414-427: with five to thirty clusters, rejection rates near 10% at a nominal 5%)",
                 Grade.WEAKENS,
                 "<",
             ),
@@ -552,7 +559,7 @@ RULES = [
                 Grade.WEAKENS,
                 ">",
             ),
-            Threshold("rows_per_variable", 5, "Rousseeuw & Van Driessen (1999), Technometrics 41: the MCD is meant for n/p above 5 (from memory)"),
+            Threshold("rows_per_variable", 5, MCD_ROWS_SOURCE),
             CHANCE,
         ),
         needs=frozenset({"rows"}),
@@ -571,7 +578,8 @@ RULES = [
             Threshold(
                 "misleads",
                 2.0,
-                "Belsley, Kuh & Welsch (1980), Regression Diagnostics, sec. 2.1: the absolute cutoff |DFBETAS| > 2 (from memory), applied "
+                "Belsley, Kuh & Welsch (1980), Regression Diagnostics: the absolute cutoff |DFBETAS| > 2 (as quoted by the olsrr and "
+                "SAS documentation), applied "
                 "to deleting a group (Cook & Weisberg 1982, sec. 3.6), in cluster-robust standard errors",
                 Grade.MISLEADS,
                 ">",

@@ -22,8 +22,9 @@ from prefit.stats.sentinels import Sentinel, SentinelLimits, find_sentinels
 from prefit.stats.textnumbers import is_text_type, mostly_number_like, parsed_values, placeholder_levels
 
 PER_PARAMETER_SOURCE = (
-    "common practice: at least 10 observations per estimated parameter "
-    "(Harrell 2015, Regression Modeling Strategies, 2nd ed., sec. 4.4, from memory)"
+    "common practice: at least 10 observations per estimated parameter (the one-in-ten rule: Harrell, Lee & Mark 1996, "
+    "Stat. Med. 15; Peduzzi et al. 1996, J. Clin. Epidemiol. 49; Harrell 2015, Regression Modeling Strategies, 2nd ed., "
+    "sec. 4.4, pp. 72-73, about 15 per parameter of the limiting sample size, as quoted by secondary sources)"
 )
 RATE_WEAKENS_SOURCE = (
     "Schafer (1999), Multiple imputation: a primer, Stat. Methods Med. Res. 8: up to 5% missing is "

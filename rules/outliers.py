@@ -459,15 +459,16 @@ RULES = [
             Threshold(
                 "rows_per_variable",
                 5,
-                "Rousseeuw & Van Driessen (1999), Technometrics 41: the MCD is meant for n/p above 5 (from memory); "
-                "the small-sample factor is calibrated from there on",
+                "the MCD assumes at least 5 rows per variable, as its authors' group documents it (LIBRA's mcdcov, the "
+                "FAST-MCD of Rousseeuw & Van Driessen 1999, Technometrics 41; robustbase's detMcd); the small-sample "
+                "factor is calibrated from there on",
             ),
             Threshold(
                 "skewness",
                 0.2,
                 COMMON_PRACTICE + ": a predictor with |medcouple| above 0.2 (an exponential has 0.33) is clearly skewed, and "
-                "rows beyond the chi-square cutoff are then graded note (Hubert & Van der Veeken 2008, J. Chemometrics 22, "
-                "on robust distances for skewed data; from memory)",
+                "rows beyond the chi-square cutoff are then graded note (Hubert & Van der Veeken 2008, Outlier detection for "
+                "skewed data, J. Chemometrics 22(3-4), 235-246)",
             ),
             Threshold(
                 "excess",
@@ -480,7 +481,7 @@ RULES = [
                 "moment-skewness",
                 0.5,
                 COMMON_PRACTICE + ": |skewness| of 0.5 or more is at least moderate skew (Bulmer 1979, Principles of Statistics, "
-                "from memory); catches skewed counts whose medcouple is 0",
+                "p. 63, as quoted in secondary sources); catches skewed counts whose medcouple is 0",
             ),
             CHANCE,
         ),

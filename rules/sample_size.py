@@ -19,13 +19,15 @@ RILEY_SOURCE = (
     "outcomes, Statistics in Medicine 38(7); Riley et al. (2020), BMJ 368:m441"
 )
 PER_PARAMETER_SOURCE = (
-    "common practice: 10 to 20 observations per estimated parameter "
-    "(Harrell 2015, Regression Modeling Strategies, 2nd ed., sec. 4.4, from memory)"
+    "common practice: 10 to 20 observations per estimated parameter (the one-in-ten rule, one in twenty where shrinkage "
+    "matters: Harrell, Lee & Mark 1996, Stat. Med. 15; Peduzzi et al. 1996, J. Clin. Epidemiol. 49; Harrell 2015, "
+    "Regression Modeling Strategies, 2nd ed., sec. 4.4, pp. 72-73, about 15 per parameter of the limiting sample size, "
+    "as quoted by secondary sources)"
 )
 EXPLAIN_SOURCE = (
     "Austin & Steyerberg (2015), The number of subjects per variable required in linear regression analyses, "
-    "Journal of Clinical Epidemiology 68(6), 627-636: two subjects per variable gave coefficients with small relative "
-    "bias and nominal confidence-interval coverage (from memory); counted here with the intercept"
+    "Journal of Clinical Epidemiology 68(6), 627-636: about two subjects per variable gave coefficients with relative "
+    "bias under 10%, accurate standard errors and about nominal confidence-interval coverage; counted here with the intercept"
 )
 PREDICT_GRADES = ("blocks", "misleads", "weakens")
 EXPLAIN_GRADES = ("blocks", "explain-misleads", "explain-weakens")

@@ -6,8 +6,10 @@ import json
 import xml.etree.ElementTree as ElementTree
 from importlib import resources
 from pathlib import Path
+from typing import Any
 
 import jsonschema
+import numpy as np
 from conftest import run_cli
 
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_tables"
@@ -80,3 +82,33 @@ def test_config_keys_match_the_flags_and_the_older_spellings_still_work(tmp_path
     (tmp_path / "prefit.toml").write_text('target = "energy_kwh"\ngate = "weakens"\nfail-at = "note"\n')
     both = run_cli("check", CLEAN)
     assert both.code == 2 and "fail-at" in both.err
+
+
+def _duplicated(distinct: int) -> Any:
+    import pandas as pd
+
+    rng = np.random.default_rng(21)
+    outdoor = rng.uniform(-5, 35, distinct).round(3)
+    energy = (6_000 + 110 * outdoor + rng.normal(0, 500, distinct)).round(3)
+    return pd.DataFrame({"outdoor_c": np.tile(outdoor, 2), "energy_kwh": np.tile(energy, 2)})  # every row exported twice
+
+
+OTHER_FAMILIES = ["assumptions", "collinearity", "design", "drift", "grouping", "influence", "missingness", "outliers", "range", "sample-size", "target"]
+
+
+def _exact_repeats(report: Any) -> list[dict[str, Any]]:
+    findings = json.loads(report.to_json())["findings"]
+    return [f for f in findings if f["rule"] == "hygiene.duplicate-rows" and "exactly in every column" in f["message"]]
+
+
+def test_the_json_report_lists_every_flagged_row_up_to_its_documented_cap() -> None:
+    import prefit
+    from prefit.findings import MAX_LISTED_ROWS
+
+    report = prefit.check(_duplicated(600), target="energy_kwh", skip_rules=OTHER_FAMILIES)
+    (repeats,) = _exact_repeats(report)
+    assert repeats["row_count"] == 600 and len(repeats["rows"]) == 600 and repeats["rows_capped"] is False  # not the first 50
+    assert "10,000" in SCHEMA["$defs"]["finding"]["properties"]["rows_capped"]["description"] and MAX_LISTED_ROWS == 10_000
+    many = prefit.check(_duplicated(MAX_LISTED_ROWS + 250), target="energy_kwh", skip_rules=OTHER_FAMILIES)
+    (capped,) = _exact_repeats(many)
+    assert capped["row_count"] == MAX_LISTED_ROWS + 250 and len(capped["rows"]) == MAX_LISTED_ROWS and capped["rows_capped"] is True

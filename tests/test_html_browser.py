@@ -42,6 +42,13 @@ PAGE_FACTS = """JSON.stringify({
   scripts: document.scripts.length,
   text: document.body.textContent,
   contents: Array.from(document.querySelectorAll('nav.toc a')).map(function (a) { return a.textContent; }),
+  counts: Array.from(document.querySelectorAll('nav.toc li')).map(function (li) {
+    var count = li.querySelector('.count');
+    return [li.querySelector('a').textContent, count ? count.textContent : null];
+  }),
+  axes: Array.from(document.querySelectorAll('figure.plot')).map(function (f) {
+    return [f.id, Array.from(f.querySelectorAll('svg g[id*="axes_"]')).map(function (g) { return g.textContent; })];
+  }),
   collapsible: document.querySelectorAll('details.finding').length,
   ruleLinks: Array.from(document.querySelectorAll('details.finding summary a.rule')).map(function (a) { return a.getAttribute('href'); }),
   anchors: Array.from(document.querySelectorAll('article.rule-entry')).map(function (a) { return a.id; }),
@@ -219,3 +226,63 @@ def test_a_table_of_hostile_names_and_cells_runs_no_script_and_loads_nothing(bro
     assert "<script>alert(1)</script>" in facts["text"]  # shown as text, never parsed as an element
     assert "line\\nbreak" in facts["text"] and "(5,000,000 characters)" in facts["text"]
     assert "\x1b" not in facts["text"] and "\u202e" not in facts["text"]
+
+
+def _axes_text(facts: dict[str, Any], figure: str, title: str) -> str:
+    """The text of the plot axes in ``figure`` whose title is ``title`` (tick labels, legend, bar labels)."""
+    panels = dict((key, texts) for key, texts in facts["axes"])[figure]
+    return " ".join(" ".join(next(text for text in panels if title in text).split()).split())
+
+
+def test_contents_count_the_findings_of_each_grade_and_findings_fold(browser: DevTools) -> None:
+    from prefit.findings import count_by_grade
+
+    report = sample_report("warehouse_submeters")
+    facts = load(browser, sample_html("warehouse_submeters"), "contents-warehouse_submeters")
+    shown = {word: count for word, count in facts["counts"] if count is not None}
+    assert shown == {word: str(n) for word, n in count_by_grade(list(report.findings)).items() if n}
+    assert facts["collapsible"] == len(report.findings)
+    # a click on a finding's summary folds it to its one-line summary, a second click opens it again
+    fold = """(function () {
+      var d = document.querySelector('details.finding'), before = d.getBoundingClientRect().height;
+      d.querySelector('summary').click();
+      var folded = [d.open, d.getBoundingClientRect().height];
+      d.querySelector('summary').click();
+      return JSON.stringify([before, folded[0], folded[1], d.open]);
+    })()"""
+    before, open_after_click, folded_height, reopened = json.loads(browser.call("Runtime.evaluate", expression=fold, returnByValue=True)["result"]["value"])
+    assert open_after_click is False and folded_height < before and reopened is True
+
+
+def test_vif_chart_draws_each_term_once_on_a_log_scale_with_an_exact_dependency_off_scale(browser: DevTools) -> None:
+    report = sample_report("warehouse_submeters")
+    facts = load(browser, sample_html("warehouse_submeters"), "vif-warehouse_submeters")
+    vif = _axes_text(facts, "t1-collinearity", "variance inflation by term")
+    assert "log scale" in vif
+    # compressor_type is one term of several dummies: one bar (GVIF^(1/df)), no bar per dummy
+    assert report.context is not None
+    dummies = [name for name in report.context.design.column_names if name.startswith("compressor_type") and name != "compressor_type"]
+    assert dummies and "compressor_type" in vif and not any(d in vif for d in dummies)
+    # gross_kwh = compressor_kwh + lighting_kwh + defrost_kwh exactly: its inflation is infinite, drawn off scale
+    assert "inf (off scale)" in vif
+    graded = {term.term: term.vif_scale for term in report.context.collinearity.terms}  # type: ignore[union-attr]
+    assert f"{graded['compressor_type']:.3g}" in vif
+
+
+def test_cook_contours_are_drawn_at_the_rules_own_levels(browser: DevTools) -> None:
+    import scipy.stats
+
+    from prefit.teaching.checking import check_demonstration
+    from prefit.teaching.influence import mega_site
+
+    report = check_demonstration(mega_site())  # 30 invented sites, one of them a mega-site with Cook's D far above 1
+    facts = load(browser, report.to_html(), "cook-mega_site-demonstration")
+    assert facts["errors"] == [] and facts["requests"] == []
+    ctx = report.context
+    assert ctx is not None
+    n, rank, df_resid = ctx.design.n, ctx.fit.rank, ctx.fit.df_resid
+    legend = _axes_text(facts, "t1-influence", "Cook")
+    # the rule's own thresholds: weakens at 4/n, misleads at the median of F(p, n - p), not fixed levels
+    assert f"Cook's distance {4 / n:.3g} (weakens)" in legend
+    assert f"Cook's distance {scipy.stats.f.ppf(0.5, rank, df_resid):.3g} (misleads)" in legend
+    assert "(reference)" not in legend

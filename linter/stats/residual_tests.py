@@ -201,8 +201,9 @@ def white_within_budget(
     ----------
     White, H. (1980). A heteroskedasticity-consistent covariance matrix
     estimator and a direct test for heteroskedasticity. Econometrica 48(4).
-    Harrell, F. E. (2015). Regression Modeling Strategies, 2nd ed., sec. 4.4:
-    10 to 20 rows per estimated parameter (common practice, from memory).
+    Harrell, F. E. (2015). Regression Modeling Strategies, 2nd ed., sec. 4.4,
+    pp. 72-73: about 15 rows per estimated parameter (as quoted by secondary
+    sources; 10 to 20 is the common-practice range).
     """
     n = X.shape[0]
     width = white_columns(X.shape[1])

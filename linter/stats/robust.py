@@ -240,7 +240,7 @@ def small_sample_factor(rows: int, columns: int, share: float, small_rows: bool,
     (correction factors of the form 1 + alpha / n^beta, fitted by simulation).
     Hardin, J., Rocke, D. M. (2005). The distribution of robust distances. J. Comput. Graph. Stat. 14(4),
     928-946 (F rather than chi-square for robust distances in finite samples); Wilks, S. S. (1963). Multivariate
-    statistical outliers. Sankhya A 25, 407-426 (the scaled F of a new row); from memory.
+    statistical outliers. Sankhya A 25, 407-426 (the scaled F of a new row; from memory).
     """
     import scipy.stats
 

@@ -36,6 +36,7 @@ def uneven_spread() -> Demonstration:
     noise = rng.normal(0, 1, (SIMULATIONS, area.size))
     energies = 900 + 0.3 * area + noise * 2_500 * (area / 40_000) ** 3
     shares = _slope_coverage(area, energies, 0.3)
+    sites = np.char.mod("CS-%03d", np.arange(1, area.size + 1))
     return Demonstration(
         (
             f"{SIMULATIONS} invented extracts of 80 sites; the daily spread grows with floor area (small sites vary",
@@ -49,6 +50,8 @@ def uneven_spread() -> Demonstration:
             "sites, so the usual interval is too narrow. HC3 uses each row's own residual and keeps its promise.",
         ),
         {"coverage_usual": shares[0], "coverage_hc3": shares[1]},
+        table={"site_id": sites, "floor_area_m2": area, "energy_kwh": energies[0].round(1)},
+        options={"target": "energy_kwh", "id": "site_id"},
     )
 
 
@@ -73,6 +76,8 @@ def heat_bend() -> Demonstration:
             "days an energy budget must get right. The square term takes most of the bend out.",
         ),
         {"hot_error_straight": misses[0], "hot_error_curved": misses[1]},
+        table={"outdoor_c": outdoor, "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -92,6 +97,8 @@ def skewed_errors() -> Demonstration:
         above += new > centre + half
         below += new < centre - half
     shares = (float(above / SIMULATIONS), float(below / SIMULATIONS))
+    table_outdoor = rng.uniform(0, 30, 60)  # one longer extract of the same process, for prefit to check
+    table_energy = 8_000 + 55 * table_outdoor + 400 * (rng.lognormal(0, 1, table_outdoor.size) - np.exp(0.5))
     return Demonstration(
         (
             f"{SIMULATIONS} invented extracts of 15 site-days whose errors are right-skewed (rare very bad days).",
@@ -101,9 +108,12 @@ def skewed_errors() -> Demonstration:
             f"  new day below the interval   {shares[1]:>6.1%}",
             "",
             "With few rows and skewed errors the interval is in the wrong place: the expensive surprises land",
-            "above it far more often than promised, and cheap days never fall below it.",
+            "above it far more often than promised, and cheap days never fall below it. (The table checked below",
+            "is one extract of 60 such days: 15 are often too few for any test to tell skew from chance.)",
         ),
         {"miss_above": shares[0], "miss_below": shares[1]},
+        table={"outdoor_c": table_outdoor.round(1), "energy_kwh": table_energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -112,14 +122,15 @@ def autocorrelated_days() -> Demonstration:
     rng = generator(13)
     days = 120
     outdoor = 14 + 10 * np.sin(np.linspace(0, np.pi, days))
-    slopes, errors = [], []
+    slopes, errors, series = [], [], []
     for _ in range(SIMULATIONS):
         shock = rng.normal(0, 300, days)
         noise = np.empty(days)
         noise[0] = shock[0]
         for day in range(1, days):
             noise[day] = 0.8 * noise[day - 1] + shock[day]
-        line = fit_line(8_000 + 55 * outdoor + noise, outdoor)
+        series.append(8_000 + 55 * outdoor + noise)
+        line = fit_line(series[-1], outdoor)
         slopes.append(line.coef[1])
         errors.append(line.se[1])
     actual, claimed = float(np.std(slopes)), float(np.mean(errors))
@@ -135,4 +146,6 @@ def autocorrelated_days() -> Demonstration:
             "of far fewer independent ones, and the slope looks much surer than it is.",
         ),
         {"se_understatement": actual / claimed},
+        table={"day": np.datetime64("2026-03-01") + np.arange(days), "outdoor_c": outdoor.round(1), "energy_kwh": series[0].round(1)},
+        options={"target": "energy_kwh", "order": "day"},
     )

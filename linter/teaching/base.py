@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Mapping
+from typing import Any, Mapping, Sequence
 
 import numpy as np
 import scipy.linalg
@@ -13,12 +13,24 @@ SEED = 20260601
 BOOTSTRAP_RESAMPLES = 200
 
 
+Columns = Mapping[str, "Sequence[Any] | np.ndarray"]
+"""An invented table as columns by name: numbers, texts, None or NaN for a missing value."""
+
+
 @dataclass(frozen=True)
 class Demonstration:
-    """Lines of plain text and the numbers they show, keyed by name."""
+    """Lines of plain text and the numbers they show, keyed by name; the invented table they describe and how to check it.
+
+    ``table`` is the table the lines are about, with the problem in it: checked with ``options`` (``target``, ``id``,
+    ``group``, ...) it makes its rule fire. ``companions`` holds the tables that options name by path (``baseline``:
+    the accepted extract a new one is vetted against; ``score``: new rows to predict), keyed by the option.
+    """
 
     lines: tuple[str, ...]
     numbers: Mapping[str, float] = field(default_factory=dict)
+    table: Columns = field(default_factory=dict)
+    options: Mapping[str, Any] = field(default_factory=dict)
+    companions: Mapping[str, Columns] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
         if len(self.lines) > MAX_LINES:

@@ -48,6 +48,8 @@ def area_and_racks() -> Demonstration:
             "se_fixed": float(alone.se[1]),
             "correlation": correlation,
         },
+        table={"floor_area_m2": area, "rack_volume_m3": racks.round(), "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -77,6 +79,8 @@ def parts_and_total() -> Demonstration:
             "the total or the parts.",
         ),
         {"rank": float(rank), "columns": 4.0, "fitted_gap": gap, "coefficient_shift": 0.15},
+        table={"compressor_kwh": compressor, "fans_kwh": fans, "gross_kwh": gross, "cost_eur": cost.round(2)},
+        options={"target": "cost_eur"},
     )
 
 
@@ -109,4 +113,79 @@ def lost_digits() -> Demonstration:
             "columns (days since the first day) before fitting.",
         ),
         {"condition": condition, "error_qr": error_qr, "error_normal": error_normal},
+        table={"timestamp_s": seconds, "outdoor_c": X[:, 2], "energy_kwh": y},
+        options={"target": "energy_kwh"},
+    )
+
+
+def dock_follows_outdoor() -> Demonstration:
+    """The outdoor slope's standard error with and without the loading dock's air temperature, which follows the outdoor air."""
+    rng = generator(120)
+    rows = 120
+    outdoor = rng.normal(0, 6, rows).round(1)  # a winter month
+    dock = (0.8 * outdoor + rng.normal(0, 1.2, rows)).round(1)
+    defrost = rng.integers(0, 9, rows)
+    energy = 6_000 + 90 * outdoor + 30 * dock + 140 * defrost + rng.normal(0, 400, rows)
+    both, alone = fit_line(energy, outdoor, dock, defrost), fit_line(energy, outdoor, defrost)
+    auxiliary = fit_line(outdoor, dock, defrost).r_squared
+    vif = 1 / (1 - auxiliary)
+    return Demonstration(
+        (
+            f"{rows} invented winter site-days: outdoor_c around 0 C, dock_c (the loading dock's air) follows it, and",
+            "defrost_cycles. True effects: +90 kWh per outdoor degree, +30 per dock degree.",
+            "",
+            "                           outdoor_c slope   std. error",
+            f"  with dock_c              {fmt(both.coef[1]):>15}   {fmt(both.se[1]):>10}",
+            f"  dock_c left out          {fmt(alone.coef[1]):>15}   {fmt(alone.se[1]):>10}",
+            "",
+            f"dock_c and defrost_cycles explain {auxiliary:.0%} of outdoor_c's variation: VIF {fmt(vif)}, so the outdoor slope",
+            f"rests on the {1 - auxiliary:.0%} that is its own and its standard error is {both.se[1] / alone.se[1]:.1f} times as wide (about",
+            f"sqrt(VIF) = {np.sqrt(vif):.1f}). Left out, dock_c's effect is carried by outdoor_c: a narrower interval for a",
+            "slope that now means 'outdoor air and what follows it'.",
+        ),
+        {"vif": float(vif), "se_ratio": float(both.se[1] / alone.se[1]), "slope_with": float(both.coef[1]), "slope_without": float(alone.coef[1])},
+        table={"outdoor_c": outdoor, "dock_c": dock, "defrost_cycles": defrost, "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
+    )
+
+
+SIZE_MEASURES = {"floor_area_m2": 40_000.0, "rack_volume_m3": 280_000.0, "staff": 60.0, "pallets_stored": 15_000.0, "dock_doors": 24.0}
+
+
+def _negative(names: list[str]) -> str:
+    if not names:
+        return "no slope comes out"
+    if len(names) == 1:
+        return f"the slope of {names[0]} comes out"
+    return f"the slopes of {', '.join(names[:-1])} and {names[-1]} come out"
+
+
+def five_measures_of_size() -> Demonstration:
+    """Five columns that all measure site size: the floor-area slope alone and beside the four others."""
+    rng = generator(121)
+    rows = 120
+    size = rng.uniform(0.2, 1.0, rows)
+    columns = {name: (scale * size * rng.normal(1, 0.08, rows)).round() for name, scale in SIZE_MEASURES.items()}
+    energy = 900 + 0.3 * columns["floor_area_m2"] + rng.normal(0, 900, rows)
+    values = list(columns.values())
+    r = np.atleast_2d(np.corrcoef(np.array(values)))
+    lowest = float(r[np.triu_indices(len(values), 1)].min())
+    every, alone = fit_line(energy, *values), fit_line(energy, columns["floor_area_m2"])
+    negative = [name for name, c in zip(columns, every.coef[1:]) if c < 0]
+    return Demonstration(
+        (
+            f"{rows} invented sites; floor_area_m2, rack_volume_m3, staff, pallets_stored and dock_doors all measure",
+            f"site size: every pair correlates {lowest:.2f} or more. Only floor area matters (+0.30 kWh per m2).",
+            "",
+            "                               floor_area_m2 slope   std. error",
+            f"  beside the four others       {fmt(every.coef[1]):>19}   {fmt(every.se[1]):>10}",
+            f"  alone                        {fmt(alone.coef[1]):>19}   {fmt(alone.se[1]):>10}",
+            "",
+            f"Beside the others the slope's standard error is {every.se[1] / alone.se[1]:.1f} times as wide, and {_negative(negative)}",
+            "negative (a bigger site using less): the fit cannot split one effect of size between five columns that",
+            "say the same thing. Keep one measure of size, or combine them into one index.",
+        ),
+        {"lowest_correlation": lowest, "se_ratio": float(every.se[1] / alone.se[1]), "negative_slopes": float(len(negative))},
+        table={**columns, "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )

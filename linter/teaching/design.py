@@ -32,24 +32,40 @@ def codes_as_numbers() -> Demonstration:
             f"predicted {fmt(-misses[0])} kWh too high on average. As categories (--categorical) every type gets its own level.",
         ),
         {"sigma_codes": as_number.sigma, "sigma_levels": as_levels.sigma, "co2_error_codes": misses[0], "co2_error_levels": misses[1]},
+        table={"compressor_type": code + 1, "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
 def date_as_a_number() -> Demonstration:
-    """The slope on a date read as a number (days since 1970), and its intercept: a coefficient at year 1970."""
+    """A date exported as the whole number YYYYMMDD, fitted as one: jumps at every month's end, and an intercept at year 0."""
     rng = generator(49)
-    days = np.arange(20_454.0, 20_544.0)  # 90 days of 2026, counted from 1970-01-01
-    energy = 6_000 + 15 * (days - days[0]) + rng.normal(0, 300, days.size)
-    line = fit_line(energy, days)
+    days = np.datetime64("2026-01-01") + np.arange(90)  # January to March 2026
+    elapsed = np.arange(days.size, dtype=float)
+    as_number = np.array([int(str(d).replace("-", "")) for d in days], dtype=float)  # 20260101 ... 20260331
+    energy = 6_000 + 15 * elapsed + rng.normal(0, 300, days.size)
+    read_as_number, read_as_days = fit_line(energy, as_number), fit_line(energy, elapsed)
     return Demonstration(
         (
-            "90 invented days of 2026; energy creeps up by 15 kWh a day as the season warms.",
+            "90 invented days of 2026, January to March; energy creeps up by 15 kWh a day as the season turns.",
+            "The export writes the date as the whole number YYYYMMDD: 20260131 is followed by 20260201, a step of 70.",
             "",
-            f"  fitted on the raw date (days since 1970): slope {fmt(float(line.coef[1]))} kWh per day, intercept {fmt(float(line.coef[0]))} kWh",
+            "                              slope                   intercept",
+            f"  date read as a number       {fmt(float(read_as_number.coef[1])):>6} kWh per unit    {fmt(float(read_as_number.coef[0])):>12}",
+            f"  days since 1 January        {fmt(float(read_as_days.coef[1])):>6} kWh per day     {fmt(float(read_as_days.coef[0])):>12}",
             "",
-            "The intercept is the energy predicted for 1 January 1970, 56 years outside the data, and the slope mixes",
-            "the season with every other trend. prefit leaves raw dates out of the design; derive a trend, a season or a",
+            f"Read as a number, the 90 days span {fmt(float(np.ptp(as_number)))} units (each month's end jumps by 70): the slope per unit",
+            "is not a slope per day, it changes with how many month ends the extract holds, and the intercept is the",
+            "energy of year 0.",
+            "prefit leaves such columns out of the design; derive a trend (days since the first), a season or a",
             "weekday column on purpose instead.",
         ),
-        {"slope": float(line.coef[1]), "intercept": float(line.coef[0])},
+        {
+            "slope": float(read_as_number.coef[1]),
+            "intercept": float(read_as_number.coef[0]),
+            "sigma_number": read_as_number.sigma,
+            "sigma_days": read_as_days.sigma,
+        },
+        table={"day": as_number.astype(np.int64), "outdoor_c": (rng.normal(4, 5, days.size)).round(1), "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )

@@ -19,10 +19,11 @@ def shared_site_effect() -> Demonstration:
     outdoor = rng.normal(12, 5, area.size)
     site = np.repeat(np.arange(SITES), DAYS)
     rows = GroupRows.of(np.char.mod("CS-%03d", site))
-    slopes, usual, iccs = [], [], []
+    slopes, usual, iccs, first = [], [], [], None
     for _ in range(DRAWS):
         effect = rng.normal(0, SITE_EFFECT_KWH, SITES)[site]
         energy = 600 + 0.22 * area + 55 * outdoor + effect + rng.normal(0, NOISE_KWH, area.size)
+        first = energy if first is None else first
         line = fit_line(energy, area, outdoor)
         slopes.append(line.coef[1])
         usual.append(line.se[1])
@@ -48,6 +49,8 @@ def shared_site_effect() -> Demonstration:
             "new site. Cluster-robust standard errors by site, or a mixed model, count the sites.",
         ),
         {"se_ratio": ratio, "icc": icc, "design_effect": design_effect},
+        table={"site_id": np.char.mod("CS-%03d", site), "floor_area_m2": area, "outdoor_c": outdoor.round(1), "energy_kwh": np.asarray(first).round(1)},
+        options={"target": "energy_kwh", "group": "site_id"},
     )
 
 
@@ -58,9 +61,10 @@ def noise_site_facts() -> Demonstration:
     site = np.repeat(np.arange(sites), days)
     noise = rng.normal(size=(sites, facts))[site]
     outdoor = rng.normal(12, 5, site.size)
-    significant = []
+    significant, first = [], None
     for _ in range(50):
         energy = 600 + 55 * outdoor + rng.normal(0, SITE_EFFECT_KWH, sites)[site] + rng.normal(0, NOISE_KWH, site.size)
+        first = energy if first is None else first
         line = fit_line(energy, outdoor, *noise.T)
         significant.append(int(np.sum(np.abs(line.coef[2:] / line.se[2:]) > 1.96)))
     mean = float(np.mean(significant))
@@ -76,6 +80,13 @@ def noise_site_facts() -> Demonstration:
             "parameters is too few, and the usual tests count every day as a new site.",
         ),
         {"noise_significant": mean, "expected": 0.05 * facts},
+        table={
+            "site_id": np.char.mod("CS-%03d", site),
+            "outdoor_c": outdoor.round(1),
+            **{f"site_fact_{k + 1}": noise[:, k].round(3) for k in range(facts)},
+            "energy_kwh": np.asarray(first).round(1),
+        },
+        options={"target": "energy_kwh", "group": "site_id"},
     )
 
 
@@ -91,9 +102,10 @@ def few_sites() -> Demonstration:
     area = np.repeat(floor_areas(rng, sites), days)
     X = np.column_stack([np.ones(site.size), area])
     rows = GroupRows.of(np.char.mod("CS-%03d", site))
-    slopes, robust = [], []
+    slopes, robust, first = [], [], None
     for _ in range(DRAWS):
         energy = 600 + 0.22 * area + rng.normal(0, SITE_EFFECT_KWH, sites)[site] + rng.normal(0, NOISE_KWH, site.size)
+        first = energy if first is None else first
         fit = PreliminaryFit(DesignFactor.of(X, energy), float("nan"), True)
         factors = GroupFactors.of(X, energy, rows)
         slopes.append(fit.coef[1])
@@ -110,6 +122,8 @@ def few_sites() -> Demonstration:
             f"{fmt(actual / reported)} times too small: a wild cluster bootstrap or a mixed model does better.",
         ),
         {"understated": actual / reported},
+        table={"site_id": np.char.mod("CS-%03d", site), "floor_area_m2": area, "energy_kwh": np.asarray(first).round(1)},
+        options={"target": "energy_kwh", "group": "site_id"},
     )
 
 
@@ -139,6 +153,8 @@ def warm_sites_cold_days() -> Demonstration:
             "effects) separates them.",
         ),
         {"within": float(within), "between": float(between), "pooled": float(pooled)},
+        table={"site_id": np.char.mod("CS-%03d", site), "outdoor_c": outdoor.round(1), "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh", "group": "site_id"},
     )
 
 
@@ -151,6 +167,9 @@ def one_large_site() -> Demonstration:
     rows_area = np.repeat(area, days)
     median, mad = float(np.median(rows_area)), float(np.median(np.abs(rows_area - np.median(rows_area))))
     row_flags = int(np.sum(np.abs(0.6745 * (rows_area - median) / mad) > 3.5))
+    site = np.repeat(np.arange(sites), days)
+    outdoor = rng.normal(12, 5, site.size)
+    energy = 900 + 0.3 * rows_area + 55 * outdoor + rng.normal(0, SITE_EFFECT_KWH, sites)[site] + rng.normal(0, NOISE_KWH, site.size)
     site_median, site_mad = float(np.median(area)), float(np.median(np.abs(area - np.median(area))))
     site_flags = int(np.sum(np.abs(0.6745 * (area - site_median) / site_mad) > 3.5))
     return Demonstration(
@@ -164,6 +183,8 @@ def one_large_site() -> Demonstration:
             "independent extremes; counted per site it is the one unusual site it is.",
         ),
         {"row_flags": row_flags, "site_flags": site_flags},
+        table={"site_id": np.char.mod("CS-%03d", site), "floor_area_m2": rows_area, "outdoor_c": outdoor.round(1), "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh", "group": "site_id"},
     )
 
 
@@ -193,4 +214,6 @@ def one_site_decides() -> Demonstration:
             "it alone decides the slope.",
         ),
         {"all": float(everything), "one_day": float(one_day), "whole_site": float(whole_site)},
+        table={"site_id": np.char.mod("CS-%03d", site), "floor_area_m2": area[site], "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh", "group": "site_id"},
     )

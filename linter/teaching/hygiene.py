@@ -31,6 +31,8 @@ def duplicated_days() -> Demonstration:
             "the fit claims twice the precision the 40 real days support, and p-values follow.",
         ),
         {"se_ratio": float(repeated.se[1] / once.se[1]), "slope_difference": float(repeated.coef[1] - once.coef[1])},
+        table={"outdoor_c": np.tile(outdoor, 4), "energy_kwh": np.tile(energy.round(1), 4)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -54,6 +56,8 @@ def leaked_target() -> Demonstration:
             "the answer, so nothing else seems to matter. Such a model cannot be used where the answer is not yet known.",
         ),
         {"r2_honest": honest.r_squared, "r2_leaking": leaking.r_squared, "slope_honest": float(honest.coef[1]), "slope_leaking": float(leaking.coef[1])},
+        table={"outdoor_c": outdoor, "gross_kwh": gross.round(1), "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -87,6 +91,8 @@ def two_row_level() -> Demonstration:
             "whatever those two days happened to be. Merge rare levels or collect more of their rows.",
         ),
         {"se_rare": float(se["reciprocating"]), "se_common": float(se["scroll"])},
+        table={"compressor_type": kinds, "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -108,8 +114,11 @@ def levels_eat_rows() -> Demonstration:
             "",
             f"89 dummies spend 89 of the {rows} rows: the slope's standard error grows {with_many.se[1] / with_few.se[1]:.1f}-fold",
             "and the fit memorises the levels instead of learning the effect. Group the levels or leave the column out.",
+            "(prefit leaves such a text column out by itself; the table checked below names it in --predictors.)",
         ),
         {"se_few": float(with_few.se[1]), "se_many": float(with_many.se[1])},
+        table={"outdoor_c": outdoor.round(1), "technician": np.char.mod("T%02d", many), "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh", "predictors": ["outdoor_c", "technician"]},
     )
 
 
@@ -134,6 +143,8 @@ def site_number_as_predictor() -> Demonstration:
             "column as --id, and the sites' measured properties (area, equipment) as predictors.",
         ),
         {"slope_first": float(first.coef[1]), "slope_renumbered": float(second.coef[1]), "se_first": float(first.se[1])},
+        table={"site_number": numbering[day_site].astype(np.int64), "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -161,6 +172,8 @@ def watt_hours_beside_degrees() -> Demonstration:
             "the disparity. Rescale the column to sensible units (kWh) before fitting.",
         ),
         {"printed_lighting": float(printed[2]), "prediction_miss": miss, "sigma": fit.sigma},
+        table={"outdoor_c": outdoor.round(1), "lighting_mwh": lighting_mwh.round(), "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -185,6 +198,8 @@ def kwh_as_text() -> Demonstration:
             "energy per pallet, and no prediction for a count not seen before. Convert the column to numbers.",
         ),
         {"parameters_number": 2.0, "parameters_text": float(levels), "sigma_number": as_number.sigma, "sigma_text": as_category.sigma},
+        table={"pallets_stored": as_text, "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -195,6 +210,7 @@ def one_setpoint() -> Demonstration:
     outdoor, setpoint = rng.uniform(-5, 35, rows), np.full(rows, -22.0)
     X = np.column_stack([np.ones(rows), outdoor, setpoint])
     rank = int(np.linalg.matrix_rank(X))
+    energy = 7_000 + 110 * outdoor + rng.normal(0, 500, rows)
     return Demonstration(
         (
             f"{rows} invented frozen-store days; setpoint_c is -22 on every row.",
@@ -204,6 +220,8 @@ def one_setpoint() -> Demonstration:
             "cannot be estimated from a table in which it never changes. Leave it out, or add rows where it varies.",
         ),
         {"rank": float(rank), "columns": 3.0},
+        table={"outdoor_c": outdoor.round(1), "setpoint_c": setpoint, "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -231,4 +249,6 @@ def one_infinite_reading() -> Demonstration:
             "software returns NaN or nonsense coefficients without a warning. Correct or remove the value first.",
         ),
         {"gram_finite": float(finite), "slope": float(coef[1])},
+        table={"outdoor_c": outdoor.round(1), "door_openings": doors, "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )

@@ -33,6 +33,8 @@ def dropout_codes() -> Demonstration:
             "of the true effect; declared missing (--missing-codes humidity_pct=-999), the slope is recovered.",
         ),
         {"slope_coded": float(naive.coef[1]), "slope_declared": float(declared.coef[1]), "true_slope": TRUE_SLOPE},
+        table={"humidity_pct": coded, "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -62,6 +64,8 @@ def deleted_rows() -> Demonstration:
             "every deleted row is information lost, even about the columns that had no hole.",
         ),
         {"se_full": float(full.se[1]), "se_complete": float(complete.se[1]), "kept": float(kept.sum())},
+        table={"outdoor_c": outdoor, "humidity_pct": np.where(kept, rng.uniform(40, 95, outdoor.size).round(), np.nan), "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -87,6 +91,8 @@ def holes_by_pattern() -> Demonstration:
             "cooler days than the table as a whole.",
         ),
         {"mean_outdoor_complete": float(outdoor[complete].mean()), "mean_outdoor_holes": float(outdoor[hot_dropout].mean())},
+        table={"outdoor_c": outdoor, "humidity_pct": np.where(complete, rng.uniform(40, 95, outdoor.size).round(), np.nan), "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -118,6 +124,8 @@ def holes_that_follow_energy() -> Demonstration:
             "slope_holes_by_predictor": float(after_predictor.coef[1]),
             "slope_holes_by_response": float(after_response.coef[1]),
         },
+        table={"outdoor_c": outdoor, "humidity_pct": np.where(by_response, np.nan, rng.uniform(40, 95, outdoor.size).round()), "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -140,27 +148,54 @@ def one_column_with_holes() -> Demonstration:
             "Ask whether the column is worth its holes: drop it, impute it from the others, or recover the readings.",
         ),
         {"rows_full": float(outdoor.size), "rows_complete": float(present.sum()), "se_full": float(full.se[1]), "se_complete": float(complete.se[1])},
+        table={
+            "outdoor_c": outdoor,
+            "humidity_pct": np.where(present, (70 + 12 * others[:, 0]).round(), np.nan),
+            "door_openings": (300 + 80 * others[:, 1]).round(),
+            "defrost_cycles": (4 + 1.5 * others[:, 2]).round(1),
+            "pallets_stored": (12_000 + 2_000 * others[:, 3]).round(),
+            "energy_kwh": energy.round(1),
+        },
+        options={"target": "energy_kwh"},
     )
 
 
 def sites_that_stop_reporting() -> Demonstration:
-    """A monotone pattern: sites that stop sending data partway through the extract, and the days the fit keeps."""
+    """A monotone pattern: sites whose gateway fails partway through the extract, one feed after another, and the days the fit keeps."""
     rng = generator(26)
     sites, days = 30, 90
-    stops = np.where(rng.random(sites) < 0.3, rng.integers(20, 70, sites), days)
-    reported = np.arange(days)[None, :] < stops[:, None]
-    hot_late = np.linspace(-2, 30, days)  # the extract runs from winter into summer
-    kept_mean = float(np.mean(np.broadcast_to(hot_late, reported.shape)[reported]))
+    failing = rng.random(sites) < 0.3
+    first_stop = np.where(failing, rng.integers(20, 60, sites), days)  # the humidity feed stops first ...
+    second_stop = np.where(failing, np.minimum(first_stop + rng.integers(5, 20, sites), days), days)  # ... then the door counter
+    day = np.tile(np.arange(days), sites)
+    site = np.repeat(np.arange(sites), days)
+    outdoor = np.linspace(-2, 30, days)[day] + rng.normal(0, 2, day.size)  # the extract runs from winter into summer
+    doors = rng.uniform(100, 500, day.size).round()
+    humidity = rng.uniform(40, 95, day.size).round()
+    energy = 4_000 + 55 * outdoor + 4 * doors + 6 * humidity + rng.normal(0, 300, day.size)
+    no_humidity, no_doors = day >= first_stop[site], day >= second_stop[site]
+    complete = ~no_humidity
     return Demonstration(
         (
-            f"{sites} invented sites x {days} days from winter into summer; {int((stops < days).sum())} sites stop reporting partway.",
+            f"{sites} invented sites x {days} days from winter into summer; at {int(failing.sum())} sites the gateway fails partway:",
+            "first the humidity feed stops, days later the door counter too, and neither comes back.",
             "",
-            f"  site-days in the extract: {sites * days:,}; with data: {int(reported.sum()):,}",
-            f"  mean outdoor temperature of all days {np.mean(hot_late):.1f} C, of the days with data {kept_mean:.1f} C",
+            f"  rows missing humidity_pct only              {int((no_humidity & ~no_doors).sum()):>5,}",
+            f"  rows missing humidity_pct and door_openings {int(no_doors.sum()):>5,}",
+            f"  mean outdoor_c of all days {outdoor.mean():.1f} C, of the complete days {outdoor[complete].mean():.1f} C",
             "",
-            "Holes that, once they start in a row's series, continue to the end (a monotone pattern) usually have one",
-            "cause, here a failed data link; the days with data are then cooler than the extract, so ask what stopped",
-            "the reports before deleting or imputing.",
+            "The sets of missing columns are nested (a monotone pattern), as drop-out produces: holes that, once",
+            "they start in a series, grow and continue to the end usually have one cause, here a failing gateway.",
+            "The complete days are cooler than the extract, so ask what stopped the feeds before deleting or imputing.",
         ),
-        {"mean_all": float(np.mean(hot_late)), "mean_kept": kept_mean, "share_kept": float(reported.mean())},
+        {"mean_all": float(outdoor.mean()), "mean_kept": float(outdoor[complete].mean()), "share_kept": float(complete.mean())},
+        table={
+            "site_id": np.char.mod("CS-%03d", site + 1),
+            "day": np.datetime64("2026-01-05") + day,
+            "outdoor_c": outdoor.round(1),
+            "door_openings": np.where(no_doors, np.nan, doors),
+            "humidity_pct": np.where(no_humidity, np.nan, humidity),
+            "energy_kwh": energy.round(1),
+        },
+        options={"target": "energy_kwh", "id": "site_id", "exclude": ["day"]},
     )

@@ -1,4 +1,4 @@
-"""Outliers: one meter reading entered ten times too large."""
+"""Outliers: a reading ten times too large, floor areas keyed in square feet, and a site unusual only in combination."""
 
 from __future__ import annotations
 
@@ -29,6 +29,8 @@ def tenfold_reading() -> Demonstration:
             f"{bad.se[1] / good.se[1]:.1f}: every interval and test of the model is built on a spread that is not there.",
         ),
         {"sigma_ratio": float(bad.sigma / good.sigma), "se_ratio": float(bad.se[1] / good.se[1]), "r_squared_bad": bad.r_squared, "r_squared_good": good.r_squared},
+        table={"floor_area_m2": area, "energy_kwh": typo.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -59,4 +61,40 @@ def unusual_combination() -> Demonstration:
             "Only the combination is unusual, and it is exactly what separates the two slopes: check such rows first.",
         ),
         {"z_area": float(z[0]), "z_racks": float(z[1]), "distance": distance, "slope_with": float(with_it.coef[1]), "slope_without": float(without.coef[1])},
+        table={"floor_area_m2": area.round(), "rack_volume_m3": racks.round(), "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
+    )
+
+
+SQUARE_FEET_PER_M2 = 10.7639
+
+
+def square_feet_slip() -> Demonstration:
+    """Three sites' floor areas keyed in square feet among areas in square metres: the slope before and after converting them back."""
+    rng = generator(60)
+    rows, slipped = 60, 3
+    area = floor_areas(rng, rows)
+    energy = 900 + 0.3 * area + rng.normal(0, 800, rows)
+    keyed = area.copy()
+    keyed[:slipped] = (area[:slipped] * SQUARE_FEET_PER_M2).round(-1)
+    wrong, right = fit_line(energy, keyed), fit_line(energy, area)
+    median = float(np.median(keyed))
+    spread = 1.4826 * float(np.median(np.abs(keyed - median)))
+    z = np.abs(keyed[:slipped] - median) / spread
+    return Demonstration(
+        (
+            f"{rows} invented sites; {slipped} of them had their floor area keyed in square feet (10.76 times the number",
+            "in square metres) by a new clerk; their energy is what their real size uses.",
+            "",
+            "                              floor_area_m2 slope   std. error   R^2",
+            f"  three areas in square feet  {fmt(wrong.coef[1]):>19}   {fmt(wrong.se[1]):>10}   {wrong.r_squared:.2f}",
+            f"  converted back to m2        {fmt(right.coef[1]):>19}   {fmt(right.se[1]):>10}   {right.r_squared:.2f}",
+            "",
+            f"Each slipped value lies {z.min():.0f} to {z.max():.0f} robust SDs above the median floor area: far beyond any site in",
+            f"the table, and each sits far from the line. The slope falls to {wrong.coef[1] / right.coef[1]:.0%} of the truth and R^2 collapses.",
+            "Check values far out in one column at the source first; a unit slip is a common cause.",
+        ),
+        {"slope_slipped": float(wrong.coef[1]), "slope_right": float(right.coef[1]), "smallest_z": float(z.min())},
+        table={"floor_area_m2": keyed, "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )

@@ -28,9 +28,12 @@ def narrow_setpoint() -> Demonstration:
             "",
             f"The narrow range gives an interval {widths[0] / widths[1]:.0f} times wider. Both estimates are unbiased, but one degree",
             "of setpoint variation holds almost no information about the slope: the narrow estimate can land anywhere in its",
-            "wide interval, and the data cannot say how energy responds to setpoints outside 1.5 to 2.5 C.",
+            "wide interval, and the data cannot say how energy responds to setpoints outside 1.5 to 2.5 C. (The table",
+            "checked below is the chilled one, with --range setpoint_c=-25:5, the range the model is meant for.)",
         ),
         {"width_ratio": float(widths[0] / widths[1]), "narrow_width": float(widths[0]), "wide_width": float(widths[1])},
+        table={"setpoint_c": narrow, "energy_kwh": (8_000 + TRUE_SLOPE * narrow + noise).round(1)},
+        options={"target": "energy_kwh", "ranges": {"setpoint_c": [-25, 5]}},
     )
 
 
@@ -58,6 +61,9 @@ def heat_wave_beyond_the_data() -> Demonstration:
             "visible below 28 C dominates above it. Score only rows inside the observed range, or collect hot days.",
         ),
         {"error_inside": error["inside"], "error_beyond": error["beyond"]},
+        table={"outdoor_c": outdoor.round(1), "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
+        companions={"score": {"outdoor_c": np.concatenate([inside, beyond])}},
     )
 
 
@@ -80,4 +86,6 @@ def mostly_one_value() -> Demonstration:
             f"{lopsided.se[1] / balanced.se[1]:.1f} times that of a balanced column, and one odd day can flip it.",
         ),
         {"se_lopsided": float(lopsided.se[1]), "se_balanced": float(balanced.se[1])},
+        table={"outdoor_c": rng.uniform(-5, 30, rows).round(1), "extra_defrost": rare.astype(np.int64), "energy_kwh": (7_000 + 600 * rare + noise).round(1)},
+        options={"target": "energy_kwh"},
     )

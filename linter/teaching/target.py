@@ -35,6 +35,8 @@ def skewed_energy() -> Demonstration:
             "usual standard errors are wrong; on the log scale the spread is even and slopes read as percentages.",
         ),
         {"spread_ratio_raw": ratios[0], "spread_ratio_log": ratios[1], "skewness": skewness},
+        table={"floor_area_m2": area, "energy_kwh": energy.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -98,6 +100,8 @@ def saturated_meter() -> Demonstration:
             "them as 'at least the limit' and recovers the slope.",
         ),
         {"slope_true": slopes[0], "slope_censored": slopes[1], "slope_dropped": slopes[2], "slope_tobit": slopes[3], "censored_share": share},
+        table={"outdoor_c": outdoor, "energy_kwh": logged.round(1)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -120,6 +124,8 @@ def flat_meter() -> Demonstration:
             "every test statistic is undefined. Check the meter or the export before modelling.",
         ),
         {"slope": float(line.coef[1]), "total_sum_of_squares": total},
+        table={"outdoor_c": outdoor.round(1), "energy_kwh": energy},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -143,6 +149,8 @@ def unread_days() -> Demonstration:
             "only the days that were read; never impute the response just to keep the rows.",
         ),
         {"slope_all": float(full.coef[1]), "slope_read": float(kept.coef[1])},
+        table={"outdoor_c": outdoor.round(1), "energy_kwh": np.where(read, energy.round(1), np.nan)},
+        options={"target": "energy_kwh"},
     )
 
 
@@ -156,12 +164,14 @@ def yes_no_target() -> Demonstration:
     predicted = line.coef[0] + line.coef[1] * np.array([-5.0, 38.0])
     return Demonstration(
         (
-            f"{rows} invented site-days; the target is 1 on a day with a temperature alarm, else 0 ({int(alarm.sum())} alarms).",
+            f"{rows} invented site-days; the target alarm is yes on a day with a temperature alarm ({int(alarm.sum())} alarms), else no.",
             "",
-            f"  least-squares 'probability' of an alarm at -5 C: {predicted[0]:.2f}; at 38 C: {predicted[1]:.2f}",
+            f"  least-squares 'probability' of an alarm (yes = 1) at -5 C: {predicted[0]:.2f}; at 38 C: {predicted[1]:.2f}",
             "",
-            "A straight line through 0/1 values predicts impossible probabilities and has errors whose spread depends",
-            "on the fitted value. Model a yes/no target with logistic regression; a text target needs a coding first.",
+            "Coded 0/1 to force a least-squares fit, the straight line predicts impossible probabilities and has errors",
+            "whose spread depends on the fitted value. Model a yes/no target with logistic regression instead.",
         ),
         {"predicted_cold": float(predicted[0]), "predicted_hot": float(predicted[1])},
+        table={"outdoor_c": outdoor.round(1), "alarm": np.where(alarm == 1, "yes", "no")},
+        options={"target": "alarm"},
     )
