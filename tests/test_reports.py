@@ -512,3 +512,13 @@ def test_a_label_shared_by_several_rows_is_shown_once_with_its_count() -> None:
     assert row_groups(shared, 1) == (["CS-002 (3 rows)"], 6)
     unique = Finding(rule="demo.rows", grade=Grade.NOTE, message="m", rows=(4, 9, 1), row_count=3)
     assert row_groups(unique, 2) == (["4", "9"], 1)
+
+
+def test_report_formats_come_through_the_entry_point_group() -> None:
+    import importlib.metadata
+
+    from prefit.report import formats
+
+    points = {ep.name for ep in importlib.metadata.entry_points(group="prefit.formats")}
+    assert {"text", "json", "sarif", "junit", "markdown", "html"} <= points
+    assert points <= set(formats())
