@@ -23,18 +23,18 @@ from .accepted import (
 from .baseline import BaselineProfile, load_baseline, profile_of, save_profile
 from .causes import find_causes
 from .context import RunContext
-from .engine import RuleOutcome, error_finding, run_rule, select_rules
-from .engines import EngineRun
+from .engines.passes import SCREENED_RULES
+from .engines.scaled import EngineRun
 from .errors import UsageProblem
 from .findings import GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade
 from .options import SETTINGS_BY_KEY, CheckOptions, parse_settings
-from .passes import SCREENED_RULES
 from .preload import imports_ready, warm_imports
 from .progress import RunProgress
 from .reading import ReadOptions, TableInfo, decode_dictionaries, read_table
 from .registry import Registry, discover
 from .roles import apply_missing_codes, distinct_labels, resolve_roles
 from .rule import RuleLike, RuleSettings
+from .runner import RuleOutcome, error_finding, run_rule, select_rules
 from .scoring import check_declared_ranges, read_score_table
 from .stats.blas import one_blas_thread
 from .text import cut_texts, json_inert
@@ -216,13 +216,13 @@ def check_file(
 ) -> Report:
     """Check a table file with the chosen engine (``auto``, ``memory``, ``stream`` or ``dask``).
 
-    ``auto`` streams files larger than :data:`prefit.batches.AUTO_STREAM_BYTES`;
+    ``auto`` streams files larger than :data:`prefit.engines.batches.AUTO_STREAM_BYTES`;
     ``scheduler`` is the address of an existing Dask scheduler (default: a
     local cluster); ``row_budget`` caps the rows the stream and Dask engines
     keep in memory for the rules; ``profile`` has their pass 1 tally every
     column of the whole table for a baseline profile.
     """
-    from .batches import choose_engine
+    from .engines.batches import choose_engine
 
     read = ReadOptions(sep=options.sep, encoding=options.encoding)
     chosen = choose_engine(engine, path)
@@ -246,7 +246,7 @@ def _check_with(
     profile: bool,
 ) -> Report:
     """:func:`check_file` with the engine chosen."""
-    from .engines import StreamRunner, scaled_context
+    from .engines.scaled import StreamRunner, scaled_context
 
     if chosen == "memory" or path == "-":
         table, info = read_table(path, read)
@@ -257,12 +257,12 @@ def _check_with(
     registry = discover()
     selected = select_rules(registry, options)
     if chosen == "stream":
-        from .batches import open_batches
+        from .engines.batches import open_batches
         from .progress import pass_bars
 
         context, run = scaled_context(StreamRunner(open_batches(path, read), pass_bars()), options, row_budget, profile)
     else:
-        from .distributed import DaskRunner
+        from .engines.dask import DaskRunner
         from .progress import pass_bars
 
         with DaskRunner(path, read, scheduler, pass_bars()) as runner:

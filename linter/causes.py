@@ -25,10 +25,10 @@ from typing import Mapping, Sequence
 import numpy as np
 
 from .context import RunContext
-from .engine import RULE_ERROR, run_rule
 from .findings import Finding, Grade
 from .roles import resolve_roles
 from .rule import Repair, RuleLike, RuleSettings
+from .runner import RULE_ERROR, run_rule
 from .stats.blas import one_blas_thread
 
 ROW_OVERLAP = 0.5

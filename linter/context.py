@@ -12,9 +12,9 @@ import pyarrow as pa
 from .baseline import BaselineProfile
 from .comparison import ColumnComparison, ModelComparison, compare_columns, compare_model
 from .design import Design, build_design
+from .engines.passes import IndicatorFactor, TableStatistics, row_labels
 from .findings import MAX_LISTED_ROWS, RowLabel
 from .options import CheckOptions
-from .passes import IndicatorFactor, TableStatistics, row_labels
 from .reading import TableInfo
 from .roles import Kind, Roles, group_labels, numeric_values
 from .rule import top_rows

@@ -26,11 +26,11 @@ from typing import TYPE_CHECKING, Any, Callable, Iterator, Mapping
 
 import numpy as np
 
-from .engine import require_fit
 from .errors import UsageProblem
 from .findings import Finding, Grade
 from .roles import Kind
 from .rule import NotApplicable, RuleLike, RuleSettings
+from .runner import require_fit
 
 if TYPE_CHECKING:
     import pandas as pd

@@ -25,9 +25,9 @@ from nist_strd import load
 from statsmodels.stats.outliers_influence import OLSInfluence
 
 from prefit.api import check_file, options_from
-from prefit.batches import open_batches
-from prefit.engines import KeptRows, StreamRunner, scaled_context, whole_fit
-from prefit.passes import first_pass, merge_all
+from prefit.engines.batches import open_batches
+from prefit.engines.passes import first_pass, merge_all
+from prefit.engines.scaled import KeptRows, StreamRunner, scaled_context, whole_fit
 from prefit.progress import pass_bars
 from prefit.reading import ReadOptions
 from prefit.roles import resolve_roles
@@ -42,7 +42,7 @@ distributed = pytest.importorskip("distributed")
 @pytest.fixture(scope="module")
 def scheduler() -> Iterator[str]:
     """A local Dask cluster: two single-threaded worker processes on 127.0.0.1, its HTTP server on a port the system picks."""
-    from prefit.distributed import LOCAL_HTTP_ADDRESS
+    from prefit.engines.dask import LOCAL_HTTP_ADDRESS
 
     with warnings.catch_warnings():
         # a fixed port taken by another cluster on the machine would show as this warning
@@ -334,7 +334,7 @@ def test_pass_two_measures_every_row_against_the_samples_robust_centre() -> None
     import scipy.spatial.distance
     import scipy.stats
 
-    from prefit.engines import robust_centre
+    from prefit.engines.scaled import robust_centre
 
     path = SAMPLE_TABLES / "warehouse_meter_slip.csv"
     options = run_cli_options(("--target", "energy_kwh"))
@@ -390,7 +390,7 @@ def test_pass_two_fences_every_value_with_the_samples_adjusted_boxplot() -> None
 
 
 def test_dask_passes_show_rows_done_on_a_terminal(scheduler: str) -> None:
-    from prefit.distributed import DaskRunner
+    from prefit.engines.dask import DaskRunner
 
     stream = _Terminal()
     path = SAMPLE_TABLES / "warehouse_holes.parquet"

@@ -13,8 +13,8 @@ import re
 import xml.etree.ElementTree as ET
 from typing import TYPE_CHECKING
 
-from ..engine import RULE_ERROR
 from ..findings import Finding
+from ..runner import RULE_ERROR
 from ..text import inert_message
 from .base import ReportWriter, RunFacts
 

@@ -24,9 +24,13 @@ from typing import TYPE_CHECKING, Any, Callable, Mapping, Protocol, Sequence
 import numpy as np
 import pyarrow as pa
 
+from ..errors import UsageProblem
+from ..options import CheckOptions
+from ..reading import TableInfo
+from ..roles import Kind, apply_missing_codes
+from ..stats.fit import PreliminaryFit
+from ..stats.positions import position_hashes
 from .batches import BATCH_ROWS, BatchSource
-from .errors import UsageProblem
-from .options import CheckOptions
 from .passes import (
     FENCE_CONFIDENCE,
     ColumnFences,
@@ -38,13 +42,9 @@ from .passes import (
     merge_screens,
     second_pass,
 )
-from .reading import TableInfo
-from .roles import Kind, apply_missing_codes
-from .stats.fit import PreliminaryFit
-from .stats.positions import position_hashes
 
 if TYPE_CHECKING:
-    from .context import RunContext
+    from ..context import RunContext
 
 SAMPLE_CELLS = 6_000_000
 ROWS_PER_VARIABLE = 5
@@ -236,7 +236,7 @@ def scaled_context(
     ``tallies`` has pass 1 tally every column even beyond the budget (for a
     baseline profile); the merged statistics are on the context as ``whole_statistics``.
     """
-    from .api import build_context
+    from ..api import build_context
 
     limit = row_budget if row_budget is not None else max(1, SAMPLE_CELLS // max(1, runner.columns()))
     kept = keep_rows(runner, limit)

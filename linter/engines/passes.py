@@ -21,18 +21,18 @@ from typing import Mapping, Protocol, Sequence, TypeVar
 import numpy as np
 import pyarrow as pa
 
-from .design import INTERCEPT, ModelColumns, Term, treatment_term
-from .roles import Kind, Roles, group_labels, label_values
-from .stats.distribution import dkw_rank_error
-from .stats.factor import DesignFactor
-from .stats.fit import PreliminaryFit
-from .stats.grouping import GroupFactors, GroupRows
-from .stats.influence import row_influence
-from .stats.mergeable import Moments, TriangularFactor, triangular
-from .stats.resistant import RESIDUAL_LIMIT, ResistantFit
-from .stats.robust import squared_distances
-from .stats.skewed import FENCE_MULTIPLE, AdjustedFences
-from .stats.summaries import ColumnTally
+from ..design import INTERCEPT, ModelColumns, Term, treatment_term
+from ..roles import Kind, Roles, group_labels, label_values
+from ..stats.distribution import dkw_rank_error
+from ..stats.factor import DesignFactor
+from ..stats.fit import PreliminaryFit
+from ..stats.grouping import GroupFactors, GroupRows
+from ..stats.influence import row_influence
+from ..stats.mergeable import Moments, TriangularFactor, triangular
+from ..stats.resistant import RESIDUAL_LIMIT, ResistantFit
+from ..stats.robust import squared_distances
+from ..stats.skewed import FENCE_MULTIPLE, AdjustedFences
+from ..stats.summaries import ColumnTally
 
 TOP_ROWS = 20
 SCREENED_RULES = {
