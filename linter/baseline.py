@@ -360,7 +360,7 @@ def load_baseline(path: str, options: "CheckOptions") -> BaselineProfile:
 
 def profile_table(path: str, options: "CheckOptions") -> BaselineProfile:
     """Profile a baseline table now, read and resolved with the same options as the checked table."""
-    from .api import build_context
+    from .pipeline import build_context
 
     try:
         table, info = read_table(path, ReadOptions(sep=options.sep, encoding=options.encoding))

@@ -26,9 +26,10 @@ import numpy as np
 
 from .context import RunContext
 from .findings import Finding, Grade
+from .outcome import RULE_ERROR
 from .roles import resolve_roles
 from .rule import Repair, RuleLike, RuleSettings
-from .runner import RULE_ERROR, run_rule
+from .runner import run_rule
 from .stats.blas import one_blas_thread
 
 ROW_OVERLAP = 0.5
@@ -158,14 +159,3 @@ def find_causes(
     roots = [i for i, f in enumerate(findings) if not explained_by[i] and f.grade >= Grade.WEAKENS and f.rule != RULE_ERROR]
     ranked = sorted(roots, key=lambda i: (*(-v for v in _damage(findings, i, explained_by)), i))
     return Causes(explained_by, tuple(ranked))
-
-
-def root_of(position: int, explained_by: Sequence[Sequence[int]]) -> int:
-    """The root a finding folds under: follow its first cause until a finding without causes (or a loop)."""
-    seen = {position}
-    while explained_by[position]:
-        position = explained_by[position][0]
-        if position in seen:
-            break
-        seen.add(position)
-    return position

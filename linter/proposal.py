@@ -19,6 +19,9 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from .errors import UsageProblem
+from .options import options_from
+from .pipeline import run_check
+from .reading import ReadOptions, read_table
 from .roles import Kind, infer_kind, target_candidates
 
 _BARE_KEY = re.compile(r"^[A-Za-z0-9_-]+$")
@@ -84,9 +87,6 @@ def propose_config(path: str, target: str | None = None, sep: str | None = None,
     sep, encoding : str, optional
         How to read a text table, as for ``prefit check``.
     """
-    from .api import options_from, run_check
-    from .reading import ReadOptions, read_table
-
     table, info = read_table(path, ReadOptions(sep=sep, encoding=encoding or "utf-8"))
     guessed = target is None
     if target is None:

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import traceback
 from contextlib import nullcontext
-from dataclasses import dataclass
 from typing import Iterable, Mapping
 
 import numpy as np
@@ -13,20 +12,9 @@ from .context import RunContext
 from .errors import UsageProblem, closest_names
 from .findings import Finding, Grade
 from .options import CheckOptions
+from .outcome import RULE_ERROR, RuleOutcome
 from .registry import Registry
 from .rule import NotApplicable, RuleLike, RuleSettings, rule_family
-
-RULE_ERROR = "engine.rule-error"
-
-
-@dataclass(frozen=True)
-class RuleOutcome:
-    """What one rule did: its findings, the error that stopped it, or why it did not apply."""
-
-    rule: str
-    findings: tuple[Finding, ...]
-    error: str | None = None
-    not_applicable: str | None = None
 
 
 def select_rules(registry: Registry, options: CheckOptions) -> list[tuple[RuleLike, RuleSettings]]:

@@ -187,7 +187,7 @@ def _well_formed(rule: RuleLike, finding: object, case: str) -> None:
 
 def _contexts(case: AwkwardTable) -> Iterator["RunContext"]:
     """Fresh contexts of one case, built the way the engine builds them; none when the engine rejects the table."""
-    from .api import context_for
+    from .pipeline import context_for
 
     options = dict(case.options)
     target = options.pop("target")

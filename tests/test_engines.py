@@ -26,11 +26,13 @@ from statsmodels.stats.outliers_influence import OLSInfluence
 
 from prefit.api import check_file, options_from
 from prefit.engines.batches import open_batches
-from prefit.engines.passes import first_pass, merge_all
-from prefit.engines.scaled import KeptRows, StreamRunner, scaled_context, whole_fit
+from prefit.engines.passes import first_pass
+from prefit.engines.scaled import KeptRows, scaled_context, whole_fit
+from prefit.engines.stream import StreamRunner
 from prefit.progress import pass_bars
 from prefit.reading import ReadOptions
 from prefit.roles import resolve_roles
+from prefit.stats.batched import merge_all
 
 sys.path.insert(0, str(SAMPLE_TABLES))
 generate = importlib.import_module("generate")

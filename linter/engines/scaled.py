@@ -18,7 +18,7 @@ per batch or partition and merge their results:
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Callable, Mapping, Protocol, Sequence
 
 import numpy as np
@@ -26,22 +26,15 @@ import pyarrow as pa
 
 from ..errors import UsageProblem
 from ..options import CheckOptions
+from ..outcome import EngineRun
 from ..reading import TableInfo
 from ..roles import Kind, apply_missing_codes
+from ..stats.batched import TableStatistics, merge_all
 from ..stats.fit import PreliminaryFit
 from ..stats.positions import position_hashes
-from .batches import BATCH_ROWS, BatchSource
-from .passes import (
-    FENCE_CONFIDENCE,
-    ColumnFences,
-    MeasureScreen,
-    RobustCentre,
-    TableStatistics,
-    first_pass,
-    merge_all,
-    merge_screens,
-    second_pass,
-)
+from ..stats.screens import ColumnFences, MeasureScreen, RobustCentre
+from .batches import BATCH_ROWS
+from .passes import first_pass, merge_screens, second_pass
 
 if TYPE_CHECKING:
     from ..context import RunContext
@@ -114,100 +107,6 @@ class PassRunner(Protocol):
     def columns(self) -> int: ...
 
 
-@dataclass
-class StreamRunner:
-    """Batches read one at a time from the file, in order, with a progress bar per pass on a terminal."""
-
-    source: BatchSource
-    progress: Callable[[str, int | None], Any] | None = None
-    name: str = "stream"
-    reads_in_process: bool = True
-
-    def map_merge(self, task: Callable[[pa.Table, int], Any], merge: Callable[[Sequence[Any]], Any], label: str) -> Any:
-        results: list[Any] = []
-        offset = 0
-        bar = self.progress(label, self.source.rows) if self.progress is not None else None
-        try:
-            for batch in self.source.batches():
-                results.append(task(batch, offset))
-                offset += batch.num_rows
-                if bar is not None:
-                    bar.advance(batch.num_rows)
-                # Merge as we go so that memory holds two results, not one per batch.
-                if len(results) == 2:
-                    results = [merge(results)]
-        finally:
-            if bar is not None:
-                bar.finish()
-        if not results:
-            raise UsageProblem(self.source.path, "has a header but no data rows", "give a table with at least one data row")
-        return merge(results)
-
-    def info(self, rows: int, columns: int) -> TableInfo:
-        return self.source.info(rows, columns)
-
-    def columns(self) -> int:
-        return len(self.source.schema())
-
-
-@dataclass(frozen=True)
-class EngineRun:
-    """What the engine did, for the report: its name, and the sample the rules ran on when the table was beyond the row budget."""
-
-    name: str
-    table_rows: int
-    rules_rows: int
-    complete_rows: int | None = None
-    screens: tuple[MeasureScreen, ...] = field(default=(), repr=False)
-    on_sample: tuple[str, ...] = ()
-    screened: tuple[str, ...] = ()
-    fences: ColumnFences | None = field(default=None, repr=False)
-
-    @property
-    def sampled(self) -> bool:
-        """Whether the rules saw a sample rather than every row."""
-        return self.rules_rows < self.table_rows
-
-    def sentence(self) -> str | None:
-        """What the rules saw, in words, when it was a sample; None when they saw every row."""
-        if not self.sampled:
-            return None
-        text = (
-            f"the rules ran on a sample of {self.rules_rows:,} of {self.table_rows:,} rows "
-            f"({self.name} engine; rows chosen by a seeded hash of their position; raise --row-budget to see more)"
-        )
-        beyond = [f"{c.beyond:,} beyond {s.measure.replace('_', ' ')} {c.name}" for s in self.screens if s.column is None for c in s.cutoffs[-1:]]
-        if beyond:
-            text += f"; all {self.complete_rows:,} complete rows were screened against the whole table's fit: " + ", ".join(beyond)
-        fenced = [s for s in self.screens if s.measure == "fence_score"]
-        if fenced and self.fences is not None:
-            values = sum(s.cutoffs[-1].beyond for s in fenced)
-            worst = max(self.fences.rank_error(s.column) for s in fenced if s.column is not None)
-            text += (
-                f"; every value of {len(fenced)} numeric column{'' if len(fenced) == 1 else 's'} was screened against the sample's adjusted boxplot: "
-                f"{values:,} beyond its fences (the sample's quartiles are within {worst:.2g} in rank of the whole "
-                f"table's with probability {FENCE_CONFIDENCE:g}, Dvoretzky-Kiefer-Wolfowitz)"
-            )
-        return text
-
-    def to_dict(self) -> dict[str, Any]:
-        """Plain JSON types."""
-        out: dict[str, Any] = {"name": self.name, "rules_ran_on_rows": self.rules_rows, "table_rows": self.table_rows}
-        if self.sampled:
-            out["sample"] = {
-                "rows": self.rules_rows,
-                "of": self.table_rows,
-                "how": "rows with the smallest seeded hash of their position (uniform, the same for any batching)",
-            }
-            out["complete_rows"] = self.complete_rows
-            out["rules_on_sample"] = list(self.on_sample)
-            out["rules_with_every_row_screened"] = list(self.screened)
-            out["row_screens"] = {s.key: s.to_dict() for s in self.screens}
-            if self.fences is not None:
-                out["fences"] = self.fences.to_dict()
-        return out
-
-
 def conformed(batch: pa.Table, schema: pa.Schema, codes: Any) -> pa.Table:
     """A batch with the declared missing codes applied and each column cast to the kept rows' type."""
     batch, _ = apply_missing_codes(batch, codes)
@@ -236,7 +135,7 @@ def scaled_context(
     ``tallies`` has pass 1 tally every column even beyond the budget (for a
     baseline profile); the merged statistics are on the context as ``whole_statistics``.
     """
-    from ..api import build_context
+    from ..pipeline import build_context
 
     limit = row_budget if row_budget is not None else max(1, SAMPLE_CELLS // max(1, runner.columns()))
     kept = keep_rows(runner, limit)

@@ -16,7 +16,7 @@ from ..errors import PluginProblem, UsageProblem
 from .base import ReportWriter, RunFacts, WriterSettings, drive
 
 if TYPE_CHECKING:
-    from ..api import Report
+    from ..outcome import Report
 
 WriterFactory = Callable[[WriterSettings], ReportWriter]
 

@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING, Mapping, Sequence
 from ..findings import Finding
 
 if TYPE_CHECKING:
-    from ..api import Report
+    from ..outcome import Report
     from ..rule import RuleLike
 
 
@@ -135,8 +135,6 @@ def folded(report: "Report") -> list[tuple[Finding, list[Finding]]]:
     A finding explained by others folds under the root its first cause leads
     to; one whose causes are not in the report (accepted) stands as a root.
     """
-    from ..causes import root_of
-
     findings = report.findings
     position = {f.key: i for i, f in enumerate(findings) if f.key}
     causes = [tuple(position[k] for k in f.explained_by if k in position) for f in findings]
@@ -157,3 +155,14 @@ def fix_first(report: "Report") -> list[tuple[Finding, int]]:
     """The roots to fix first (most damaging first), each with the number of findings folded under it."""
     by_key = {root.key: (root, len(effects)) for root, effects in folded(report)}
     return [by_key[key] for key in report.fix_first if key in by_key]
+
+
+def root_of(position: int, explained_by: Sequence[Sequence[int]]) -> int:
+    """The root a finding folds under: follow its first cause until a finding without causes (or a loop)."""
+    seen = {position}
+    while explained_by[position]:
+        position = explained_by[position][0]
+        if position in seen:
+            break
+        seen.add(position)
+    return position

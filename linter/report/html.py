@@ -17,7 +17,7 @@ from ..text import inert_message
 from .base import ReportWriter, RunFacts, fix_first, folded, groups_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
-    from ..api import Report
+    from ..outcome import Report
     from ..rule import RuleLike
     from .plots import Plot
 

@@ -28,8 +28,8 @@ from ..text import inert
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
 
-    from ..api import Report
     from ..context import RunContext
+    from ..outcome import Report
 
 COOK_CONTOURS = (0.5, 1.0)
 """Cook's distance contours drawn when no installed rule declares Cook's distance thresholds (common practice)."""

@@ -27,7 +27,7 @@ from ..text import cut_texts, inert, inert_message, json_inert
 from .base import ReportWriter, RunFacts
 
 if TYPE_CHECKING:
-    from ..api import Report
+    from ..outcome import Report
     from ..rule import RuleLike
 
 SARIF_VERSION = "2.1.0"

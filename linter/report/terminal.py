@@ -24,7 +24,7 @@ from ..text import inert
 from .base import ReportWriter, RunFacts, baseline_sentence, fix_first, folded, groups_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
-    from ..api import Report
+    from ..outcome import Report
 
 THEME = Theme(
     {
