@@ -7,6 +7,8 @@ import math
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping, Sequence
 
+from .text import inert, inert_message
+
 JSONScalar = str | int | float | bool | None
 RowLabel = str | int
 
@@ -126,8 +128,6 @@ class Finding:
 
         See :mod:`prefit.text`; the measured numbers and ``details`` are unchanged.
         """
-        from .text import inert, inert_message
-
         return replace(
             self,
             message=inert_message(self.message),

@@ -11,11 +11,11 @@ import numpy as np
 import pyarrow as pa
 
 from .accepted import fingerprints
-from .baseline import load_baseline
 from .causes import find_causes
 from .context import RunContext
 from .engines.batches import choose_engine, open_batches
 from .engines.dask import DaskRunner
+from .engines.memory import build_context, memory_context
 from .engines.passes import SCREENED_RULES
 from .engines.scaled import scaled_context
 from .engines.stream import StreamRunner
@@ -27,26 +27,15 @@ from .preload import imports_ready, warm_imports
 from .progress import RunProgress, pass_bars
 from .reading import ReadOptions, TableInfo, decode_dictionaries, read_table
 from .registry import Registry, discover
-from .roles import apply_missing_codes, distinct_labels, resolve_roles
+from .roles import distinct_labels
 from .rule import RuleLike, RuleSettings
 from .runner import error_finding, run_rule, select_rules
-from .scoring import check_declared_ranges, read_score_table
 from .stats.blas import one_blas_thread
 
 if TYPE_CHECKING:
     import pandas as pd
 
 RULE_THREADS = 2
-
-
-def build_context(table: pa.Table, info: TableInfo, options: CheckOptions) -> RunContext:
-    """Apply declared missing codes, resolve roles and ranges, read any scoring table: the context rules read."""
-    table, replaced = apply_missing_codes(table, options.missing_codes)
-    roles = resolve_roles(table, options)
-    check_declared_ranges(roles, options.ranges)
-    score = read_score_table(options, roles)
-    baseline = load_baseline(options.baseline, options) if options.baseline is not None else None
-    return RunContext(table=table, info=info, roles=roles, options=options, replaced_codes=replaced, score=score, baseline=baseline)
 
 
 def context_for(table: "pa.Table | pd.DataFrame", target: str, **options: Any) -> RunContext:
@@ -69,8 +58,8 @@ def run_check(
     """
     registry = registry if registry is not None else discover()
     selected = select_rules(registry, options)
-    context = build_context(table, info, options)
-    return report_for(context, registry, selected, EngineRun("memory", info.rows, info.rows), debug, progress)
+    context, run = memory_context(table, info, options)
+    return report_for(context, registry, selected, run, debug, progress)
 
 
 def check_file(

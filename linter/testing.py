@@ -28,6 +28,7 @@ import numpy as np
 
 from .errors import UsageProblem
 from .findings import Finding, Grade
+from .pipeline import context_for
 from .roles import Kind
 from .rule import NotApplicable, RuleLike, RuleSettings
 from .runner import require_fit
@@ -187,8 +188,6 @@ def _well_formed(rule: RuleLike, finding: object, case: str) -> None:
 
 def _contexts(case: AwkwardTable) -> Iterator["RunContext"]:
     """Fresh contexts of one case, built the way the engine builds them; none when the engine rejects the table."""
-    from .pipeline import context_for
-
     options = dict(case.options)
     target = options.pop("target")
     while True:

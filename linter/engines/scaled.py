@@ -19,11 +19,12 @@ per batch or partition and merge their results:
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Callable, Mapping, Protocol, Sequence
+from typing import Any, Callable, Mapping, Protocol, Sequence
 
 import numpy as np
 import pyarrow as pa
 
+from ..context import RunContext
 from ..errors import UsageProblem
 from ..options import CheckOptions
 from ..outcome import EngineRun
@@ -34,10 +35,8 @@ from ..stats.fit import PreliminaryFit
 from ..stats.positions import position_hashes
 from ..stats.screens import ColumnFences, MeasureScreen, RobustCentre
 from .batches import BATCH_ROWS
+from .memory import build_context
 from .passes import first_pass, merge_screens, second_pass
-
-if TYPE_CHECKING:
-    from ..context import RunContext
 
 SAMPLE_CELLS = 6_000_000
 ROWS_PER_VARIABLE = 5
@@ -135,8 +134,6 @@ def scaled_context(
     ``tallies`` has pass 1 tally every column even beyond the budget (for a
     baseline profile); the merged statistics are on the context as ``whole_statistics``.
     """
-    from ..pipeline import build_context
-
     limit = row_budget if row_budget is not None else max(1, SAMPLE_CELLS // max(1, runner.columns()))
     kept = keep_rows(runner, limit)
     info = runner.info(kept.seen, kept.table.num_columns)

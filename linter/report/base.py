@@ -10,6 +10,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Mapping, Sequence
 
+from .. import __version__
 from ..findings import Finding
 
 if TYPE_CHECKING:
@@ -36,8 +37,6 @@ class RunFacts:
     @classmethod
     def of(cls, reports: Sequence["Report"]) -> "RunFacts":
         """The facts of a run over ``reports``: every rule any of them knew, in id order."""
-        from .. import __version__
-
         known: dict[str, "RuleLike"] = {}
         for report in reports:
             for rule in report.rules:

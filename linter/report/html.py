@@ -12,7 +12,7 @@ import html
 from typing import TYPE_CHECKING, Any
 
 from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade, counted
-from ..rule import capped_names, fmt
+from ..rule import capped_names, default_grades, fmt
 from ..text import inert_message
 from .base import ReportWriter, RunFacts, fix_first, folded, groups_sentence, labels_not_unique, row_groups
 
@@ -145,8 +145,6 @@ def rule_entry(rule: "RuleLike", anchor: str) -> str:
     The same entry makes up the catalogue page (``prefit rules --format html``) and a report's appendix of the
     rules its findings came from, so a report stays one self-contained page.
     """
-    from ..rule import default_grades
-
     limits = "".join(f"<tr><td>{esc(t.name)}</td><td>{esc(t.describe())}</td><td>{esc(t.source)}</td></tr>" for t in rule.thresholds)
     table = f"<table><thead><tr><th>threshold</th><th>rule</th><th>source</th></tr></thead><tbody>{limits}</tbody></table>" if limits else ""
     grades = ", ".join(g.word for g in default_grades(rule)) or "-"
