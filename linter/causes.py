@@ -129,12 +129,12 @@ def find_causes(
     bend does not make a few rows wrong), then the stronger, then the earlier.
     """
     rules = {rule.id: (rule, settings) for rule, settings in selected}
-    rechecked = {rule_id for rule_id, (rule, _) in rules.items() if getattr(rule, "recheck", True) and rule_id != RULE_ERROR}
+    rechecked = {rule_id for rule_id, (rule, _) in rules.items() if rule.recheck and rule_id != RULE_ERROR}
     causes: list[set[int]] = [set() for _ in findings]
     size: dict[int, int] = {}
     for i, root in enumerate(findings):
         chosen = rules.get(root.rule)
-        hook = getattr(chosen[0], "repair", None) if chosen is not None else None
+        hook = chosen[0].repair if chosen is not None else None
         if hook is None or root.grade < Grade.WEAKENS:
             continue
         try:

@@ -16,7 +16,6 @@ from .context import RunContext
 from .engines.batches import choose_engine, open_batches
 from .engines.dask import DaskRunner
 from .engines.memory import build_context, memory_context
-from .engines.passes import SCREENED_RULES
 from .engines.scaled import scaled_context
 from .engines.stream import StreamRunner
 from .errors import UsageProblem
@@ -111,10 +110,10 @@ def _check_with(
     registry = discover()
     selected = select_rules(registry, options)
     if chosen == "stream":
-        context, run = scaled_context(StreamRunner(open_batches(path, read), pass_bars()), options, row_budget, profile)
+        context, run = scaled_context(StreamRunner(open_batches(path, read), pass_bars()), options, row_budget, profile, selected)
     else:
         with DaskRunner(path, read, scheduler, pass_bars()) as runner:
-            context, run = scaled_context(runner, options, row_budget, profile)
+            context, run = scaled_context(runner, options, row_budget, profile, selected)
     return report_for(context, registry, selected, run, debug, progress)
 
 
@@ -149,9 +148,7 @@ def report_for(
             progress.finish()
     findings = [f for o in outcomes for f in o.findings] + [error_finding(o) for o in outcomes if o.error]
     if engine.sampled:
-        measured = {SCREENED_RULES[screen.measure] for screen in engine.screens}
-        screened = tuple(rule.id for rule, _ in selected if rule.id in measured)
-        engine = replace(engine, on_sample=tuple(o.rule for o in outcomes), screened=screened)
+        engine = replace(engine, on_sample=tuple(o.rule for o in outcomes))
     design = context.design
     ordered = sorted(findings, key=Finding.sort_key)
     prints = fingerprints(ordered, context)
@@ -210,7 +207,7 @@ def group_description(context: RunContext) -> dict[str, Any] | None:
 
 def heavy_first(selected: Sequence[tuple[RuleLike, RuleSettings]]) -> list[tuple[RuleLike, RuleSettings]]:
     """The rules in the order they start: heavy rules first, each group in report order (a stable sort)."""
-    return sorted(selected, key=lambda chosen: not getattr(chosen[0], "heavy", False))
+    return sorted(selected, key=lambda chosen: not chosen[0].heavy)
 
 
 def _shared_core(context: RunContext) -> None:

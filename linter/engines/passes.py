@@ -15,31 +15,26 @@ those of the whole table.
 
 from __future__ import annotations
 
-from typing import Sequence
+from typing import Mapping, Sequence
 
 import numpy as np
 import pyarrow as pa
 
 from ..design import ModelColumns, Term
 from ..roles import Roles, group_labels, row_labels
+from ..rule import SCREEN_MEASURES, Cutoffs
 from ..stats.batched import IndicatorFactor, TableStatistics
 from ..stats.fit import PreliminaryFit
 from ..stats.influence import row_influence
-from ..stats.resistant import RESIDUAL_LIMIT, ResistantFit
+from ..stats.resistant import ResistantFit
 from ..stats.robust import squared_distances
 from ..stats.screens import TOP_ROWS, ColumnFences, Cutoff, MeasureScreen, RobustCentre
 from ..stats.summaries import ColumnTally
 
-SCREENED_RULES = {
-    "leverage": "influence.leverage",
-    "studentized_residual": "outliers.studentized-residual",
-    "cooks_distance": "influence.cooks-distance",
-    "dffits": "influence.dffits",
-    "dfbetas": "influence.dfbetas",
-    "robust_distance": "outliers.multivariate",
-    "fence_score": "outliers.univariate",
-    "robust_residual": "influence.robust-distortion",
-}
+INFLUENCE_MEASURES = ("leverage", "studentized_residual", "cooks_distance", "dffits", "dfbetas")
+"""The deletion measures of :func:`prefit.stats.influence.row_influence`, computed together."""
+FIT_MEASURES = (*INFLUENCE_MEASURES, "robust_distance", "robust_residual")
+"""The measures taken over complete rows against the whole table's fit."""
 
 
 def first_pass(batch: pa.Table, roles: Roles, intercept: bool, tallies: bool = True) -> TableStatistics:
@@ -53,22 +48,6 @@ def first_pass(batch: pa.Table, roles: Roles, intercept: bool, tallies: bool = T
     return TableStatistics(batch.num_rows, counts, IndicatorFactor.of(ModelColumns.of(batch, roles), roles, intercept, labels))
 
 
-def row_screens(fit: PreliminaryFit) -> dict[str, tuple[tuple[str, float], ...]]:
-    """The cutoffs pass 2 counts, per measure (the influence and outlier rules' default thresholds)."""
-    import scipy.stats
-
-    n, k = fit.n, fit.rank
-    dof = fit.df_resid - 1
-    bonferroni = float(scipy.stats.t.isf(0.05 / (2 * n), dof)) if dof > 0 else float("inf")
-    return {
-        "leverage": (("2p/n", 2 * k / n), ("3p/n", 3 * k / n)),
-        "studentized_residual": (("3", 3.0), ("bonferroni 0.05", bonferroni)),
-        "cooks_distance": (("4/n", 4 / n), ("median F(p, n-p)", float(scipy.stats.f.median(k, n - k)) if n > k else float("inf"))),
-        "dffits": (("2 sqrt(p/n)", float(2 * np.sqrt(k / n))),),
-        "dfbetas": (("2/sqrt(n)", float(2 / np.sqrt(n))), ("1", 1.0)),
-    }
-
-
 def second_pass(
     batch: pa.Table,
     offset: int,
@@ -78,6 +57,7 @@ def second_pass(
     robust: RobustCentre | None = None,
     fences: ColumnFences | None = None,
     resistant: tuple[ResistantFit, Sequence[Term]] | None = None,
+    cutoffs: Mapping[str, Cutoffs] | None = None,
 ) -> tuple[MeasureScreen, ...]:
     """Pass 2 over one batch: every complete row's hat value and deletion measures against the whole-table fit.
 
@@ -88,38 +68,39 @@ def second_pass(
     score against the sample's adjusted boxplot; with ``resistant`` (the
     sample's high-breakdown fit and the terms of the sample's design, whose
     reference levels may differ from the whole table's), each complete row's
-    standardized robust residual.
+    standardized robust residual. ``cutoffs`` are the counted cutoffs of each
+    measure that a selected rule screens (:attr:`prefit.rule.RuleLike.screen`):
+    only those measures are screened, in the order of :data:`prefit.rule.SCREEN_MEASURES`.
     """
+    cutoffs = cutoffs or {}
     columns = ModelColumns.of(batch, roles)
     screens: list[MeasureScreen] = []
-    if fit is not None:
+    if fit is not None and any(m in cutoffs for m in FIT_MEASURES):
         dummies = {t.source: t.levels for t in terms if t.reference is not None}
         X, y, positions = columns.coded(roles, fit.has_intercept, dummies)
-        influence = row_influence(fit, X, y)
-        measured = {
-            "leverage": influence.hat,
-            "studentized_residual": np.abs(influence.studentized),
-            "cooks_distance": influence.cooks,
-            "dffits": np.abs(influence.dffits),
-            "dfbetas": influence.dfbetas_largest,
-        }
-        all_cutoffs = dict(row_screens(fit))
-        if robust is not None:
+        measured: dict[str, np.ndarray] = {}
+        if any(m in cutoffs for m in INFLUENCE_MEASURES):
+            influence = row_influence(fit, X, y)
+            measured.update({
+                "leverage": influence.hat,
+                "studentized_residual": np.abs(influence.studentized),
+                "cooks_distance": influence.cooks,
+                "dffits": np.abs(influence.dffits),
+                "dfbetas": influence.dfbetas_largest,
+            })
+        if robust is not None and "robust_distance" in cutoffs:
             data = np.column_stack([columns.numeric[name][positions] for name in robust.columns])
             measured["robust_distance"] = squared_distances(data, robust.location, robust.scatter)
-            all_cutoffs["robust_distance"] = robust.cutoffs()
-        if resistant is not None:
+        if resistant is not None and "robust_residual" in cutoffs:
             line, line_terms = resistant
             line_X, line_y, _ = columns.coded(roles, fit.has_intercept, {t.source: t.levels for t in line_terms if t.reference is not None})
             measured["robust_residual"] = np.abs(line.standardized(line_X, line_y))
-            all_cutoffs["robust_residual"] = ((f"{RESIDUAL_LIMIT:g}", RESIDUAL_LIMIT),)
-        screens = [_screen(batch, offset, roles, measure, cutoffs, measured[measure], positions) for measure, cutoffs in all_cutoffs.items()]
-    if fences is not None:
-        cutoff = ((f"{fences.limit:g} IQR", fences.limit),)
+        screens = [_screen(batch, offset, roles, measure, cutoffs[measure], measured[measure], positions) for measure in SCREEN_MEASURES if measure in measured and measure in cutoffs]
+    if fences is not None and "fence_score" in cutoffs:
         for name, fence in zip(fences.columns, fences.fences):
             values = columns.y if name == roles.target else columns.numeric[name]
             present = np.flatnonzero(np.isfinite(values))
-            screens.append(_screen(batch, offset, roles, "fence_score", cutoff, fence.scores(values[present]), present, name))
+            screens.append(_screen(batch, offset, roles, "fence_score", cutoffs["fence_score"], fence.scores(values[present]), present, name))
     return tuple(screens)
 
 

@@ -30,6 +30,7 @@ from ..options import CheckOptions
 from ..outcome import EngineRun
 from ..reading import TableInfo
 from ..roles import Kind, apply_missing_codes
+from ..rule import SCREEN_MEASURES, Cutoffs, RuleLike, RuleSettings, ScreenScale
 from ..stats.batched import TableStatistics, merge_all
 from ..stats.fit import PreliminaryFit
 from ..stats.positions import position_hashes
@@ -123,7 +124,11 @@ def keep_rows(runner: PassRunner, limit: int) -> KeptRows:
 
 
 def scaled_context(
-    runner: PassRunner, options: CheckOptions, row_budget: int | None = None, tallies: bool = False
+    runner: PassRunner,
+    options: CheckOptions,
+    row_budget: int | None = None,
+    tallies: bool = False,
+    selected: Sequence[tuple[RuleLike, RuleSettings]] = (),
 ) -> tuple[RunContext, EngineRun]:
     """Run the passes of the stream or Dask engine and build the context the rules read.
 
@@ -133,6 +138,8 @@ def scaled_context(
     sample and pass 2 screens every row against the whole table's fit.
     ``tallies`` has pass 1 tally every column even beyond the budget (for a
     baseline profile); the merged statistics are on the context as ``whole_statistics``.
+    Pass 2 screens the measures the ``selected`` rules declare
+    (:attr:`prefit.rule.RuleLike.screen`), at the cutoffs their configured thresholds give.
     """
     limit = row_budget if row_budget is not None else max(1, SAMPLE_CELLS // max(1, runner.columns()))
     kept = keep_rows(runner, limit)
@@ -157,21 +164,35 @@ def scaled_context(
     context.file_positions = kept.positions
     context.table_model = statistics.model
     screens: tuple[MeasureScreen, ...] = ()
+    declared = [(rule, settings, rule.screen) for rule, settings in selected if rule.screen is not None]
+    wanted = {screen.measure for _, _, screen in declared}
     fit = whole_fit(statistics, roles.kinds, intercept) if context.target_is_numeric else None
     if fit is not None and not (fit.rank > 0 and fit.df_resid > 1):
         fit = None
     terms = statistics.model.terms(roles.kinds) if fit is not None else ()
-    robust = robust_centre(context) if fit is not None else None
-    line = context.resistant if fit is not None and robust is not None else None
+    robust = robust_centre(context) if fit is not None and "robust_distance" in wanted else None
+    line = context.resistant if fit is not None and robust is not None and "robust_residual" in wanted else None
     resistant = (line, context.design.terms) if line is not None else None
-    fences = column_fences(context)
+    fences = column_fences(context) if "fence_score" in wanted else None
+    if fit is not None:
+        scale = ScreenScale(fit.n, fit.rank, fit.df_resid, len(robust.columns) if robust is not None else 0)
+    else:
+        scale = ScreenScale(statistics.model.rows, 0, 0)
+    measurable = {"fence_score"} if fit is None else set(SCREEN_MEASURES)
+    cutoffs: dict[str, Cutoffs] = {}
+    for _, settings, screen in declared:
+        if screen.measure in measurable:
+            counted = tuple((name, float(value)) for name, value in screen.cutoffs(scale, settings))
+            cutoffs[screen.measure] = cutoffs.get(screen.measure, ()) + counted
     if fit is not None or fences is not None:
 
         def pass_two(batch: pa.Table, offset: int) -> tuple[MeasureScreen, ...]:
-            return second_pass(conformed(batch, schema, codes), offset, roles, terms, fit, robust, fences, resistant)
+            return second_pass(conformed(batch, schema, codes), offset, roles, terms, fit, robust, fences, resistant, cutoffs)
 
         screens = runner.map_merge(pass_two, merge_screens, "pass 2")
-    return context, EngineRun(runner.name, kept.seen, kept.table.num_rows, statistics.model.rows, screens, fences=fences)
+    measured = {screen.measure for screen in screens}
+    screened = tuple(rule.id for rule, _, screen in declared if screen.measure in measured)
+    return context, EngineRun(runner.name, kept.seen, kept.table.num_rows, statistics.model.rows, screens, screened=screened, fences=fences)
 
 
 def column_fences(context: RunContext) -> ColumnFences | None:

@@ -67,7 +67,7 @@ def _descriptor(rule: "RuleLike") -> dict[str, Any]:
         "fullDescription": {"text": rule.why},
         "help": {"text": f"{rule.why}\n\nRemedy: {rule.remedy}", "markdown": f"{rule.why}\n\n**Remedy:** {rule.remedy}"},
         "defaultConfiguration": {"level": level},
-        "properties": {"family": rule.id.split(".", 1)[0], "grades": [g.word for g in grades], "thresholds": thresholds},
+        "properties": {"family": rule.family, "grades": [g.word for g in grades], "thresholds": thresholds},
     }
 
 

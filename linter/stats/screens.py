@@ -11,10 +11,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .distribution import dkw_rank_error
-from .skewed import FENCE_MULTIPLE, AdjustedFences
+from .skewed import AdjustedFences
 
 TOP_ROWS = 20
-ROBUST_QUANTILE = 0.975
 FENCE_CONFIDENCE = 0.99
 
 
@@ -72,12 +71,6 @@ class RobustCentre:
     location: np.ndarray
     scatter: np.ndarray
 
-    def cutoffs(self) -> tuple[tuple[str, float], ...]:
-        """The chi-square 0.975 quantile of the squared distance (Rousseeuw & van Zomeren 1990)."""
-        import scipy.stats
-
-        return (("chi-square 0.975", float(scipy.stats.chi2.ppf(ROBUST_QUANTILE, len(self.columns)))),)
-
 
 @dataclass(frozen=True)
 class ColumnFences:
@@ -100,7 +93,6 @@ class ColumnFences:
     columns: tuple[str, ...]
     fences: tuple[AdjustedFences, ...]
     sample_values: tuple[int, ...]
-    limit: float = FENCE_MULTIPLE
 
     def rank_error(self, column: str) -> float:
         """The largest gap between the sample's and the table's distribution of ``column`` at confidence 0.99."""
