@@ -1,59 +1,34 @@
-"""The Python API: ``check`` a table and get a :class:`Report`. The command line is built on it."""
+"""The Python API: ``check`` a table and get a :class:`Report`; a thin facade over :mod:`prefit.pipeline`.
+
+The command line is built on it. The report model lives in :mod:`prefit.outcome`,
+the orchestration in :mod:`prefit.pipeline` (one :class:`~prefit.pipeline.CheckRequest`
+per check), option coercion in :mod:`prefit.options`, the accept workflow in
+:mod:`prefit.accepted` and baseline profiles in :mod:`prefit.baseline`.
+"""
 
 from __future__ import annotations
 
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Sequence
+from typing import TYPE_CHECKING, Any
 
-from .accepted import AcceptedSet, load_accepted, save_accepted
-from .baseline import BaselineProfile, profile_of, save_profile
-from .errors import UsageProblem
+from .accepted import apply_accepted, load_accepted
+from .baseline import write_baseline
 from .findings import GRADES_STRONGEST_FIRST
-from .options import options_from
+from .options import CheckOptions, options_from
 from .outcome import Report
-from .pipeline import _as_table, build_context, check_file, context_for, heavy_first, report_for, run_check
-from .reading import ReadOptions
+from .pipeline import CheckRequest, as_table, build_context, context_for, heavy_first, report_for, run
+from .progress import RunProgress
+from .reading import ReadOptions, TableInfo
+from .registry import Registry
 
 if TYPE_CHECKING:
     import pandas as pd
     import pyarrow as pa
 
 __all__ = [
-    "NotReady", "Report", "apply_accepted", "build_context", "check", "check_file", "context_for", "heavy_first",
-    "options_from", "report_for", "require_ready", "run_check", "write_baseline",
+    "CheckRequest", "NotReady", "Report", "apply_accepted", "build_context", "check", "check_file", "context_for",
+    "heavy_first", "options_from", "report_for", "require_ready", "run", "run_check", "write_baseline",
 ]
-
-
-def write_baseline(report: Report, path: str | Path) -> BaselineProfile:
-    """Write the baseline profile of a checked table (``--save-baseline``) and return it."""
-    if report.context is None:
-        raise UsageProblem("--save-baseline", "needs the statistics of a check run in this process", "run the check and save in one call")
-    profile = profile_of(report.context)
-    save_profile(profile, path)
-    return profile
-
-
-def apply_accepted(reports: Sequence[Report], accept_file: str | Path | None, accept_current: bool = False) -> list[Report]:
-    """Move accepted findings out of the gate.
-
-    With ``accept_current`` every current finding of ``reports`` is written to
-    ``accept_file`` first (keeping the reasons of entries already there), so
-    that this run and later ones gate only on new findings.
-    """
-    if accept_file is None:
-        if accept_current:
-            raise UsageProblem("--accept-current", "needs a file to write", "add --accept-file FILE")
-        return list(reports)
-    if accept_current:
-        previous = load_accepted(accept_file) if Path(accept_file).is_file() else None
-        findings = [f for r in reports for f in r.findings]
-        keys = [k for r in reports for k in r.fingerprints]
-        accepted = AcceptedSet.from_findings(findings, keys, previous)
-        save_accepted(accepted, accept_file)
-    else:
-        accepted = load_accepted(accept_file)
-    return [r.accepting(accepted) for r in reports]
-
 
 def check(
     table: "pa.Table | pd.DataFrame | str | Path",
@@ -64,32 +39,83 @@ def check(
     save_baseline: str | Path | None = None,
     **options: Any,
 ) -> Report:
-    """Vet ``table`` (a DataFrame, a pyarrow Table or a path) before fitting ``target`` on it.
+    """Vet a table before fitting a linear regression of ``target`` on it.
 
-    Keyword options are the configuration keys (``id``, ``exclude``,
-    ``predictors``, ``categorical``, ``intercept``, ``fail_at``,
-    ``skip_rules``, ``rule``, ``missing_codes``, ``sep``, ``encoding``,
-    ``ranges``, ``anticipated_r2``, ``score``, ``order``, ``purpose``, ``baseline``: a
-    profile written by ``save_baseline`` or the accepted table itself, to vet this table against).
+    Parameters
+    ----------
+    table : pandas.DataFrame, pyarrow.Table, str or pathlib.Path
+        The table, in memory or as a file path (any format ``prefit check`` reads).
+    target : str, optional
+        The response column (may also come from a ``target`` option or a configuration).
+    accept_file : str or pathlib.Path, optional
+        An accepted-findings file: findings it lists are counted, not gated.
+    accept_current : bool, default False
+        Write today's findings to ``accept_file`` first (keeping the reasons already there).
+    save_baseline : str or pathlib.Path, optional
+        Write this table's baseline profile to that path, to vet a later extract against.
+    **options
+        Configuration keys with ``_`` for ``-``: ``id``, ``exclude``, ``predictors``,
+        ``categorical``, ``intercept``, ``fail_at`` (the gate), ``skip_rules``, ``rule``,
+        ``missing_codes``, ``sep``, ``encoding``, ``ranges``, ``anticipated_r2``, ``score``,
+        ``order``, ``purpose``, ``group`` and ``baseline`` (a profile written by
+        ``save_baseline``, or the accepted table itself).
 
+    Returns
+    -------
+    Report
+        The findings in report order with the table facts and the design; ``exit_code``
+        says whether the table is ready at the gate.
 
-    ``ranges``, ``anticipated_r2``, ``score``, ``order``, ``purpose``, ``group``).
-    ``accept_file`` names an accepted-findings file: findings it lists are
-    counted, not gated; with ``accept_current`` today's findings are written to it.
-    ``save_baseline`` writes this table's baseline profile to that path.
+    Raises
+    ------
+    UsageProblem
+        When the table or an option cannot be used as given (the message says what to change).
     """
     opts = options_from(target=target, **options)
     if accept_file is not None and not accept_current:
         load_accepted(accept_file)
-    data, info = _as_table(table, ReadOptions(sep=opts.sep, encoding=opts.encoding))
-    report = run_check(data, info, opts)
+    data, info = as_table(table, ReadOptions(sep=opts.sep, encoding=opts.encoding))
+    report = run(CheckRequest(opts, table=data, info=info))
     if save_baseline is not None:
         write_baseline(report, save_baseline)
     return apply_accepted([report], accept_file, accept_current)[0]
 
 
+def run_check(
+    table: "pa.Table",
+    info: TableInfo,
+    options: CheckOptions,
+    registry: Registry | None = None,
+    debug: bool = False,
+    progress: RunProgress | None = None,
+) -> Report:
+    """Check a table already in memory with the memory engine: ``run(CheckRequest(options, table=table, info=info, ...))``."""
+    return run(CheckRequest(options, table=table, info=info, registry=registry, debug=debug, progress=progress))
+
+
+def check_file(
+    path: str,
+    options: CheckOptions,
+    engine: str = "auto",
+    scheduler: str | None = None,
+    debug: bool = False,
+    progress: RunProgress | None = None,
+    row_budget: int | None = None,
+    profile: bool = False,
+) -> Report:
+    """Check a table file with the chosen engine: ``run(CheckRequest(options, path=path, ...))`` (see :class:`CheckRequest`)."""
+    request = CheckRequest(options, path=path, engine=engine, scheduler=scheduler, debug=debug, progress=progress, row_budget=row_budget, profile=profile)
+    return run(request)
+
+
 class NotReady(AssertionError):
-    """Raised by :func:`require_ready` when a table has findings at or above the gate."""
+    """Raised by :func:`require_ready` when a table has findings at or above the gate.
+
+    Parameters
+    ----------
+    report : Report
+        The report of the table; kept as ``report``, and its gated findings make the message.
+    """
 
     def __init__(self, report: Report) -> None:
         self.report = report
@@ -100,7 +126,29 @@ class NotReady(AssertionError):
 
 
 def require_ready(table: "pa.Table | pd.DataFrame | str | Path", target: str | None = None, fail_at: str = "misleads", **options: Any) -> Report:
-    """Check ``table`` and raise :class:`NotReady` listing the findings at or above ``fail_at``."""
+    """Check a table and raise :class:`NotReady` when it is not ready for a linear fit.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame, pyarrow.Table, str or pathlib.Path
+        The table, as for :func:`check`.
+    target : str, optional
+        The response column.
+    fail_at : str, default "misleads"
+        The gate: ``note``, ``weakens``, ``misleads`` or ``blocks``.
+    **options
+        Further options, as for :func:`check`.
+
+    Returns
+    -------
+    Report
+        The report, when no finding reaches the gate and no rule failed.
+
+    Raises
+    ------
+    NotReady
+        Listing the findings at or above ``fail_at`` (and any rule that failed).
+    """
     report = check(table, target=target, fail_at=fail_at, **options)
     if report.exit_code != 0:
         raise NotReady(report)

@@ -56,6 +56,7 @@ from .stats.positions import hashed_share
 
 if TYPE_CHECKING:
     from .context import RunContext
+    from .outcome import Report
 
 PROFILE_FORMAT = "prefit-baseline"
 PROFILE_VERSION = 1
@@ -352,3 +353,12 @@ def read_profile(path: str) -> BaselineProfile | None:
         except (KeyError, TypeError, ValueError) as exc:
             raise UsageProblem(where, f"is a damaged profile ({type(exc).__name__}: {exc})", "write it again with --save-baseline") from None
     return None
+
+
+def write_baseline(report: Report, path: str | Path) -> BaselineProfile:
+    """Write the baseline profile of a checked table (``--save-baseline``) and return it."""
+    if report.context is None:
+        raise UsageProblem("--save-baseline", "needs the statistics of a check run in this process", "run the check and save in one call")
+    profile = profile_of(report.context)
+    save_profile(profile, path)
+    return profile

@@ -13,8 +13,8 @@ from functools import cached_property
 from typing import TYPE_CHECKING, Any, Mapping
 
 from . import __version__
-from .accepted import AcceptedSet, Fingerprint, fingerprints
-from .findings import Finding, Grade, count_by_grade
+from .accepted import AcceptedSet, Fingerprint, fingerprint
+from .findings import Finding, Grade, RowLabel, count_by_grade
 from .reading import TableInfo
 from .report import WriterSettings, render
 from .report.html import html_fragment
@@ -96,6 +96,94 @@ class EngineRun:
         return out
 
 
+@dataclass(frozen=True)
+class DesignTerm:
+    """One term of the design as built: its column, kind and parameters; a category's reference and coded levels."""
+
+    column: str
+    kind: str
+    parameters: int
+    reference: str | None = None
+    levels: tuple[str, ...] = ()
+
+    def to_dict(self) -> dict[str, Any]:
+        """Plain JSON types, as the report schema names them."""
+        coded = {"reference": self.reference, "levels": list(self.levels)} if self.reference is not None else {}
+        return {"column": self.column, "kind": self.kind, "parameters": self.parameters, **coded}
+
+
+@dataclass(frozen=True)
+class Grouping:
+    """How the complete cases are grouped: the column, where the grouping came from, the groups and their sizes."""
+
+    column: str
+    origin: str
+    groups: int
+    smallest: int
+    median: float
+    largest: int
+
+    def to_dict(self) -> dict[str, Any]:
+        """Plain JSON types, as the report schema names them."""
+        return {"column": self.column, "from": self.origin, "groups": self.groups, "sizes": {"min": self.smallest, "median": self.median, "max": self.largest}}
+
+
+@dataclass(frozen=True)
+class DesignDescription:
+    """The hidden choices of the design, said out loud for every report.
+
+    Attributes
+    ----------
+    intercept : bool
+        Whether the design has an intercept column.
+    coding : str
+        How categories are coded, in words.
+    terms : tuple of DesignTerm
+        The design's terms in column order.
+    rows_dropped : int
+        Rows left out as incomplete.
+    kinds : mapping of str to str
+        Each column's kind as resolved.
+    left_out : mapping of str to str
+        Columns left out of the design, with why.
+    id : str or None
+        The column whose values label rows, if any.
+    id_values : int or None
+        How many distinct labels the id column has (None without one).
+    groups : Grouping or None
+        The grouping of the complete cases (None when grouping is off).
+    missing_codes_applied : mapping of str to int or None
+        Per column, how many declared missing codes were replaced (None when none were).
+    """
+
+    intercept: bool
+    coding: str
+    terms: tuple[DesignTerm, ...]
+    rows_dropped: int
+    kinds: Mapping[str, str] = field(default_factory=dict)
+    left_out: Mapping[str, str] = field(default_factory=dict)
+    id: str | None = None
+    id_values: int | None = None
+    groups: Grouping | None = None
+    missing_codes_applied: Mapping[str, int] | None = None
+
+    def to_dict(self) -> dict[str, Any]:
+        """Plain JSON types, in the order and with the names of the report schema."""
+        out: dict[str, Any] = {
+            "intercept": self.intercept,
+            "coding": self.coding,
+            "terms": [t.to_dict() for t in self.terms],
+            "rows_dropped": self.rows_dropped,
+            "kinds": dict(self.kinds),
+            "left_out": dict(self.left_out),
+            "id": self.id,
+        }
+        if self.id_values is not None:
+            out["id_values"] = self.id_values
+        out["groups"] = self.groups.to_dict() if self.groups is not None else None
+        if self.missing_codes_applied:
+            out["missing_codes_applied"] = dict(self.missing_codes_applied)
+        return out
 
 
 TOOL_NAME = "prefit"
@@ -106,20 +194,51 @@ REPORT_SCHEMA_VERSION = 1
 class Report:
     """The outcome of one check: table facts, the design as built, and the findings in report order.
 
-    ``accepted`` holds findings matched by an accepted-findings file: they are
-    reported as a count and never reach the gate. ``rules`` are the rules the
-    run knew and ``context`` the run's statistics (for plots and fingerprints);
-    neither is part of the JSON report. Each finding carries its ``key`` (the
-    digest of its fingerprint, computed once here) and the keys of the
-    findings that explain it; ``fix_first`` lists the keys of the root
-    findings at ``weakens`` or above, most damaging first (:mod:`prefit.causes`).
+    Each finding carries its ``key`` (the digest of its fingerprint, computed
+    once by the pipeline and kept in ``keyed``) and the keys of the findings
+    that explain it.
+
+    Attributes
+    ----------
+    info : TableInfo
+        The table's path, format, size and SHA-256.
+    target : str
+        The response column.
+    parameters, complete_cases : int
+        Columns of the design and rows with every model column present.
+    design : DesignDescription
+        The design as built, typed.
+    findings : tuple of Finding
+        The findings in report order.
+    outcomes : tuple of RuleOutcome
+        What each selected rule did, in id order.
+    gate : Grade
+        Findings at or above this grade make the table not ready.
+    purpose : str
+        ``explain`` or ``predict``.
+    accepted : tuple of Finding
+        Findings matched by an accepted-findings file: counted, never gated.
+    engine : EngineRun or None
+        What the engine did (the sample the rules ran on, pass-2 screens).
+    fix_first : tuple of str
+        Keys of the root findings at ``weakens`` or above, most damaging first (:mod:`prefit.causes`).
+    keyed : mapping of str to Fingerprint
+        Each finding's fingerprint by its key.
+    row_positions : mapping of row label to int
+        The 0-based table row each listed row label names, for labels that name one row (SARIF's line numbers).
+    baseline : mapping or None
+        The baseline the table was vetted against.
+    rules : tuple of RuleLike
+        The rules the run knew (not part of the JSON report).
+    context : RunContext or None
+        The run's statistics, kept for the HTML plots and ``--save-baseline``; no writer but the plots reads it.
     """
 
     info: TableInfo
     target: str
     parameters: int
     complete_cases: int
-    design: Mapping[str, Any]
+    design: DesignDescription
     findings: tuple[Finding, ...]
     outcomes: tuple[RuleOutcome, ...]
     gate: Grade
@@ -128,6 +247,7 @@ class Report:
     engine: EngineRun | None = None
     fix_first: tuple[str, ...] = ()
     keyed: Mapping[str, Fingerprint] = field(default_factory=dict, compare=False, repr=False)
+    row_positions: Mapping[RowLabel, int] = field(default_factory=dict, compare=False, repr=False)
     baseline: Mapping[str, Any] | None = None
     rules: tuple[RuleLike, ...] = field(default=(), compare=False, repr=False)
     context: RunContext | None = field(default=None, compare=False, repr=False)
@@ -145,7 +265,7 @@ class Report:
     @property
     def gated(self) -> tuple[Finding, ...]:
         """Findings at or above the gate."""
-        return tuple(f for f in self.findings if f.grade >= self.gate and f.rule != "engine.rule-error")
+        return tuple(f for f in self.findings if f.grade >= self.gate and f.rule != RULE_ERROR)
 
     @property
     def exit_code(self) -> int:
@@ -156,16 +276,18 @@ class Report:
 
     @cached_property
     def fingerprints(self) -> tuple[Fingerprint, ...]:
-        """The fingerprint of each finding, in report order (rule, grade, columns, digest of the flagged rows)."""
-        if all(f.key in self.keyed for f in self.findings):
-            return tuple(self.keyed[f.key] for f in self.findings)
-        return fingerprints(self.findings, self.context)
+        """The fingerprint of each finding, in report order (rule, grade, columns, digest of the flagged rows).
+
+        Computed once by the pipeline; a finding it did not key (a report built
+        by hand) is fingerprinted without row digests.
+        """
+        return tuple(self.keyed[f.key] if f.key in self.keyed else fingerprint(f, None) for f in self.findings)
 
     def accepting(self, accepted: AcceptedSet) -> "Report":
         """This report with the findings ``accepted`` matches moved out of ``findings`` into ``accepted``."""
         keys = self.fingerprints
-        kept = tuple(f for f, k in zip(self.findings, keys) if k not in accepted or f.rule == "engine.rule-error")
-        matched = tuple(f for f, k in zip(self.findings, keys) if k in accepted and f.rule != "engine.rule-error")
+        kept = tuple(f for f, k in zip(self.findings, keys) if k not in accepted or f.rule == RULE_ERROR)
+        matched = tuple(f for f, k in zip(self.findings, keys) if k in accepted and f.rule != RULE_ERROR)
         left = {f.key for f in kept}
         return replace(self, findings=kept, accepted=self.accepted + matched, fix_first=tuple(k for k in self.fix_first if k in left))
 
@@ -178,7 +300,7 @@ class Report:
             "target": self.target,
             "parameters": self.parameters,
             "complete_cases": self.complete_cases,
-            "design": dict(self.design),
+            "design": self.design.to_dict(),
             "gate": self.gate.word,
             "purpose": self.purpose,
             "complete": not self.failed_rules,
@@ -194,11 +316,31 @@ class Report:
         return document
 
     def to_json(self) -> str:
-        """The JSON report: sorted findings, NaN and infinities as null, stable bytes."""
+        """The JSON report: sorted findings, NaN and infinities as null, stable bytes.
+
+        Returns
+        -------
+        str
+            The document of :meth:`to_dict`, indented, ending in a newline.
+        """
         return json_inert(json.dumps(self.to_dict(), indent=2, ensure_ascii=False, allow_nan=False)) + "\n"
 
     def render(self, format: str, **settings: Any) -> str:
-        """The report in any registered format (``text``, ``json``, ``sarif``, ``junit``, ``markdown``, ``html``)."""
+        """The report in any registered format.
+
+        Parameters
+        ----------
+        format : str
+            A format name: ``text``, ``json``, ``sarif``, ``junit``, ``markdown``,
+            ``html``, or one a plugin adds through the ``prefit.formats`` entry points.
+        **settings
+            :class:`~prefit.report.WriterSettings` fields: ``colour``, ``explain``, ``plots``.
+
+        Returns
+        -------
+        str
+            The whole document.
+        """
         return render(format, [self], WriterSettings(**settings))
 
     def to_sarif(self) -> str:
@@ -214,7 +356,18 @@ class Report:
         return self.render("markdown")
 
     def to_html(self, plots: bool = True) -> str:
-        """One self-contained HTML page: facts, findings with why and remedy, and (with ``plots``) SVG plots."""
+        """One self-contained HTML page: facts, findings with why and remedy, and (with ``plots``) SVG plots.
+
+        Parameters
+        ----------
+        plots : bool, default True
+            Draw the SVG plots (needs matplotlib; they read the run's statistics).
+
+        Returns
+        -------
+        str
+            The page.
+        """
         return self.render("html", plots=plots)
 
     def _repr_html_(self) -> str:

@@ -194,7 +194,7 @@ def test_memory_exhaustion_is_exit_2_naming_the_stream_engine(tmp_path: Path, mo
     def exhausted(*args: object, **kwargs: object) -> None:
         raise MemoryError
 
-    monkeypatch.setattr(prefit.pipeline, "run_check", exhausted)
+    monkeypatch.setattr(prefit.pipeline, "memory_context", exhausted)
     table = tmp_path / "t.csv"
     table.write_text(OK_TABLE)
     run = run_cli("check", table, "--target", "y")

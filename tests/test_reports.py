@@ -131,7 +131,7 @@ def test_sarif_regions_point_at_the_csv_lines_of_the_named_rows() -> None:
         report = sample_report(name)
         if report.info.format != "csv" or not any(f.rows for f in report.findings):
             continue
-        id_column = report.design.get("id")
+        id_column = report.design.id
         lines = (ROOT / report.info.path).read_text(encoding="utf-8").split("\n")
         header = next(csv.reader([lines[0]]))
         run = json.loads(report.to_sarif())["runs"][0]

@@ -89,7 +89,7 @@ def drive(writer: ReportWriter, reports: Sequence["Report"]) -> str:
 
 def labels_not_unique(report: "Report") -> str | None:
     """``not unique: 6 values for 120 rows`` when the id column has fewer distinct values than the table has rows."""
-    values = report.design.get("id_values")
+    values = report.design.id_values
     if values is None or values >= report.info.rows:
         return None
     return f"not unique: {values:,} values for {report.info.rows:,} rows"
@@ -106,12 +106,11 @@ def baseline_sentence(report: "Report") -> str | None:
 
 def groups_sentence(report: "Report") -> str | None:
     """``rows grouped by 'site_id' (40 groups of 90 rows; from the repeating --id)``, or None when grouping is off."""
-    groups = report.design.get("groups")
-    if not groups:
+    groups = report.design.groups
+    if groups is None:
         return None
-    sizes = groups["sizes"]
-    spread = f"{sizes['min']:,}" if sizes["min"] == sizes["max"] else f"{sizes['min']:,} to {sizes['max']:,}, median {sizes['median']:g}"
-    return f"rows grouped by {groups['column']!r} ({groups['groups']:,} groups of {spread} rows; from {groups['from']}; --group none turns this off)"
+    spread = f"{groups.smallest:,}" if groups.smallest == groups.largest else f"{groups.smallest:,} to {groups.largest:,}, median {groups.median:g}"
+    return f"rows grouped by {groups.column!r} ({groups.groups:,} groups of {spread} rows; from {groups.origin}; --group none turns this off)"
 
 
 def row_groups(finding: Finding, limit: int) -> tuple[list[str], int]:
