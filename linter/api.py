@@ -13,10 +13,11 @@ from typing import TYPE_CHECKING, Any
 
 from .accepted import apply_accepted, load_accepted
 from .baseline import write_baseline
+from .engines.memory import build_context
 from .findings import GRADES_STRONGEST_FIRST
 from .options import CheckOptions, options_from
 from .outcome import Report
-from .pipeline import CheckRequest, as_table, build_context, context_for, heavy_first, report_for, run
+from .pipeline import CheckRequest, as_table, context_for, heavy_first, report_for, run
 from .progress import RunProgress
 from .reading import ReadOptions, TableInfo
 from .registry import Registry

@@ -117,7 +117,7 @@ class Grouping:
     """How the complete cases are grouped: the column, where the grouping came from, the groups and their sizes."""
 
     column: str
-    origin: str
+    origin: str | None
     groups: int
     smallest: int
     median: float

@@ -227,16 +227,16 @@ def row_positions(findings: Sequence[Finding], digester: RowDigester) -> dict[Ro
 
 def design_description(context: RunContext) -> DesignDescription:
     """The design as built and the roles behind it, typed for the report."""
-    roles, described = context.roles, context.design.describe()
+    roles, design = context.roles, context.design
     terms = tuple(
-        DesignTerm(str(t["column"]), str(t["kind"]), int(t["parameters"]), t.get("reference"), tuple(t.get("levels", ())))
-        for t in described["terms"]  # type: ignore[attr-defined]
+        DesignTerm(t.source, str(t.kind) if t.kind else "intercept", t.df, t.reference, tuple(t.levels) if t.reference is not None else ())
+        for t in design.terms
     )
     return DesignDescription(
-        intercept=bool(described["intercept"]),
-        coding=str(described["coding"]),
+        intercept=design.intercept,
+        coding=str(design.describe()["coding"]),
         terms=terms,
-        rows_dropped=int(described["rows_dropped"]),  # type: ignore[call-overload]
+        rows_dropped=design.table_rows - design.n,
         kinds={name: str(kind) for name, kind in roles.kinds.items()},
         left_out=dict(roles.left_out),
         id=roles.id,

@@ -1,19 +1,20 @@
-"""The three engines: read the table whole (memory), in row batches (stream), or in partitions on Dask (dask).
+"""The two-pass driver the stream and Dask engines share (the memory engine reads the table whole: :mod:`.memory`).
 
-All three run the same rules on a :class:`~prefit.context.RunContext`. The
-stream and Dask engines run the same pass functions (:mod:`prefit.passes`)
-per batch or partition and merge their results:
+All three engines run the same rules on a :class:`~prefit.context.RunContext`. The
+stream and Dask engines run the same pass functions (:mod:`prefit.engines.passes`)
+per batch or partition, through a :class:`PassRunner`, and merge their results:
 
 - the kept rows (:class:`KeptRows`): the whole table while it fits the row
   budget, which the rules then see exactly as the memory engine would, with
   the fit taken from the merged batch factors; beyond the budget, a sample
   of rows chosen by a seeded hash of their position, on which every rule
   runs (the report says so and how large);
-- pass 1 (:func:`prefit.passes.first_pass`), the whole table's R factor,
+- pass 1 (:func:`prefit.engines.passes.first_pass`), the whole table's R factor,
   and its column tallies when the rules see every row;
-- pass 2 (:func:`prefit.passes.second_pass`), only when the rules ran on a
+- pass 2 (:func:`prefit.engines.passes.second_pass`), only when the rules ran on a
   sample: every complete row scored against the whole table's fit and
-  measured against the sample's robust centre.
+  measured against the sample's robust centre, for the measures the selected
+  rules screen (:attr:`prefit.rule.RuleLike.screen`), at their configured cutoffs.
 """
 
 from __future__ import annotations
