@@ -12,10 +12,10 @@ import argparse
 import time
 
 from prefit.api import build_context, options_from
-from prefit.engine import run_rule, select_rules
 from prefit.preload import imports_ready, warm_imports
 from prefit.reading import read_table
 from prefit.registry import discover
+from prefit.runner import run_rule, select_rules
 from prefit.stats.blas import one_blas_thread
 
 SHARED = ("design", "factor", "fit", "row_scores", "influence", "holes")

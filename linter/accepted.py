@@ -26,6 +26,7 @@ from .findings import Finding, Grade, RowLabel
 
 if TYPE_CHECKING:
     from .context import RunContext
+    from .outcome import Report
 
 FILE_VERSION = 1
 DEFAULT_REASON = "present when prefit was adopted; review and replace this reason"
@@ -291,3 +292,25 @@ def save_accepted(accepted: AcceptedSet, path: str | Path) -> None:
         Path(path).write_text(accepted.to_json(), encoding="utf-8")
     except OSError as exc:
         raise UsageProblem(f"--accept-file {path}", f"cannot be written ({exc.strerror})", "choose a writable path") from None
+
+
+def apply_accepted(reports: Sequence[Report], accept_file: str | Path | None, accept_current: bool = False) -> list[Report]:
+    """Move accepted findings out of the gate.
+
+    With ``accept_current`` every current finding of ``reports`` is written to
+    ``accept_file`` first (keeping the reasons of entries already there), so
+    that this run and later ones gate only on new findings.
+    """
+    if accept_file is None:
+        if accept_current:
+            raise UsageProblem("--accept-current", "needs a file to write", "add --accept-file FILE")
+        return list(reports)
+    if accept_current:
+        previous = load_accepted(accept_file) if Path(accept_file).is_file() else None
+        findings = [f for r in reports for f in r.findings]
+        keys = [k for r in reports for k in r.fingerprints]
+        accepted = AcceptedSet.from_findings(findings, keys, previous)
+        save_accepted(accepted, accept_file)
+    else:
+        accepted = load_accepted(accept_file)
+    return [r.accepting(accepted) for r in reports]

@@ -43,19 +43,20 @@ from typing import TYPE_CHECKING, Any, Mapping
 import numpy as np
 
 from . import __version__
-from .design import Term
+from .design import Term, category_codes
 from .errors import UsageProblem
 from .findings import plain_json
-from .reading import ReadOptions, TableInfo, read_table
+from .reading import TableInfo
 from .roles import Kind
 from .stats.distribution import SAMPLE_CONFIDENCE, Distribution, dkw_rank_error
 from .stats.factor import DesignFactor
 from .stats.fit import PreliminaryFit
 from .stats.mergeable import Moments
+from .stats.positions import hashed_share
 
 if TYPE_CHECKING:
     from .context import RunContext
-    from .options import CheckOptions
+    from .outcome import Report
 
 PROFILE_FORMAT = "prefit-baseline"
 PROFILE_VERSION = 1
@@ -254,8 +255,6 @@ def _role(name: str, ctx: "RunContext") -> str:
 
 def complete_level_counts(ctx: "RunContext", column: str) -> dict[str, int]:
     """Each level's count among the complete cases (the rows the fit uses), at most :data:`LEVEL_CAP` levels."""
-    from .design import category_codes
-
     codes, labels = category_codes(ctx.table.column(column), ctx.roles.kinds[column])
     kept = codes[ctx.design.positions]
     counts = np.bincount(kept[kept >= 0], minlength=len(labels))
@@ -275,8 +274,6 @@ def profile_of(ctx: "RunContext") -> BaselineProfile:
     to the rank error; beyond the row budget the observed ranges and the
     largest leverage are the sample's.
     """
-    from .stats.positions import hashed_share
-
     roles = ctx.roles
     sampled = ctx.file_positions is not None
     held = ctx.table.num_rows
@@ -334,8 +331,8 @@ def save_profile(profile: BaselineProfile, path: str | Path) -> None:
         raise UsageProblem(f"--save-baseline {path}", f"cannot be written ({exc.strerror})", "choose a writable path") from None
 
 
-def load_baseline(path: str, options: "CheckOptions") -> BaselineProfile:
-    """Read a baseline: a profile file written by ``--save-baseline``, or a table profiled now with the same options."""
+def read_profile(path: str) -> BaselineProfile | None:
+    """Read a baseline profile file written by ``--save-baseline``; None when ``path`` is a table, which the engine profiles now."""
     where = f"--baseline {path}"
     if not Path(path).is_file():
         raise UsageProblem(where, "names no file", "give a profile written by --save-baseline, or the accepted table itself")
@@ -355,16 +352,13 @@ def load_baseline(path: str, options: "CheckOptions") -> BaselineProfile:
             return BaselineProfile.from_dict(data, origin=path, digest=hashlib.sha256(raw).hexdigest())
         except (KeyError, TypeError, ValueError) as exc:
             raise UsageProblem(where, f"is a damaged profile ({type(exc).__name__}: {exc})", "write it again with --save-baseline") from None
-    return profile_table(path, options)
+    return None
 
 
-def profile_table(path: str, options: "CheckOptions") -> BaselineProfile:
-    """Profile a baseline table now, read and resolved with the same options as the checked table."""
-    from .api import build_context
-
-    try:
-        table, info = read_table(path, ReadOptions(sep=options.sep, encoding=options.encoding))
-        context = build_context(table, info, replace(options, baseline=None, score=None))
-    except UsageProblem as problem:
-        raise UsageProblem(f"--baseline {problem.where}", problem.problem, problem.fix) from None
-    return replace(profile_of(context), origin=path, digest=info.sha256)
+def write_baseline(report: Report, path: str | Path) -> BaselineProfile:
+    """Write the baseline profile of a checked table (``--save-baseline``) and return it."""
+    if report.context is None:
+        raise UsageProblem("--save-baseline", "needs the statistics of a check run in this process", "run the check and save in one call")
+    profile = profile_of(report.context)
+    save_profile(profile, path)
+    return profile

@@ -6,9 +6,11 @@ import json
 import textwrap
 
 from .errors import UsageProblem, closest_names
+from .findings import counted
 from .registry import Registry, discover
-from .rule import RuleLike, default_grades, rule_family
+from .rule import RuleLike, default_grades
 from .teaching import DEMONSTRATIONS, Demonstration, demonstration_for
+from .teaching.checking import run_on_demonstration
 
 WRAP = 96
 
@@ -23,7 +25,7 @@ def catalogue_json(registry: Registry | None = None) -> str:
     rules = [
         {
             "id": rule.id,
-            "family": rule_family(rule.id),
+            "family": rule.family,
             "grades": _grades(rule),
             "summary": rule.summary,
             "thresholds": [
@@ -47,7 +49,7 @@ def catalogue_html(registry: Registry | None = None) -> str:
     registry = registry or discover()
     sections = []
     for family in registry.families():
-        entries = [rule_entry(rule, rule_anchor(rule.id)) for rule in registry if rule_family(rule.id) == family]
+        entries = [rule_entry(rule, rule_anchor(rule.id)) for rule in registry if rule.family == family]
         sections.append(f'<section id="family-{esc(family)}"><h2>{esc(family)}</h2>{"".join(entries)}</section>')
     contents = "".join(f'<li><a href="#family-{esc(f)}">{esc(f)}</a></li>' for f in registry.families())
     return (
@@ -66,7 +68,7 @@ def catalogue_text(registry: Registry | None = None) -> str:
     out: list[str] = []
     for family in registry.families():
         out.append(f"[{family}]")
-        for rule in (r for r in registry if rule_family(r.id) == family):
+        for rule in (r for r in registry if r.family == family):
             grades = "/".join(_grades(rule)) or "-"
             out.append(f"  {rule.id}  ({grades})")
             out.extend(textwrap.wrap(rule.summary, WRAP, initial_indent="      ", subsequent_indent="      "))
@@ -101,13 +103,13 @@ def explain_rule(rule_id: str, registry: Registry | None = None) -> str:
             previous_source = t.source
         out.append("")
     out += ["Remedy:"] + textwrap.wrap(rule.remedy, WRAP, initial_indent="  ", subsequent_indent="  ")
-    demo = getattr(rule, "demonstration", None)
+    demo = rule.demonstration
     heading = "Demonstration on invented warehouse data:"
     own = True
     if not callable(demo):
         demo = demonstration_for(rule.id)
         if rule.id not in DEMONSTRATIONS:
-            family = rule_family(rule.id)
+            family = rule.family
             heading = f"Demonstration for the {family} family (this rule has none of its own), on invented warehouse data:"
             own = False
     if callable(demo):
@@ -120,9 +122,6 @@ def explain_rule(rule_id: str, registry: Registry | None = None) -> str:
 
 def _found_in_demonstration(rule: RuleLike, shown: Demonstration) -> list[str]:
     """What the rule itself reports on the demonstration's table, as `prefit check` would print its first finding."""
-    from .findings import counted
-    from .teaching.checking import run_on_demonstration
-
     outcome = run_on_demonstration(rule, shown)
     flags = " ".join(_flag(key, value) for key, value in [*shown.options.items(), *shown.companions.items()])
     lines = [f"{rule.id} on the demonstration's table ({flags}):"]
@@ -152,8 +151,8 @@ def _flag(key: str, value: object) -> str:
 
 def _explain_family(family: str, registry: Registry) -> str:
     """A family's rules, one line each, and the family's demonstration when it has one."""
-    out = [f"{family}: {sum(1 for r in registry if rule_family(r.id) == family)} rules", ""]
-    for rule in (r for r in registry if rule_family(r.id) == family):
+    out = [f"{family}: {sum(1 for r in registry if r.family == family)} rules", ""]
+    for rule in (r for r in registry if r.family == family):
         out.extend(textwrap.wrap(f"{rule.id:34s} {rule.summary}", WRAP + 24, initial_indent="  ", subsequent_indent=" " * 37))
     demo = demonstration_for(family)
     if demo is not None:
@@ -168,7 +167,7 @@ def list_by_family(registry: Registry | None = None) -> str:
     out: list[str] = []
     for family in registry.families():
         out.append(f"{family}:")
-        for rule in (r for r in registry if rule_family(r.id) == family):
+        for rule in (r for r in registry if r.family == family):
             out.extend(textwrap.wrap(f"{rule.id:34s} {rule.summary}", WRAP + 24, initial_indent="  ", subsequent_indent=" " * 37))
     out.append("")
     out.append("`prefit why RULE` explains one rule; `prefit why FAMILY` lists a family's rules with its demonstration.")

@@ -25,10 +25,11 @@ from typing import Mapping, Sequence
 import numpy as np
 
 from .context import RunContext
-from .engine import RULE_ERROR, run_rule
 from .findings import Finding, Grade
+from .outcome import RULE_ERROR
 from .roles import resolve_roles
 from .rule import Repair, RuleLike, RuleSettings
+from .runner import run_rule
 from .stats.blas import one_blas_thread
 
 ROW_OVERLAP = 0.5
@@ -128,12 +129,12 @@ def find_causes(
     bend does not make a few rows wrong), then the stronger, then the earlier.
     """
     rules = {rule.id: (rule, settings) for rule, settings in selected}
-    rechecked = {rule_id for rule_id, (rule, _) in rules.items() if getattr(rule, "recheck", True) and rule_id != RULE_ERROR}
+    rechecked = {rule_id for rule_id, (rule, _) in rules.items() if rule.recheck and rule_id != RULE_ERROR}
     causes: list[set[int]] = [set() for _ in findings]
     size: dict[int, int] = {}
     for i, root in enumerate(findings):
         chosen = rules.get(root.rule)
-        hook = getattr(chosen[0], "repair", None) if chosen is not None else None
+        hook = chosen[0].repair if chosen is not None else None
         if hook is None or root.grade < Grade.WEAKENS:
             continue
         try:
@@ -158,14 +159,3 @@ def find_causes(
     roots = [i for i, f in enumerate(findings) if not explained_by[i] and f.grade >= Grade.WEAKENS and f.rule != RULE_ERROR]
     ranked = sorted(roots, key=lambda i: (*(-v for v in _damage(findings, i, explained_by)), i))
     return Causes(explained_by, tuple(ranked))
-
-
-def root_of(position: int, explained_by: Sequence[Sequence[int]]) -> int:
-    """The root a finding folds under: follow its first cause until a finding without causes (or a loop)."""
-    seen = {position}
-    while explained_by[position]:
-        position = explained_by[position][0]
-        if position in seen:
-            break
-        seen.add(position)
-    return position

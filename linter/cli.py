@@ -214,12 +214,11 @@ def _command_check(args: argparse.Namespace) -> int:
     from .accepted import load_accepted
     from .api import apply_accepted, check_file, write_baseline
     from .progress import progress_for
-    from .report import FORMATS, WriterSettings, render
+    from .report import WriterSettings, format_for, render
 
     destinations = _destinations(args.format, args.output)
     for format, _ in destinations:
-        if format not in FORMATS:
-            raise UsageProblem(f"--format {format}", "is not a report format", f"use one of {', '.join(FORMATS)}")
+        format_for(format)
     options = _options_from_args(args)
     if args.accept_current and args.accept_file is None:
         raise UsageProblem("--accept-current", "needs a file to write", "add --accept-file FILE")

@@ -14,11 +14,11 @@ from .comparison import ColumnComparison, ModelComparison, compare_columns, comp
 from .design import Design, build_design
 from .findings import MAX_LISTED_ROWS, RowLabel
 from .options import CheckOptions
-from .passes import IndicatorFactor, TableStatistics, row_labels
 from .reading import TableInfo
-from .roles import Kind, Roles, group_labels, numeric_values
+from .roles import Kind, Roles, group_labels, numeric_values, row_labels
 from .rule import top_rows
 from .scoring import ScoredRows, ScoreTable, score_rows
+from .stats.batched import IndicatorFactor, TableStatistics
 from .stats.blas import one_blas_thread
 from .stats.collinearity import Collinearity
 from .stats.curvature import CurvatureCheck, curvature_checks

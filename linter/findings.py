@@ -7,6 +7,8 @@ import math
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping, Sequence
 
+from .text import inert, inert_message
+
 JSONScalar = str | int | float | bool | None
 RowLabel = str | int
 
@@ -19,7 +21,19 @@ concerns more rows says so: ``row_count`` is the total and ``rows_capped`` is tr
 
 
 class Grade(enum.IntEnum):
-    """How much a finding damages a least-squares fit; larger is worse."""
+    """How much a finding damages a least-squares fit; larger is worse.
+
+    Attributes
+    ----------
+    NOTE : int
+        Worth knowing; the fit is not harmed.
+    WEAKENS : int
+        The fit stands, but its precision or generality suffers.
+    MISLEADS : int
+        The fit runs, but coefficients, errors or predictions mislead (the default gate).
+    BLOCKS : int
+        No trustworthy fit can be computed.
+    """
 
     NOTE = 1
     WEAKENS = 2
@@ -91,9 +105,34 @@ def plain_json(value: Any) -> Any:
 class Finding:
     """One graded observation about the table, with the numbers behind it.
 
-    ``rows`` lists at most ``MAX_LISTED_ROWS`` row labels (values of the id
-    column, or 1-based data row numbers); ``row_count`` is the total number of
-    rows concerned, and ``row_values`` the measured value for each listed row.
+    Attributes
+    ----------
+    rule : str
+        The id of the rule that found it (``family.name``).
+    grade : Grade
+        How much it damages the fit.
+    message : str
+        What was found, with its numbers.
+    columns : tuple of str
+        The columns concerned.
+    rows : tuple of str or int
+        At most ``MAX_LISTED_ROWS`` row labels (values of the id column, or 1-based data row numbers).
+    row_values : tuple of float or None
+        The measured value for each listed row.
+    row_count : int
+        The total number of rows concerned.
+    value, threshold : float or None
+        The measured value and the limit it crossed.
+    source : str
+        Where the limit comes from.
+    remedy : str
+        What to do about it.
+    details : mapping
+        Further numbers, as plain JSON types.
+    key : str
+        The digest of the finding's fingerprint (set by the pipeline).
+    explained_by : tuple of str
+        The keys of the findings that explain it.
     """
 
     rule: str
@@ -126,8 +165,6 @@ class Finding:
 
         See :mod:`prefit.text`; the measured numbers and ``details`` are unchanged.
         """
-        from .text import inert, inert_message
-
         return replace(
             self,
             message=inert_message(self.message),

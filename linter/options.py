@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields, replace
 from typing import Any, Callable, Mapping
 
 from .errors import UsageProblem, closest_names
@@ -211,3 +211,18 @@ def parse_settings(raw: Mapping[str, Any], where: str) -> dict[str, Any]:
             )
         values[setting.field] = setting.parse(value, f"{where}: {key}")
     return values
+
+
+def options_from(**settings: Any) -> CheckOptions:
+    """CheckOptions from keyword settings (config keys with ``_`` for ``-``, or field names)."""
+    raw: dict[str, Any] = {}
+    for key, value in settings.items():
+        if value is None:
+            continue
+        config_key = key.replace("_", "-")
+        if key == "fail_at":
+            config_key = "gate"
+        if config_key not in SETTINGS_BY_KEY and key in {f.name for f in fields(CheckOptions)}:
+            config_key = next(s.key for s in SETTINGS_BY_KEY.values() if s.field == key)
+        raw[config_key] = value
+    return replace(CheckOptions(), **parse_settings(raw, "prefit.check"))

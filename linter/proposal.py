@@ -19,6 +19,9 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from .errors import UsageProblem
+from .options import options_from
+from .pipeline import CheckRequest, run
+from .reading import ReadOptions, read_table
 from .roles import Kind, infer_kind, target_candidates
 
 _BARE_KEY = re.compile(r"^[A-Za-z0-9_-]+$")
@@ -84,9 +87,6 @@ def propose_config(path: str, target: str | None = None, sep: str | None = None,
     sep, encoding : str, optional
         How to read a text table, as for ``prefit check``.
     """
-    from .api import options_from, run_check
-    from .reading import ReadOptions, read_table
-
     table, info = read_table(path, ReadOptions(sep=sep, encoding=encoding or "utf-8"))
     guessed = target is None
     if target is None:
@@ -97,7 +97,7 @@ def propose_config(path: str, target: str | None = None, sep: str | None = None,
     kinds = {name: infer_kind(table.column(name), False) for name in table.column_names}
     id_column, id_reason = _id_column(table, kinds, target)
     read_settings = {"sep": sep, "encoding": encoding}
-    report = run_check(table, info, options_from(target=target, id=id_column, **read_settings))
+    report = run(CheckRequest(options_from(target=target, id=id_column, **read_settings), table=table, info=info))
     roles = report.context.roles if report.context is not None else None
     left_out = dict(roles.left_out) if roles is not None else {}
     codes = [f for f in report.findings if f.rule == "design.possible-code"]

@@ -46,17 +46,22 @@ class Registry:
 
     def families(self) -> list[str]:
         """Families of the registered rules, sorted."""
-        return sorted({rule_id.split(".", 1)[0] for rule_id in self.rules})
+        return sorted({rule.family for rule in self.rules.values()})
+
+
+RULE_MEMBERS = ("id", "family", "summary", "why", "remedy", "thresholds", "grades", "needs", "heavy", "repair", "recheck", "screen", "demonstration", "check")
+"""Every member of the :class:`~prefit.rule.RuleLike` protocol."""
 
 
 def check_rule(rule: object, origin: str) -> None:
     """Raise if ``rule`` does not honour the rule contract."""
     if not isinstance(rule, RuleLike):
-        raise PluginProblem(origin, f"provides {rule!r}, which is not a rule (needs id, summary, why, remedy, thresholds, check)", "fix the plugin")
+        missing = ", ".join(name for name in RULE_MEMBERS if not hasattr(rule, name)) or "none"
+        raise PluginProblem(origin, f"provides {rule!r}, which is not a rule (members missing: {missing})", "build it with prefit.rule.Rule, which gives every optional member its default")
     if not RULE_ID.match(rule.id):
         raise PluginProblem(origin, f"has rule id {rule.id!r}, which is not of the form family.name (lower case)", "rename the rule")
-    for text in ("summary", "why", "remedy"):
-        if not isinstance(getattr(rule, text), str) or not getattr(rule, text).strip():
+    for text, value in (("summary", rule.summary), ("why", rule.why), ("remedy", rule.remedy)):
+        if not isinstance(value, str) or not value.strip():
             raise PluginProblem(origin, f"rule {rule.id} has no {text} text", "write one")
     names = [t.name for t in rule.thresholds]
     if len(names) != len(set(names)):

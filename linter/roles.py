@@ -402,3 +402,13 @@ def group_labels(column: pa.ChunkedArray) -> list[str]:
 
 def _float_label(value: float) -> str:
     return str(int(value)) if float(value).is_integer() else repr(value)
+
+
+def row_labels(batch: pa.Table, roles: Roles) -> list[str | int] | None:
+    """The id labels of a batch's rows, or None without an id column."""
+    if roles.id is None:
+        return None
+    column = batch.column(roles.id)
+    if pa.types.is_integer(column.type):
+        return [v if v is not None else "" for v in column.to_pylist()]
+    return [v if v is not None else "" for v in label_values(column)]

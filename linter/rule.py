@@ -25,6 +25,7 @@ if TYPE_CHECKING:
 
     from .context import RunContext
     from .options import CheckOptions
+    from .teaching.base import Demonstration
 
 COMMON_PRACTICE = "common practice"
 
@@ -103,26 +104,121 @@ class Repair:
 RepairHook = Callable[["RunContext", Finding], "Repair | None"]
 
 
+SCREEN_MEASURES = (
+    "leverage",
+    "studentized_residual",
+    "cooks_distance",
+    "dffits",
+    "dfbetas",
+    "robust_distance",
+    "robust_residual",
+    "fence_score",
+)
+"""The per-row measures pass 2 of the stream and Dask engines can screen every row of a table by, in report order."""
+
+
+@dataclass(frozen=True)
+class ScreenScale:
+    """What a screen's cutoffs scale with: the whole table's fit (complete rows, rank, residual degrees of freedom)
+    and the number of columns of the sample's robust centre.
+
+    Without a least-squares fit (a target that is not numeric) ``rank`` and
+    ``df_resid`` are 0 and only screens that need no fit (``fence_score``) run.
+    """
+
+    rows: int
+    rank: int
+    df_resid: int
+    robust_columns: int = 0
+
+
+Cutoffs = tuple[tuple[str, float], ...]
+
+
+@dataclass(frozen=True)
+class RowScreen:
+    """A rule's pass-2 screen: the per-row measure it reads and how to scale its cutoffs from its configured thresholds.
+
+    Beyond the row budget the rules run on a sample; pass 2 then counts every
+    complete row of the whole table beyond each cutoff ``cutoffs(scale, settings)``
+    returns (named, e.g. ``("3p/n", 0.012)``), and keeps the most extreme rows.
+    ``measure`` is one of :data:`SCREEN_MEASURES`.
+    """
+
+    measure: str
+    cutoffs: Callable[[ScreenScale, "RuleSettings"], Cutoffs]
+
+    def __post_init__(self) -> None:
+        if self.measure not in SCREEN_MEASURES:
+            raise ValueError(f"screen measure {self.measure!r} is not one of {', '.join(SCREEN_MEASURES)}")
+
+
 @runtime_checkable
 class RuleLike(Protocol):
-    """What the engine needs of a rule, built-in or from a plugin (read-only attributes)."""
+    """Everything the engine, the cause finder, the catalogue and the writers read of a rule, built-in or from a plugin.
+
+    Every member is read directly (never with a default), so an object that
+    is not a :class:`Rule` must define them all; :class:`Rule` gives the
+    optional ones their defaults. All are read-only.
+    """
 
     @property
-    def id(self) -> str: ...
+    def id(self) -> str:
+        """``family.name``: lower case, digits and hyphens; new across every installed rule."""
 
     @property
-    def summary(self) -> str: ...
+    def family(self) -> str:
+        """The part of the id before the first dot (:func:`rule_family`): what ``--skip`` and configuration may name."""
 
     @property
-    def why(self) -> str: ...
+    def summary(self) -> str:
+        """One line saying what the rule flags."""
 
     @property
-    def remedy(self) -> str: ...
+    def why(self) -> str:
+        """Why it matters for a linear fit (``prefit why`` and ``--explain`` print it)."""
 
     @property
-    def thresholds(self) -> tuple[Threshold, ...]: ...
+    def remedy(self) -> str:
+        """What to do about a finding, unless the finding says otherwise."""
 
-    def check(self, context: "RunContext", settings: "RuleSettings") -> Iterable[Finding]: ...
+    @property
+    def thresholds(self) -> tuple[Threshold, ...]:
+        """The rule's limits, each with its source; configuration overrides their values by name."""
+
+    @property
+    def grades(self) -> tuple[Grade, ...]:
+        """Grades the rule gives that no threshold carries (for ``prefit rules`` and the SARIF rule descriptors)."""
+
+    @property
+    def needs(self) -> frozenset[str]:
+        """Shared statistics the rule reads: ``rows`` when it must see every row, ``fit`` when it reads the least-squares fit.
+
+        A rule needing both stands aside (not applicable) when there is no fit to diagnose.
+        """
+
+    @property
+    def heavy(self) -> bool:
+        """Whether the rule takes a large share of a run on a long table; heavy rules start first."""
+
+    @property
+    def repair(self) -> "RepairHook | None":
+        """Given one of the rule's findings, the :class:`Repair` that would fix it (or None): the finding is a candidate root cause."""
+
+    @property
+    def recheck(self) -> bool:
+        """Whether the cause finder runs the rule again on repaired tables (False: its findings stand as reported)."""
+
+    @property
+    def screen(self) -> RowScreen | None:
+        """The rule's pass-2 screen of every row beyond the row budget, or None when it has none."""
+
+    @property
+    def demonstration(self) -> "Callable[[], Demonstration] | None":
+        """A function of no arguments returning the rule's :class:`~prefit.teaching.Demonstration` (``prefit why``), or None."""
+
+    def check(self, context: "RunContext", settings: "RuleSettings") -> Iterable[Finding]:
+        """Yield the rule's findings on ``context`` with the configured ``settings``; raise :class:`NotApplicable` when there is nothing to check."""
 
 
 @dataclass(frozen=True)
@@ -145,6 +241,11 @@ class Rule:
     ``recheck=False`` keeps the rule out of those re-checks (its findings
     stand as reported): for a rule whose estimate is resistant to the other
     problems by design and too costly to repeat for every candidate root.
+
+    ``screen`` declares the rule's pass-2 screen (:class:`RowScreen`): the
+    per-row measure the stream and Dask engines count over every row of a
+    table beyond the row budget, with cutoffs from the rule's configured
+    thresholds. ``demonstration`` returns the rule's teaching demonstration.
     """
 
     id: str
@@ -158,22 +259,24 @@ class Rule:
     heavy: bool = False
     repair: RepairHook | None = None
     recheck: bool = True
+    screen: RowScreen | None = None
+    demonstration: "Callable[[], Demonstration] | None" = None
 
     @property
     def family(self) -> str:
         """The part of the id before the first dot."""
-        return self.id.split(".", 1)[0]
+        return rule_family(self.id)
 
 
 def default_grades(rule: RuleLike) -> tuple[Grade, ...]:
     """The grades a rule can give by default: declared ones and those of its thresholds, strongest first."""
-    declared = set(getattr(rule, "grades", ()) or ())
+    declared = set(rule.grades)
     declared |= {t.grade for t in rule.thresholds if t.grade is not None}
     return tuple(sorted(declared, reverse=True))
 
 
 def rule_family(rule_id: str) -> str:
-    """The family part of a rule id."""
+    """The family part of a rule id: the one place a family is derived (``Rule.family`` and the registry use it)."""
     return rule_id.split(".", 1)[0]
 
 

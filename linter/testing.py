@@ -26,11 +26,12 @@ from typing import TYPE_CHECKING, Any, Callable, Iterator, Mapping
 
 import numpy as np
 
-from .engine import require_fit
 from .errors import UsageProblem
 from .findings import Finding, Grade
+from .pipeline import context_for
 from .roles import Kind
 from .rule import NotApplicable, RuleLike, RuleSettings
+from .runner import require_fit
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -187,8 +188,6 @@ def _well_formed(rule: RuleLike, finding: object, case: str) -> None:
 
 def _contexts(case: AwkwardTable) -> Iterator["RunContext"]:
     """Fresh contexts of one case, built the way the engine builds them; none when the engine rejects the table."""
-    from .api import context_for
-
     options = dict(case.options)
     target = options.pop("target")
     while True:

@@ -13,7 +13,7 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.design import INTERCEPT
 from prefit.findings import Finding, Grade, RowLabel
-from prefit.rule import NotApplicable, Repair, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import Cutoffs, NotApplicable, Repair, RowScreen, Rule, RuleSettings, ScreenScale, Threshold, fmt
 from prefit.stats.chance import (
     chance_check,
     cooks_tail,
@@ -491,6 +491,41 @@ def _robust_distortion(ctx: RunContext, settings: RuleSettings) -> Iterator[Find
     )
 
 
+def _leverage_cutoffs(scale: ScreenScale, settings: RuleSettings) -> Cutoffs:
+    """Pass 2 counts hat values beyond 2p/n and beyond the note limit (3p/n by default)."""
+    n, k = scale.rows, scale.rank
+    note = settings.limit("note")
+    return (("2p/n", 2 * k / n), (f"{note:g}p/n", note * k / n))
+
+
+def _cooks_cutoffs(scale: ScreenScale, settings: RuleSettings) -> Cutoffs:
+    """Pass 2 counts Cook's distances beyond the weakens limit (4/n by default) and the misleads quantile of F(p, n-p)."""
+    import scipy.stats
+
+    n, k = scale.rows, scale.rank
+    weak, quantile = settings.limit("weakens"), settings.limit("misleads")
+    name = "median F(p, n-p)" if quantile == 0.5 else f"F(p, n-p) quantile {quantile:g}"
+    return ((f"{weak:g}/n", weak / n), (name, float(scipy.stats.f.ppf(quantile, k, n - k)) if n > k else float("inf")))
+
+
+def _dffits_cutoffs(scale: ScreenScale, settings: RuleSettings) -> Cutoffs:
+    """Pass 2 counts |DFFITS| beyond the weakens limit (2 sqrt(p/n) by default)."""
+    weak = settings.limit("weakens")
+    return ((f"{weak:g} sqrt(p/n)", float(weak * np.sqrt(scale.rank / scale.rows))),)
+
+
+def _dfbetas_cutoffs(scale: ScreenScale, settings: RuleSettings) -> Cutoffs:
+    """Pass 2 counts the largest |DFBETAS| of each row beyond the weakens limit (2/sqrt(n) by default) and the misleads limit (1)."""
+    weak, strong = settings.limit("weakens"), settings.limit("misleads")
+    return ((f"{weak:g}/sqrt(n)", float(weak / np.sqrt(scale.rows))), (f"{strong:g}", strong))
+
+
+def _robust_residual_cutoffs(scale: ScreenScale, settings: RuleSettings) -> Cutoffs:
+    """Pass 2 counts |standardized robust residuals| beyond the residual limit."""
+    limit = settings.limit("residual")
+    return ((f"{limit:g}", limit),)
+
+
 RULES = [
     Rule(
         id="influence.leverage",
@@ -514,6 +549,7 @@ RULES = [
             ),
         ),
         needs=frozenset({"rows", "fit"}),
+        screen=RowScreen("leverage", _leverage_cutoffs),
     ),
     Rule(
         id="influence.cooks-distance",
@@ -531,6 +567,7 @@ RULES = [
             CHANCE,
         ),
         needs=frozenset({"rows", "fit"}),
+        screen=RowScreen("cooks_distance", _cooks_cutoffs),
     ),
     Rule(
         id="influence.dffits",
@@ -541,6 +578,7 @@ RULES = [
         check=_dffits,
         thresholds=(Threshold("weakens", 2, BKW_SOURCE + ": |DFFITS| > 2*sqrt(p/n)", Grade.WEAKENS, ">"), CHANCE),
         needs=frozenset({"rows", "fit"}),
+        screen=RowScreen("dffits", _dffits_cutoffs),
     ),
     Rule(
         id="influence.dfbetas",
@@ -564,6 +602,7 @@ RULES = [
             CHANCE,
         ),
         needs=frozenset({"rows", "fit"}),
+        screen=RowScreen("dfbetas", _dfbetas_cutoffs),
     ),
     Rule(
         id="influence.robust-distortion",
@@ -585,5 +624,6 @@ RULES = [
             CHANCE,
         ),
         needs=frozenset({"rows", "fit"}),
+        screen=RowScreen("robust_residual", _robust_residual_cutoffs),
     ),
 ]

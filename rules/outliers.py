@@ -9,7 +9,7 @@ import numpy as np
 
 from prefit.context import RunContext
 from prefit.findings import MAX_LISTED_ROWS, Finding, Grade
-from prefit.rule import COMMON_PRACTICE, Repair, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import COMMON_PRACTICE, Cutoffs, Repair, RowScreen, Rule, RuleSettings, ScreenScale, Threshold, fmt
 from prefit.stats.chance import chance_check, probability_text, t_tail
 from prefit.stats.robust import MODIFIED_Z_FACTOR, MODIFIED_Z_LIMIT
 from prefit.stats.skewed import FENCE_MULTIPLE, NORMAL_SHARE_BEYOND, AdjustedFences
@@ -400,6 +400,30 @@ def _multivariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     )
 
 
+def _studentized_cutoffs(scale: ScreenScale, settings: RuleSettings) -> Cutoffs:
+    """Pass 2 counts |externally studentized residuals| beyond the weakens limit (3) and the Bonferroni limit at the misleads level."""
+    import scipy.stats
+
+    weak, level = settings.limit("weakens"), settings.limit("misleads")
+    dof = scale.df_resid - 1
+    bonferroni = float(scipy.stats.t.isf(level / (2 * scale.rows), dof)) if dof > 0 else float("inf")
+    return ((f"{weak:g}", weak), (f"bonferroni {level:g}", bonferroni))
+
+
+def _fence_cutoffs(scale: ScreenScale, settings: RuleSettings) -> Cutoffs:
+    """Pass 2 counts every value's fence score beyond the note limit (the IQR multiple of the adjusted boxplot)."""
+    multiple = settings.limit("note")
+    return ((f"{multiple:g} IQR", multiple),)
+
+
+def _robust_distance_cutoffs(scale: ScreenScale, settings: RuleSettings) -> Cutoffs:
+    """Pass 2 counts squared robust distances beyond the chi-square quantile at the weakens probability (0.975)."""
+    import scipy.stats
+
+    probability = settings.limit("weakens")
+    return ((f"chi-square {probability:g}", float(scipy.stats.chi2.ppf(probability, scale.robust_columns))),)
+
+
 RULES = [
     Rule(
         id="outliers.studentized-residual",
@@ -423,6 +447,7 @@ RULES = [
             CHANCE,
         ),
         needs=frozenset({"rows", "fit"}),
+        screen=RowScreen("studentized_residual", _studentized_cutoffs),
     ),
     Rule(
         id="outliers.univariate",
@@ -441,6 +466,7 @@ RULES = [
         ),
         needs=frozenset({"rows"}),
         repair=_slips_scaled_back,
+        screen=RowScreen("fence_score", _fence_cutoffs),
     ),
     Rule(
         id="outliers.multivariate",
@@ -486,5 +512,6 @@ RULES = [
             CHANCE,
         ),
         needs=frozenset({"rows"}),
+        screen=RowScreen("robust_distance", _robust_distance_cutoffs),
     ),
 ]

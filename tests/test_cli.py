@@ -189,12 +189,12 @@ def test_an_internal_failure_is_exit_3_with_one_line(tmp_path: Path, monkeypatch
 
 
 def test_memory_exhaustion_is_exit_2_naming_the_stream_engine(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
-    import prefit.api
+    import prefit.pipeline
 
     def exhausted(*args: object, **kwargs: object) -> None:
         raise MemoryError
 
-    monkeypatch.setattr(prefit.api, "run_check", exhausted)
+    monkeypatch.setattr(prefit.pipeline, "memory_context", exhausted)
     table = tmp_path / "t.csv"
     table.write_text(OK_TABLE)
     run = run_cli("check", table, "--target", "y")

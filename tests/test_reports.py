@@ -131,7 +131,7 @@ def test_sarif_regions_point_at_the_csv_lines_of_the_named_rows() -> None:
         report = sample_report(name)
         if report.info.format != "csv" or not any(f.rows for f in report.findings):
             continue
-        id_column = report.design.get("id")
+        id_column = report.design.id
         lines = (ROOT / report.info.path).read_text(encoding="utf-8").split("\n")
         header = next(csv.reader([lines[0]]))
         run = json.loads(report.to_sarif())["runs"][0]
@@ -607,3 +607,13 @@ def test_every_format_states_the_purpose(purpose: str) -> None:
     assert f"purpose {purpose}" in report.render("text")
     assert f"purpose {purpose}" in report.to_markdown()
     assert f"<dt>purpose</dt><dd>{purpose}</dd>" in report.to_html(plots=False)
+
+
+def test_report_formats_come_through_the_entry_point_group() -> None:
+    import importlib.metadata
+
+    from prefit.report import formats
+
+    points = {ep.name for ep in importlib.metadata.entry_points(group="prefit.formats")}
+    assert {"text", "json", "sarif", "junit", "markdown", "html"} <= points
+    assert points <= set(formats())

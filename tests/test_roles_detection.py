@@ -27,7 +27,7 @@ def test_shuffled_row_numbers_are_left_out_of_the_design(start: int) -> None:
     frame["record"] = np.random.default_rng(1).permutation(len(frame)) + start
     report = prefit.check(frame, target="energy_kwh")
     assert "record" in _left_out(report) and "row numbers" in _left_out(report)["record"]
-    assert "record" not in [t["column"] for t in report.design["terms"]]
+    assert "record" not in [t.column for t in report.design.terms]
 
 
 def test_whole_number_dates_are_left_out_of_the_design() -> None:
@@ -74,12 +74,12 @@ def test_grade_prints_its_name_and_the_package_lists_its_api() -> None:
 
 def test_the_constant_term_is_called_intercept_and_a_column_of_that_name_is_refused() -> None:
     report = prefit.check(_site_days(), target="energy_kwh")
-    assert report.design["terms"][0]["column"] == "intercept"
+    assert report.design.terms[0].column == "intercept"
     clash = _site_days()
     clash["intercept"] = 1.0
     with pytest.raises(UsageProblem, match="constant term"):
         prefit.check(clash, target="energy_kwh")
-    assert prefit.check(clash, target="energy_kwh", intercept=False).design["terms"][-1]["column"] == "intercept"
+    assert prefit.check(clash, target="energy_kwh", intercept=False).design.terms[-1].column == "intercept"
 
 
 def test_a_unique_text_column_is_offered_as_row_labels() -> None:

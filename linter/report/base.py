@@ -10,10 +10,11 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Mapping, Sequence
 
+from .. import __version__
 from ..findings import Finding
 
 if TYPE_CHECKING:
-    from ..api import Report
+    from ..outcome import Report
     from ..rule import RuleLike
 
 
@@ -36,8 +37,6 @@ class RunFacts:
     @classmethod
     def of(cls, reports: Sequence["Report"]) -> "RunFacts":
         """The facts of a run over ``reports``: every rule any of them knew, in id order."""
-        from .. import __version__
-
         known: dict[str, "RuleLike"] = {}
         for report in reports:
             for rule in report.rules:
@@ -90,7 +89,7 @@ def drive(writer: ReportWriter, reports: Sequence["Report"]) -> str:
 
 def labels_not_unique(report: "Report") -> str | None:
     """``not unique: 6 values for 120 rows`` when the id column has fewer distinct values than the table has rows."""
-    values = report.design.get("id_values")
+    values = report.design.id_values
     if values is None or values >= report.info.rows:
         return None
     return f"not unique: {values:,} values for {report.info.rows:,} rows"
@@ -107,12 +106,11 @@ def baseline_sentence(report: "Report") -> str | None:
 
 def groups_sentence(report: "Report") -> str | None:
     """``rows grouped by 'site_id' (40 groups of 90 rows; from the repeating --id)``, or None when grouping is off."""
-    groups = report.design.get("groups")
-    if not groups:
+    groups = report.design.groups
+    if groups is None:
         return None
-    sizes = groups["sizes"]
-    spread = f"{sizes['min']:,}" if sizes["min"] == sizes["max"] else f"{sizes['min']:,} to {sizes['max']:,}, median {sizes['median']:g}"
-    return f"rows grouped by {groups['column']!r} ({groups['groups']:,} groups of {spread} rows; from {groups['from']}; --group none turns this off)"
+    spread = f"{groups.smallest:,}" if groups.smallest == groups.largest else f"{groups.smallest:,} to {groups.largest:,}, median {groups.median:g}"
+    return f"rows grouped by {groups.column!r} ({groups.groups:,} groups of {spread} rows; from {groups.origin}; --group none turns this off)"
 
 
 def row_groups(finding: Finding, limit: int) -> tuple[list[str], int]:
@@ -135,8 +133,6 @@ def folded(report: "Report") -> list[tuple[Finding, list[Finding]]]:
     A finding explained by others folds under the root its first cause leads
     to; one whose causes are not in the report (accepted) stands as a root.
     """
-    from ..causes import root_of
-
     findings = report.findings
     position = {f.key: i for i, f in enumerate(findings) if f.key}
     causes = [tuple(position[k] for k in f.explained_by if k in position) for f in findings]
@@ -157,3 +153,14 @@ def fix_first(report: "Report") -> list[tuple[Finding, int]]:
     """The roots to fix first (most damaging first), each with the number of findings folded under it."""
     by_key = {root.key: (root, len(effects)) for root, effects in folded(report)}
     return [by_key[key] for key in report.fix_first if key in by_key]
+
+
+def root_of(position: int, explained_by: Sequence[Sequence[int]]) -> int:
+    """The root a finding folds under: follow its first cause until a finding without causes (or a loop)."""
+    seen = {position}
+    while explained_by[position]:
+        position = explained_by[position][0]
+        if position in seen:
+            break
+        seen.add(position)
+    return position

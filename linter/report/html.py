@@ -12,12 +12,12 @@ import html
 from typing import TYPE_CHECKING, Any
 
 from ..findings import GRADE_MEANINGS, GRADES_STRONGEST_FIRST, Finding, Grade, count_by_grade, counted
-from ..rule import capped_names, fmt
+from ..rule import capped_names, default_grades, fmt
 from ..text import inert_message
 from .base import ReportWriter, RunFacts, fix_first, folded, groups_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
-    from ..api import Report
+    from ..outcome import Report
     from ..rule import RuleLike
     from .plots import Plot
 
@@ -79,7 +79,7 @@ def _verdict(report: "Report") -> tuple[str, str]:
 
 def _label_source(report: "Report") -> str:
     """The id column, and whether its labels name single rows."""
-    name = report.design.get("id")
+    name = report.design.id
     if not name:
         return "data row numbers"
     shared = labels_not_unique(report)
@@ -113,14 +113,14 @@ def _facts(report: "Report") -> str:
 def _design(report: "Report", prefix: str = "") -> str:
     design = report.design
     rows = []
-    for term in design.get("terms", []):
-        extra = f"reference {term['reference']}" if "reference" in term else ""
-        rows.append(f"<tr><td>{esc(term['column'])}</td><td>{esc(term['kind'])}</td><td class=\"n\">{int(term['parameters'])}</td><td>{esc(extra)}</td></tr>")
-    left_out = "".join(f"<li><b>{esc(c)}</b>: {esc(why)}</li>" for c, why in design.get("left_out", {}).items())
+    for term in design.terms:
+        extra = f"reference {term.reference}" if term.reference is not None else ""
+        rows.append(f"<tr><td>{esc(term.column)}</td><td>{esc(term.kind)}</td><td class=\"n\">{int(term.parameters)}</td><td>{esc(extra)}</td></tr>")
+    left_out = "".join(f"<li><b>{esc(c)}</b>: {esc(why)}</li>" for c, why in design.left_out.items())
     return (
         f'<h2 id="{prefix}design">Design</h2>'
-        f"<p>{'with' if design.get('intercept') else 'without'} intercept; {esc(design.get('coding', ''))}; "
-        f"{counted(int(design.get('rows_dropped', 0)), 'row')} dropped as incomplete.</p>"
+        f"<p>{'with' if design.intercept else 'without'} intercept; {esc(design.coding)}; "
+        f"{counted(int(design.rows_dropped), 'row')} dropped as incomplete.</p>"
         "<table><thead><tr><th>term</th><th>kind</th><th>parameters</th><th>coding</th></tr></thead>"
         f"<tbody>{''.join(rows)}</tbody></table>"
         + (f"<p class=\"label\">Left out of the predictors:</p><ul>{left_out}</ul>" if left_out else "")
@@ -145,8 +145,6 @@ def rule_entry(rule: "RuleLike", anchor: str) -> str:
     The same entry makes up the catalogue page (``prefit rules --format html``) and a report's appendix of the
     rules its findings came from, so a report stays one self-contained page.
     """
-    from ..rule import default_grades
-
     limits = "".join(f"<tr><td>{esc(t.name)}</td><td>{esc(t.describe())}</td><td>{esc(t.source)}</td></tr>" for t in rule.thresholds)
     table = f"<table><thead><tr><th>threshold</th><th>rule</th><th>source</th></tr></thead><tbody>{limits}</tbody></table>" if limits else ""
     grades = ", ".join(g.word for g in default_grades(rule)) or "-"

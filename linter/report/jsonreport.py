@@ -9,7 +9,7 @@ from ..text import json_inert
 from .base import ReportWriter
 
 if TYPE_CHECKING:
-    from ..api import Report
+    from ..outcome import Report
 
 
 class JsonWriter(ReportWriter):

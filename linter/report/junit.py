@@ -13,13 +13,13 @@ import re
 import xml.etree.ElementTree as ET
 from typing import TYPE_CHECKING
 
-from ..engine import RULE_ERROR
 from ..findings import Finding
+from ..outcome import RULE_ERROR
 from ..text import inert_message
 from .base import ReportWriter, RunFacts
 
 if TYPE_CHECKING:
-    from ..api import Report
+    from ..outcome import Report
 
 _NOT_XML = re.compile("[^\u0009\u000a\u000d\u0020-\ud7ff\ue000-\ufffd\U00010000-\U0010ffff]")
 

@@ -19,7 +19,7 @@ from ..text import inert_message
 from .base import ReportWriter, RunFacts, baseline_sentence, fix_first, folded, row_groups
 
 if TYPE_CHECKING:
-    from ..api import Report
+    from ..outcome import Report
 
 _PUNCTUATION = re.compile(r"([\\`*_\[\]|~])")
 LISTED_ROWS = 5

@@ -21,15 +21,15 @@ import pyarrow.compute as pc
 from ..accepted import RowDigester
 from ..design import INTERCEPT
 from ..findings import RowLabel
-from ..rule import fmt
+from ..rule import fmt, rule_family
 from ..stats.resistant import RESIDUAL_LIMIT, RowClass, classify, distance_cutoff
 from ..text import inert
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
 
-    from ..api import Report
     from ..context import RunContext
+    from ..outcome import Report
 
 COOK_CONTOURS = (0.5, 1.0)
 """Cook's distance contours drawn when no installed rule declares Cook's distance thresholds (common practice)."""
@@ -92,7 +92,7 @@ def _flagged_positions(report: "Report") -> list[int]:
     if report.context is None:
         return []
     digester = RowDigester(report.context)
-    labels: list[RowLabel] = [label for f in report.findings if f.rule.split(".", 1)[0] in ROW_FAMILIES for label in f.rows]
+    labels: list[RowLabel] = [label for f in report.findings if rule_family(f.rule) in ROW_FAMILIES for label in f.rows]
     return digester.positions(labels)
 
 

@@ -20,14 +20,13 @@ from pathlib import PurePosixPath, PureWindowsPath
 from typing import TYPE_CHECKING, Any
 from urllib.parse import quote
 
-from ..accepted import RowDigester
 from ..findings import Finding, Grade, json_number, plain_json
 from ..rule import default_grades
 from ..text import cut_texts, inert, inert_message, json_inert
 from .base import ReportWriter, RunFacts
 
 if TYPE_CHECKING:
-    from ..api import Report
+    from ..outcome import Report
     from ..rule import RuleLike
 
 SARIF_VERSION = "2.1.0"
@@ -67,7 +66,7 @@ def _descriptor(rule: "RuleLike") -> dict[str, Any]:
         "fullDescription": {"text": rule.why},
         "help": {"text": f"{rule.why}\n\nRemedy: {rule.remedy}", "markdown": f"{rule.why}\n\n**Remedy:** {rule.remedy}"},
         "defaultConfiguration": {"level": level},
-        "properties": {"family": rule.id.split(".", 1)[0], "grades": [g.word for g in grades], "thresholds": thresholds},
+        "properties": {"family": rule.family, "grades": [g.word for g in grades], "thresholds": thresholds},
     }
 
 
@@ -96,16 +95,15 @@ class SarifWriter(ReportWriter):
         if report.info.sha256:
             artifact["hashes"] = {"sha-256": report.info.sha256}
         self.artifacts.append(artifact)
-        self.digester = RowDigester(report.context) if report.context is not None else None
         self.keys = dict(zip(map(id, report.findings), report.fingerprints))
 
     def _line(self, label: Any) -> int | None:
         header = HEADER_LINES.get(self.report.info.format)
         if header is None:
             return None
-        if self.digester is not None:
-            positions = self.digester.positions([label])
-            return positions[0] + 1 + header if len(positions) == 1 else None
+        if self.report.row_positions:
+            position = self.report.row_positions.get(label)
+            return position + 1 + header if position is not None else None
         return label + header if isinstance(label, int) and label >= 1 else None
 
     def _location(self, finding: Finding, label: Any | None, with_columns: bool) -> dict[str, Any]:
@@ -169,7 +167,7 @@ class SarifWriter(ReportWriter):
                 "gated": len(report.gated),
                 "accepted": len(report.accepted),
                 "exitCode": report.exit_code,
-                "design": report.design,
+                "design": report.design.to_dict(),
                 **({"baseline": dict(report.baseline)} if report.baseline is not None else {}),
             }
         )

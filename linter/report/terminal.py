@@ -24,7 +24,7 @@ from ..text import inert
 from .base import ReportWriter, RunFacts, baseline_sentence, fix_first, folded, groups_sentence, labels_not_unique, row_groups
 
 if TYPE_CHECKING:
-    from ..api import Report
+    from ..outcome import Report
 
 THEME = Theme(
     {
@@ -65,25 +65,25 @@ def _facts(report: "Report") -> Text:
 
 
 def _design_line(report: "Report") -> Text:
-    terms = report.design["terms"]
-    parts = ["intercept"] if report.design["intercept"] else []
-    numeric = sum(1 for t in terms if t["kind"] in ("numeric", "datetime"))
+    terms = report.design.terms
+    parts = ["intercept"] if report.design.intercept else []
+    numeric = sum(1 for t in terms if t.kind in ("numeric", "datetime"))
     if numeric:
         parts.append(f"{numeric} numeric")
     coded: list[str] = []
     for term in terms:
-        if "reference" in term:
-            coded.append(f"{inert(term['column'])} ({counted(term['parameters'], 'dummy', 'dummies')}, reference {inert(repr(term['reference']))})")
-        elif term["kind"] in ("categorical", "boolean"):
-            coded.append(f"{inert(term['column'])} (no complete rows)")
+        if term.reference is not None:
+            coded.append(f"{inert(term.column)} ({counted(term.parameters, 'dummy', 'dummies')}, reference {inert(repr(term.reference))})")
+        elif term.kind in ("categorical", "boolean"):
+            coded.append(f"{inert(term.column)} (no complete rows)")
     shown = coded if len(coded) <= LISTED_NAMES else coded[: LISTED_NAMES - 2] + [f"{len(coded) - LISTED_NAMES + 2:,} more categories"]
     parts += shown
     line = Text()
     line.append("design ", style="facts.label")
     line.append(" + ".join(parts) or "empty")
-    left_out = report.design.get("left_out", {})
-    if report.design.get("id"):
-        line.append(f"; row labels from {inert(repr(report.design['id']))}{_shared_labels(report)}")
+    left_out = report.design.left_out
+    if report.design.id:
+        line.append(f"; row labels from {inert(repr(report.design.id))}{_shared_labels(report)}")
     grouping = groups_sentence(report)
     if grouping:
         line.append(f"; {grouping}")

@@ -17,14 +17,17 @@ from typing import TYPE_CHECKING, Any, Iterator
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.parquet as pq
 
+from ..api import check
+from ..pipeline import context_for
+from ..rule import RuleLike, RuleSettings
+from ..runner import run_rule
 from .base import Columns, Demonstration
 
 if TYPE_CHECKING:
-    from ..api import Report
     from ..context import RunContext
-    from ..engine import RuleOutcome
-    from ..rule import RuleLike
+    from ..outcome import Report, RuleOutcome
 
 
 COMPANION_FILES = {"baseline": "last_month.parquet", "score": "rows_to_score.parquet"}
@@ -48,8 +51,6 @@ def _options_with_companions(demo: Demonstration) -> Iterator[tuple[dict[str, An
 
     Also yields the temporary folder, whose path findings may quote (a baseline's file name).
     """
-    import pyarrow.parquet as pq
-
     if not demo.table:
         raise ValueError("this demonstration has no table")
     options = dict(demo.options)
@@ -64,21 +65,15 @@ def _options_with_companions(demo: Demonstration) -> Iterator[tuple[dict[str, An
 @contextmanager
 def demonstration_context(demo: Demonstration) -> Iterator["RunContext"]:
     """The run context of the demonstration's table, checked with its options."""
-    from ..api import context_for
-
     with _options_with_companions(demo) as (options, _):
         yield context_for(arrow_table(demo.table), **options)
 
 
-def run_on_demonstration(rule: "RuleLike", demo: Demonstration) -> "RuleOutcome":
+def run_on_demonstration(rule: RuleLike, demo: Demonstration) -> "RuleOutcome":
     """What ``rule``, with its default settings, finds in the demonstration's table.
 
     Messages name a companion table by its file name alone (``baseline.parquet``), not by its temporary folder.
     """
-    from ..api import context_for
-    from ..engine import run_rule
-    from ..rule import RuleSettings
-
     with _options_with_companions(demo) as (options, folder):
         outcome = run_rule(rule, RuleSettings.defaults(rule), context_for(arrow_table(demo.table), **options))
     prefix = folder + os.sep
@@ -88,7 +83,5 @@ def run_on_demonstration(rule: "RuleLike", demo: Demonstration) -> "RuleOutcome"
 
 def check_demonstration(demo: Demonstration, **extra: Any) -> "Report":
     """The whole check of the demonstration's table, as `prefit check` would run it (``extra`` adds options)."""
-    from ..api import check
-
     with _options_with_companions(demo) as (options, _):
         return check(arrow_table(demo.table), **{**options, **extra})

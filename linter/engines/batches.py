@@ -16,8 +16,8 @@ from typing import Generator, Iterator, TextIO
 
 import pyarrow as pa
 
-from .errors import UsageProblem
-from .reading import (
+from ..errors import UsageProblem
+from ..reading import (
     SNIFF_BYTES,
     UTF8_BOM,
     ReadOptions,

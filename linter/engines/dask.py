@@ -16,9 +16,9 @@ from typing import Any, Callable, Sequence
 import numpy as np
 import pyarrow as pa
 
+from ..errors import UsageProblem
+from ..reading import ReadOptions, TableInfo
 from .batches import BatchSource, open_batches
-from .errors import UsageProblem
-from .reading import ReadOptions, TableInfo
 
 SPLIT_EVERY = 2
 CSV_BLOCK = "64MB"

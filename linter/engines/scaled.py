@@ -1,50 +1,44 @@
-"""The three engines: read the table whole (memory), in row batches (stream), or in partitions on Dask (dask).
+"""The two-pass driver the stream and Dask engines share (the memory engine reads the table whole: :mod:`.memory`).
 
-All three run the same rules on a :class:`~prefit.context.RunContext`. The
-stream and Dask engines run the same pass functions (:mod:`prefit.passes`)
-per batch or partition and merge their results:
+All three engines run the same rules on a :class:`~prefit.context.RunContext`. The
+stream and Dask engines run the same pass functions (:mod:`prefit.engines.passes`)
+per batch or partition, through a :class:`PassRunner`, and merge their results:
 
 - the kept rows (:class:`KeptRows`): the whole table while it fits the row
   budget, which the rules then see exactly as the memory engine would, with
   the fit taken from the merged batch factors; beyond the budget, a sample
   of rows chosen by a seeded hash of their position, on which every rule
   runs (the report says so and how large);
-- pass 1 (:func:`prefit.passes.first_pass`), the whole table's R factor,
+- pass 1 (:func:`prefit.engines.passes.first_pass`), the whole table's R factor,
   and its column tallies when the rules see every row;
-- pass 2 (:func:`prefit.passes.second_pass`), only when the rules ran on a
+- pass 2 (:func:`prefit.engines.passes.second_pass`), only when the rules ran on a
   sample: every complete row scored against the whole table's fit and
-  measured against the sample's robust centre.
+  measured against the sample's robust centre, for the measures the selected
+  rules screen (:attr:`prefit.rule.RuleLike.screen`), at their configured cutoffs.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any, Callable, Mapping, Protocol, Sequence
+from dataclasses import dataclass
+from typing import Any, Callable, Mapping, Protocol, Sequence
 
 import numpy as np
 import pyarrow as pa
 
-from .batches import BATCH_ROWS, BatchSource
-from .errors import UsageProblem
-from .options import CheckOptions
-from .passes import (
-    FENCE_CONFIDENCE,
-    ColumnFences,
-    MeasureScreen,
-    RobustCentre,
-    TableStatistics,
-    first_pass,
-    merge_all,
-    merge_screens,
-    second_pass,
-)
-from .reading import TableInfo
-from .roles import Kind, apply_missing_codes
-from .stats.fit import PreliminaryFit
-from .stats.positions import position_hashes
-
-if TYPE_CHECKING:
-    from .context import RunContext
+from ..context import RunContext
+from ..errors import UsageProblem
+from ..options import CheckOptions
+from ..outcome import EngineRun
+from ..reading import TableInfo
+from ..roles import Kind, apply_missing_codes
+from ..rule import SCREEN_MEASURES, Cutoffs, RuleLike, RuleSettings, ScreenScale
+from ..stats.batched import TableStatistics, merge_all
+from ..stats.fit import PreliminaryFit
+from ..stats.positions import position_hashes
+from ..stats.screens import ColumnFences, MeasureScreen, RobustCentre
+from .batches import BATCH_ROWS
+from .memory import build_context
+from .passes import first_pass, merge_screens, second_pass
 
 SAMPLE_CELLS = 6_000_000
 ROWS_PER_VARIABLE = 5
@@ -114,100 +108,6 @@ class PassRunner(Protocol):
     def columns(self) -> int: ...
 
 
-@dataclass
-class StreamRunner:
-    """Batches read one at a time from the file, in order, with a progress bar per pass on a terminal."""
-
-    source: BatchSource
-    progress: Callable[[str, int | None], Any] | None = None
-    name: str = "stream"
-    reads_in_process: bool = True
-
-    def map_merge(self, task: Callable[[pa.Table, int], Any], merge: Callable[[Sequence[Any]], Any], label: str) -> Any:
-        results: list[Any] = []
-        offset = 0
-        bar = self.progress(label, self.source.rows) if self.progress is not None else None
-        try:
-            for batch in self.source.batches():
-                results.append(task(batch, offset))
-                offset += batch.num_rows
-                if bar is not None:
-                    bar.advance(batch.num_rows)
-                # Merge as we go so that memory holds two results, not one per batch.
-                if len(results) == 2:
-                    results = [merge(results)]
-        finally:
-            if bar is not None:
-                bar.finish()
-        if not results:
-            raise UsageProblem(self.source.path, "has a header but no data rows", "give a table with at least one data row")
-        return merge(results)
-
-    def info(self, rows: int, columns: int) -> TableInfo:
-        return self.source.info(rows, columns)
-
-    def columns(self) -> int:
-        return len(self.source.schema())
-
-
-@dataclass(frozen=True)
-class EngineRun:
-    """What the engine did, for the report: its name, and the sample the rules ran on when the table was beyond the row budget."""
-
-    name: str
-    table_rows: int
-    rules_rows: int
-    complete_rows: int | None = None
-    screens: tuple[MeasureScreen, ...] = field(default=(), repr=False)
-    on_sample: tuple[str, ...] = ()
-    screened: tuple[str, ...] = ()
-    fences: ColumnFences | None = field(default=None, repr=False)
-
-    @property
-    def sampled(self) -> bool:
-        """Whether the rules saw a sample rather than every row."""
-        return self.rules_rows < self.table_rows
-
-    def sentence(self) -> str | None:
-        """What the rules saw, in words, when it was a sample; None when they saw every row."""
-        if not self.sampled:
-            return None
-        text = (
-            f"the rules ran on a sample of {self.rules_rows:,} of {self.table_rows:,} rows "
-            f"({self.name} engine; rows chosen by a seeded hash of their position; raise --row-budget to see more)"
-        )
-        beyond = [f"{c.beyond:,} beyond {s.measure.replace('_', ' ')} {c.name}" for s in self.screens if s.column is None for c in s.cutoffs[-1:]]
-        if beyond:
-            text += f"; all {self.complete_rows:,} complete rows were screened against the whole table's fit: " + ", ".join(beyond)
-        fenced = [s for s in self.screens if s.measure == "fence_score"]
-        if fenced and self.fences is not None:
-            values = sum(s.cutoffs[-1].beyond for s in fenced)
-            worst = max(self.fences.rank_error(s.column) for s in fenced if s.column is not None)
-            text += (
-                f"; every value of {len(fenced)} numeric column{'' if len(fenced) == 1 else 's'} was screened against the sample's adjusted boxplot: "
-                f"{values:,} beyond its fences (the sample's quartiles are within {worst:.2g} in rank of the whole "
-                f"table's with probability {FENCE_CONFIDENCE:g}, Dvoretzky-Kiefer-Wolfowitz)"
-            )
-        return text
-
-    def to_dict(self) -> dict[str, Any]:
-        """Plain JSON types."""
-        out: dict[str, Any] = {"name": self.name, "rules_ran_on_rows": self.rules_rows, "table_rows": self.table_rows}
-        if self.sampled:
-            out["sample"] = {
-                "rows": self.rules_rows,
-                "of": self.table_rows,
-                "how": "rows with the smallest seeded hash of their position (uniform, the same for any batching)",
-            }
-            out["complete_rows"] = self.complete_rows
-            out["rules_on_sample"] = list(self.on_sample)
-            out["rules_with_every_row_screened"] = list(self.screened)
-            out["row_screens"] = {s.key: s.to_dict() for s in self.screens}
-            if self.fences is not None:
-                out["fences"] = self.fences.to_dict()
-        return out
-
-
 def conformed(batch: pa.Table, schema: pa.Schema, codes: Any) -> pa.Table:
     """A batch with the declared missing codes applied and each column cast to the kept rows' type."""
     batch, _ = apply_missing_codes(batch, codes)
@@ -225,7 +125,11 @@ def keep_rows(runner: PassRunner, limit: int) -> KeptRows:
 
 
 def scaled_context(
-    runner: PassRunner, options: CheckOptions, row_budget: int | None = None, tallies: bool = False
+    runner: PassRunner,
+    options: CheckOptions,
+    row_budget: int | None = None,
+    tallies: bool = False,
+    selected: Sequence[tuple[RuleLike, RuleSettings]] = (),
 ) -> tuple[RunContext, EngineRun]:
     """Run the passes of the stream or Dask engine and build the context the rules read.
 
@@ -235,9 +139,9 @@ def scaled_context(
     sample and pass 2 screens every row against the whole table's fit.
     ``tallies`` has pass 1 tally every column even beyond the budget (for a
     baseline profile); the merged statistics are on the context as ``whole_statistics``.
+    Pass 2 screens the measures the ``selected`` rules declare
+    (:attr:`prefit.rule.RuleLike.screen`), at the cutoffs their configured thresholds give.
     """
-    from .api import build_context
-
     limit = row_budget if row_budget is not None else max(1, SAMPLE_CELLS // max(1, runner.columns()))
     kept = keep_rows(runner, limit)
     info = runner.info(kept.seen, kept.table.num_columns)
@@ -261,21 +165,35 @@ def scaled_context(
     context.file_positions = kept.positions
     context.table_model = statistics.model
     screens: tuple[MeasureScreen, ...] = ()
+    declared = [(rule, settings, rule.screen) for rule, settings in selected if rule.screen is not None]
+    wanted = {screen.measure for _, _, screen in declared}
     fit = whole_fit(statistics, roles.kinds, intercept) if context.target_is_numeric else None
     if fit is not None and not (fit.rank > 0 and fit.df_resid > 1):
         fit = None
     terms = statistics.model.terms(roles.kinds) if fit is not None else ()
-    robust = robust_centre(context) if fit is not None else None
-    line = context.resistant if fit is not None and robust is not None else None
+    robust = robust_centre(context) if fit is not None and "robust_distance" in wanted else None
+    line = context.resistant if fit is not None and robust is not None and "robust_residual" in wanted else None
     resistant = (line, context.design.terms) if line is not None else None
-    fences = column_fences(context)
+    fences = column_fences(context) if "fence_score" in wanted else None
+    if fit is not None:
+        scale = ScreenScale(fit.n, fit.rank, fit.df_resid, len(robust.columns) if robust is not None else 0)
+    else:
+        scale = ScreenScale(statistics.model.rows, 0, 0)
+    measurable = {"fence_score"} if fit is None else set(SCREEN_MEASURES)
+    cutoffs: dict[str, Cutoffs] = {}
+    for _, settings, screen in declared:
+        if screen.measure in measurable:
+            counted = tuple((name, float(value)) for name, value in screen.cutoffs(scale, settings))
+            cutoffs[screen.measure] = cutoffs.get(screen.measure, ()) + counted
     if fit is not None or fences is not None:
 
         def pass_two(batch: pa.Table, offset: int) -> tuple[MeasureScreen, ...]:
-            return second_pass(conformed(batch, schema, codes), offset, roles, terms, fit, robust, fences, resistant)
+            return second_pass(conformed(batch, schema, codes), offset, roles, terms, fit, robust, fences, resistant, cutoffs)
 
         screens = runner.map_merge(pass_two, merge_screens, "pass 2")
-    return context, EngineRun(runner.name, kept.seen, kept.table.num_rows, statistics.model.rows, screens, fences=fences)
+    measured = {screen.measure for screen in screens}
+    screened = tuple(rule.id for rule, _, screen in declared if screen.measure in measured)
+    return context, EngineRun(runner.name, kept.seen, kept.table.num_rows, statistics.model.rows, screens, screened=screened, fences=fences)
 
 
 def column_fences(context: RunContext) -> ColumnFences | None:

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import traceback
 from contextlib import nullcontext
-from dataclasses import dataclass
 from typing import Iterable, Mapping
 
 import numpy as np
@@ -13,20 +12,9 @@ from .context import RunContext
 from .errors import UsageProblem, closest_names
 from .findings import Finding, Grade
 from .options import CheckOptions
+from .outcome import RULE_ERROR, RuleOutcome
 from .registry import Registry
-from .rule import NotApplicable, RuleLike, RuleSettings, rule_family
-
-RULE_ERROR = "engine.rule-error"
-
-
-@dataclass(frozen=True)
-class RuleOutcome:
-    """What one rule did: its findings, the error that stopped it, or why it did not apply."""
-
-    rule: str
-    findings: tuple[Finding, ...]
-    error: str | None = None
-    not_applicable: str | None = None
+from .rule import NotApplicable, RuleLike, RuleSettings
 
 
 def select_rules(registry: Registry, options: CheckOptions) -> list[tuple[RuleLike, RuleSettings]]:
@@ -37,9 +25,9 @@ def select_rules(registry: Registry, options: CheckOptions) -> list[tuple[RuleLi
             raise UsageProblem(f"rule {wanted!r}", "is not a known rule or family", closest_names(wanted, sorted(registry.rules) + families, kind="rules and families") + "; `prefit rules` lists them")
     chosen: list[tuple[RuleLike, RuleSettings]] = []
     for rule in registry:
-        if rule.id in options.skip_rules or rule_family(rule.id) in options.skip_rules:
+        if rule.id in options.skip_rules or rule.family in options.skip_rules:
             continue
-        config = options.rules.get(rule.id) or options.rules.get(rule_family(rule.id))
+        config = options.rules.get(rule.id) or options.rules.get(rule.family)
         settings = RuleSettings.defaults(rule)
         if config is not None:
             if not config.enabled:
@@ -97,8 +85,7 @@ def run_rule(rule: RuleLike, settings: RuleSettings, context: RunContext, debug:
 
 def require_fit(rule: RuleLike, context: RunContext) -> None:
     """Raise NotApplicable when a per-row diagnostic of the fit has no fit to diagnose."""
-    needs: frozenset[str] = getattr(rule, "needs", frozenset())
-    if not {"rows", "fit"} <= needs:
+    if not {"rows", "fit"} <= rule.needs:
         return
     if not context.target_is_numeric:
         raise NotApplicable(f"no least-squares fit: the target {context.roles.target} is not numeric")

@@ -1,0 +1,42 @@
+"""Every core prefit module imports alone in a fresh interpreter: no import cycle hides behind the order other modules load in.
+
+The core is every module outside the leaf packages (the statistics, the rule
+families and their teaching texts, which import the core and nothing of each other's callers).
+"""
+
+from __future__ import annotations
+
+import pkgutil
+import subprocess
+import sys
+from concurrent.futures import ThreadPoolExecutor
+
+import prefit
+
+LEAVES = ("prefit.stats.", "prefit.rules.", "prefit.teaching.")
+
+
+def _modules() -> list[str]:
+    names = ["prefit"]
+    for found in pkgutil.walk_packages(prefit.__path__, "prefit."):
+        if found.name != "prefit.__main__" and not found.name.startswith(LEAVES):
+            names.append(found.name)
+    return sorted(names)
+
+
+def _import_alone(name: str) -> tuple[str, int, str]:
+    done = subprocess.run([sys.executable, "-c", f"import {name}"], capture_output=True, text=True, timeout=300)
+    return name, done.returncode, done.stderr.strip().splitlines()[-1] if done.stderr.strip() else ""
+
+
+def test_the_core_modules_are_found() -> None:
+    names = set(_modules())
+    assert {"prefit.api", "prefit.pipeline", "prefit.outcome", "prefit.runner", "prefit.engines.memory", "prefit.engines.stream",
+            "prefit.engines.dask", "prefit.engines.passes", "prefit.report.sarif", "prefit.testing"} <= names
+
+
+def test_each_module_imports_alone_in_a_fresh_interpreter() -> None:
+    with ThreadPoolExecutor(max_workers=4) as pool:
+        results = list(pool.map(_import_alone, _modules()))
+    failed = [f"{name}: {last}" for name, code, last in results if code != 0]
+    assert not failed, "\n".join(failed)
