@@ -29,6 +29,7 @@ from .errors import UsageProblem
 from .options import CheckOptions
 from .passes import (
     FENCE_CONFIDENCE,
+    ROBUST_QUANTILE,
     ColumnFences,
     MeasureScreen,
     RobustCentre,
@@ -301,7 +302,8 @@ def robust_centre(context: RunContext) -> RobustCentre | None:
     estimate = context.robust
     if estimate is None:
         return None
-    return RobustCentre(names, estimate.location, estimate.scatter)
+    bulk = estimate.cutoff(ROBUST_QUANTILE) if estimate.bulk is not None else None
+    return RobustCentre(names, estimate.location, estimate.scatter, bulk)
 
 
 def _batches(table: pa.Table) -> list[pa.Table]:

@@ -292,11 +292,14 @@ class RobustCentre:
     columns: tuple[str, ...]
     location: np.ndarray
     scatter: np.ndarray
+    bulk_cutoff: float | None = None
 
     def cutoffs(self) -> tuple[tuple[str, float], ...]:
-        """The chi-square 0.975 quantile of the squared distance (Rousseeuw & van Zomeren 1990)."""
+        """The chi-square 0.975 quantile of the squared distance (Rousseeuw & van Zomeren 1990), or in many columns the sample's own-bulk one."""
         import scipy.stats
 
+        if self.bulk_cutoff is not None:
+            return (("own bulk 0.975", self.bulk_cutoff),)
         return (("chi-square 0.975", float(scipy.stats.chi2.ppf(ROBUST_QUANTILE, len(self.columns)))),)
 
 

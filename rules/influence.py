@@ -21,7 +21,7 @@ from prefit.stats.chance import (
     t_tail,
 )
 from prefit.stats.influence import group_deletion
-from prefit.stats.resistant import MIN_ROWS_PER_PARAMETER, RESIDUAL_LIMIT, RowClass, classify, distance_cutoff, resistant_rows
+from prefit.stats.resistant import DISTANCE_QUANTILE, MIN_ROWS_PER_PARAMETER, RESIDUAL_LIMIT, RowClass, classify, resistant_rows
 
 from ._rowfindings import (
     CHANCE,
@@ -396,10 +396,11 @@ DISTORTION_SOURCE = (
 
 def robust_classes(ctx: RunContext, residual_limit: float = RESIDUAL_LIMIT) -> tuple[np.ndarray, float] | None:
     """Each complete row's :class:`RowClass` under the MM fit and the MCD distances, with the squared-distance cutoff; None without both."""
-    resistant, robust = ctx.resistant, ctx.robust
+    resistant = ctx.resistant
+    robust = ctx.robust if resistant is not None else None
     if resistant is None or robust is None:
         return None
-    cutoff = distance_cutoff(len(robust.columns))
+    cutoff = robust.cutoff(DISTANCE_QUANTILE)
     return classify(resistant.residual, robust.squared, cutoff, residual_limit), cutoff
 
 
