@@ -28,7 +28,7 @@ from .stats.grouping import BETWEEN_ONLY, GroupFactors, GroupRows
 from .stats.influence import RowInfluence, row_influence
 from .stats.mergeable import Moments
 from .stats.missingness import Holes
-from .stats.resistant import MIN_ROWS_PER_PARAMETER, ResistantFit, resistant_fit, resistant_rows
+from .stats.resistant import ResistantFit, resistant_fit, resistant_stands_aside
 from .stats.robust import (
     ESTIMATE_ROWS_PER_COLUMN,
     MCD_SAMPLE_ROWS,
@@ -214,7 +214,7 @@ class RunContext:
         engine's row sample, and pass 2 scores every row of the table.
         """
         design = self.design
-        if not self.target_is_numeric or self.fit.rank == 0 or resistant_rows(design.n) < MIN_ROWS_PER_PARAMETER * self.fit.rank:
+        if not self.target_is_numeric or self.fit.rank == 0 or resistant_stands_aside(design.n, self.fit.rank) is not None:
             return None
         names = design.column_names
         estimable = sorted(int(j) for j in self.factor.perm[: self.fit.rank])

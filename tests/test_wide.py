@@ -20,6 +20,7 @@ from prefit.api import check
 from prefit.findings import Grade
 from prefit.rule import capped_names
 
+
 def noise(rows: int, columns: int, seed: int, holed: int = 0, share: float = 0.0) -> pd.DataFrame:
     """Standard normal predictors ``x001...`` and target ``y``; ``holed`` evenly spaced columns lose ``share`` of their values."""
     rng = np.random.default_rng(seed)
@@ -163,3 +164,38 @@ def test_text_design_line_names_at_most_ten_categorical_terms() -> None:
     text = " ".join(report.render("text").split())
     assert "+ 7 more categories" in text and "c14 (2 dummies" not in text
     assert len(report.to_dict()["design"]["terms"]) == 16  # the JSON report keeps every term (intercept included)
+
+
+def test_cause_rechecks_on_repaired_tables_are_bounded(monkeypatch: pytest.MonkeyPatch) -> None:
+    import prefit.causes as causes
+
+    frame = noise(400, 30, 7)
+    rng = np.random.default_rng(8)
+    for j in range(12):  # a stand-in code in twelve columns: twelve candidate roots, each with a repaired table
+        frame.loc[rng.choice(400, 6, replace=False), f"x{j + 1:03d}"] = -999.0
+    rebuilt: list[int] = []
+    original = causes.repaired_context
+
+    def counting(context, repair):  # type: ignore[no-untyped-def]
+        rebuilt.append(1)
+        return original(context, repair)
+
+    monkeypatch.setattr(causes, "repaired_context", counting)
+    # the robust fits (costly on every repaired table) are left out: the bound is on the tables rebuilt
+    report = check(frame, target="y", skip=("influence.robust-distortion", "outliers.multivariate"))
+    codes = [f for f in report.findings if f.rule == "missingness.disguised-codes"]
+    assert len(codes) == 12
+    # one repaired table per root up to the bound; every code is still a root to fix first
+    assert len(rebuilt) == causes.MAX_TABLE_RECHECKS
+    fix_first = {report.findings[i].rule for i in range(len(report.findings)) if report.findings[i].key in report.fix_first}
+    assert "missingness.disguised-codes" in fix_first
+
+
+def test_high_breakdown_fit_stands_aside_beyond_its_parameter_bound() -> None:
+    from prefit.stats.resistant import MAX_PARAMETERS
+
+    report = check(noise(2_000, 60, 9), target="y")
+    # 61 parameters on 1,000 fitted rows is 16 rows per parameter, yet past the bound on the MM fit's cost
+    reason = report.to_dict()["rules_not_applicable"]["influence.robust-distortion"]
+    assert f"up to {MAX_PARAMETERS} parameters" in reason and "61 parameters" in reason
+    assert report.context is not None and report.context.resistant is None
