@@ -41,6 +41,7 @@ from .stats.skewed import AdjustedFences, adjusted_fences, adjusted_fences_of_bl
 from .stats.summaries import ColumnSummary, ColumnTally, summarise
 from .stats.textnumbers import TextNumbers
 
+BATCHED_FENCE_ROWS = 512
 
 @dataclass
 class RunContext:
@@ -316,10 +317,13 @@ class RunContext:
         """Compute the adjusted boxplots of many columns together (the same values as :meth:`fences`, one by one).
 
         Columns without missing values are taken ``block_columns`` at a time
-        through :func:`adjusted_fences_of_block`; the others are left to
-        :meth:`fences`. A wide table's per-column overhead is then paid once
+        through :func:`adjusted_fences_of_block` when the table has at most
+        ``BATCHED_FENCE_ROWS`` rows (whose medcouple kernels are all written
+        out); the others are left to :meth:`fences`. A wide table's per-column overhead is then paid once
         per block instead of once per column.
         """
+        if self.table.num_rows > BATCHED_FENCE_ROWS:
+            return  # long columns: the per-column overhead is small beside each column's own work
         waiting = [c for c in columns if c not in self._fences]
         whole = [c for c in waiting if not np.isnan(self.values(c)).any()]
         for start in range(0, len(whole), block_columns):
