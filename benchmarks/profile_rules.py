@@ -11,7 +11,10 @@ from __future__ import annotations
 import argparse
 import time
 
+from prefit.accepted import fingerprints
 from prefit.api import build_context, options_from
+from prefit.causes import find_causes
+from prefit.findings import Finding, Grade
 from prefit.preload import imports_ready, warm_imports
 from prefit.reading import read_table
 from prefit.registry import discover
@@ -41,15 +44,27 @@ def main() -> None:
     imports_ready()
     print(f"{'imports (rest of the wait)':40s} {time.perf_counter() - start:7.3f}")
     total = 0.0
+    selected = select_rules(discover(), options)
+    findings = []
     with one_blas_thread():
-        for rule, settings in select_rules(discover(), options):
+        for rule, settings in selected:
             start = time.perf_counter()
             outcome = run_rule(rule, settings, context)
             spent = time.perf_counter() - start
             total += spent
+            findings += outcome.findings
             if spent > args.over:
-                print(f"{rule.id:40s} {spent:7.3f} {outcome.error or ''}")
+                print(f"{rule.id:40s} {spent:7.3f} {outcome.error or outcome.not_applicable or ''}"[:160])
     print(f"{'all rules':40s} {total:7.3f}")
+    ordered = sorted(findings, key=Finding.sort_key)
+    start = time.perf_counter()
+    fingerprints(ordered, context)
+    print(f"{'fingerprints':40s} {time.perf_counter() - start:7.3f}")
+    start = time.perf_counter()
+    causes = find_causes(context, selected, ordered)
+    roots = sum(1 for f in ordered if f.grade >= Grade.WEAKENS)
+    print(f"{'causes (' + str(roots) + ' findings at weakens or above)':40s} {time.perf_counter() - start:7.3f}")
+    print(f"{len(ordered)} findings; fix first: {[ordered[i].rule for i in causes.fix_first]}")
 
 
 if __name__ == "__main__":

@@ -11,7 +11,8 @@ rule names: a finding the repair leaves standing keeps standing.
 
 Only the rules with findings to re-check run again, each on one rebuilt
 context per root (its design, factor and fit built once and shared by those
-rules), so the cost is one partial run per candidate root; a rule declared
+rules), so the cost is one partial run per candidate root, for at most
+``MAX_TABLE_RECHECKS`` roots; a rule declared
 ``recheck=False`` (a costly estimate resistant to the other problems by
 design) is not run again and its findings stand.
 """
@@ -33,6 +34,16 @@ from .runner import run_rule
 from .stats.blas import one_blas_thread
 
 ROW_OVERLAP = 0.5
+MAX_TABLE_RECHECKS = 6
+"""At most this many roots are re-checked on a repaired table (the strongest first, in report order).
+
+Each such re-check rebuilds the design, its factor and fit and runs the rules
+with findings again: one partial run. A wide table with a code such as -999
+in hundreds of columns has a root per column, and re-checking every one would
+cost hundreds of runs; past the bound, roots are still listed to fix first but
+their effects are not looked for (the findings stand as reported). Judging
+repairs (``settles``) cost nothing and are not counted.
+"""
 
 
 @dataclass(frozen=True)
@@ -132,6 +143,7 @@ def find_causes(
     rechecked = {rule_id for rule_id, (rule, _) in rules.items() if rule.recheck and rule_id != RULE_ERROR}
     causes: list[set[int]] = [set() for _ in findings]
     size: dict[int, int] = {}
+    table_rechecks = 0
     for i, root in enumerate(findings):
         chosen = rules.get(root.rule)
         hook = chosen[0].repair if chosen is not None else None
@@ -142,6 +154,10 @@ def find_causes(
             if repair is None:
                 continue
             size[i] = repair.rows
+            if repair.settles is None and repair.table is not None:
+                if table_rechecks >= MAX_TABLE_RECHECKS:
+                    continue
+                table_rechecks += 1
             candidates = [j for j, f in enumerate(findings) if f.rule != root.rule and f.rule in rechecked]
             explained = _rechecked(context, repair, candidates, findings, rules)
         except Exception:  # noqa: BLE001  (a failed re-check explains nothing; the findings stand as reported)

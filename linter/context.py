@@ -28,12 +28,20 @@ from .stats.grouping import BETWEEN_ONLY, GroupFactors, GroupRows
 from .stats.influence import RowInfluence, row_influence
 from .stats.mergeable import Moments
 from .stats.missingness import Holes
-from .stats.resistant import MIN_ROWS_PER_PARAMETER, ResistantFit, resistant_fit, resistant_rows
-from .stats.robust import RobustColumns, RobustDistances, median_and_mad, robust_distances
-from .stats.skewed import AdjustedFences, adjusted_fences
+from .stats.resistant import ResistantFit, resistant_fit, resistant_stands_aside
+from .stats.robust import (
+    ESTIMATE_ROWS_PER_COLUMN,
+    MCD_SAMPLE_ROWS,
+    RobustColumns,
+    RobustDistances,
+    median_and_mad,
+    robust_distances,
+)
+from .stats.skewed import AdjustedFences, adjusted_fences, adjusted_fences_of_block
 from .stats.summaries import ColumnSummary, ColumnTally, summarise
 from .stats.textnumbers import TextNumbers
 
+BATCHED_FENCE_ROWS = 512
 
 @dataclass
 class RunContext:
@@ -182,11 +190,14 @@ class RunContext:
     def robust(self) -> RobustDistances | None:
         """Every complete case's robust distance from the MCD estimate of :attr:`robust_columns` (None when it fails).
 
+        None too when its sample would hold fewer than ``ESTIMATE_ROWS_PER_COLUMN`` rows per column (more than
+        200 numeric predictors), so no wide table pays for an estimate no rule can use.
+
         Computed once: ``outliers.multivariate`` reads it, and beyond the row
         budget pass 2 measures every row of the table against its estimate.
         """
         columns = self.robust_columns
-        if len(columns.names) < 2:
+        if len(columns.names) < 2 or min(self.design.n, MCD_SAMPLE_ROWS) < ESTIMATE_ROWS_PER_COLUMN * len(columns.names):
             return None
         try:
             return robust_distances(columns.data, columns.names)
@@ -204,7 +215,7 @@ class RunContext:
         engine's row sample, and pass 2 scores every row of the table.
         """
         design = self.design
-        if not self.target_is_numeric or self.fit.rank == 0 or resistant_rows(design.n) < MIN_ROWS_PER_PARAMETER * self.fit.rank:
+        if not self.target_is_numeric or self.fit.rank == 0 or resistant_stands_aside(design.n, self.fit.rank) is not None:
             return None
         names = design.column_names
         estimable = sorted(int(j) for j in self.factor.perm[: self.fit.rank])
@@ -301,6 +312,27 @@ class RunContext:
         if column not in self._fences:
             self._fences[column] = adjusted_fences(self.values(column))
         return self._fences[column]
+
+    def prepare_fences(self, columns: Sequence[str], block_columns: int = 1_024) -> None:
+        """Compute the adjusted boxplots of many columns together (the same values as :meth:`fences`, one by one).
+
+        Columns without missing values are taken ``block_columns`` at a time
+        through :func:`adjusted_fences_of_block` when the table has at most
+        ``BATCHED_FENCE_ROWS`` rows (whose medcouple kernels are all written
+        out); the others are left to :meth:`fences`. A wide table's per-column overhead is then paid once
+        per block instead of once per column.
+        """
+        if self.table.num_rows > BATCHED_FENCE_ROWS:
+            return  # long columns: the per-column overhead is small beside each column's own work
+        waiting = [c for c in columns if c not in self._fences]
+        whole = [c for c in waiting if not np.isnan(self.values(c)).any()]
+        for start in range(0, len(whole), block_columns):
+            chosen = whole[start : start + block_columns]
+            block = np.column_stack([self.values(c) for c in chosen])
+            if not np.isfinite(block).all():
+                continue
+            for column, fences in zip(chosen, adjusted_fences_of_block(block)):
+                self._fences[column] = fences
 
     def median_and_mad(self, column: str) -> tuple[float, float]:
         """Median and median absolute deviation of a numeric column's finite values over all table rows (computed once)."""

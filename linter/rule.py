@@ -130,6 +130,9 @@ class ScreenScale:
     rank: int
     df_resid: int
     robust_columns: int = 0
+    robust_bulk: "tuple[float, float] | None" = None
+    """In many columns, the centre and spread of the cube-rooted squared robust distances the sample's own bulk shows
+    (:attr:`prefit.stats.robust.RobustDistances.bulk`); cutoffs then come from it instead of the chi-square."""
 
 
 Cutoffs = tuple[tuple[str, float], ...]

@@ -17,7 +17,7 @@ import numpy as np
 from prefit.context import RunContext
 from prefit.design import INTERCEPT
 from prefit.findings import Finding, Grade
-from prefit.rule import COMMON_PRACTICE, NotApplicable, Repair, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import COMMON_PRACTICE, NotApplicable, Repair, Rule, RuleSettings, Threshold, capped_names, fmt
 from prefit.stats.chance import chance_check_counts
 from prefit.stats.grouping import (
     GroupFactors,
@@ -308,7 +308,7 @@ def _within_between(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding
         columns=columns,
         value=flagged[0][1],
         threshold=limit,
-        remedy=f"centre {', '.join(columns)} on each {group}'s mean and add the {group} means as predictors (within and between slopes "
+        remedy=f"centre {capped_names(columns)} on each {group}'s mean and add the {group} means as predictors (within and between slopes "
         f"side by side), or fit {group} fixed effects for the within slope; decide which of the two the question is about",
         details={
             names[j]: {
@@ -382,7 +382,7 @@ def _group_outliers(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding
     group = _group_name(ctx)
     yield settings.finding(
         Grade.WEAKENS,
-        f"{len(far):,} of {groups:,} {group} groups lie far from the other groups in {', '.join(columns)} (one point per group, as "
+        f"{len(far):,} of {groups:,} {group} groups lie far from the other groups in {capped_names(columns)} (one point per group, as "
         f"these predictors are constant within each): {measure} above {fmt(cutoff)}, largest {fmt(float(size[far[0]]))} "
         f"({', '.join(labels[:5])}{', ...' if len(labels) > 5 else ''}; {check.describe()})",
         columns=columns,
@@ -392,7 +392,7 @@ def _group_outliers(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding
         value=float(size[far[0]]),
         threshold=cutoff,
         source=settings.threshold("weakens").source,
-        remedy=f"check the listed {group} groups' {', '.join(columns)} at the source; if genuine, see grouping.group-influence for whether "
+        remedy=f"check the listed {group} groups' {capped_names(columns)} at the source; if genuine, see grouping.group-influence for whether "
         "they decide the fit",
         details={"groups": groups, "cutoff": cutoff, "measure": measure, **chance_details(check)},
     )

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import re
-from typing import Iterator
+from typing import Iterator, Sequence
 
 import numpy as np
 import pyarrow as pa
@@ -535,7 +535,10 @@ def _target_leak(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     y_root = np.sqrt(_sum_of_products(y, y))
     x = np.empty_like(y)
     ranks = _TargetRanks(design.y, rank_limit(limit.value))
+    candidates = _leak_candidates(ctx, ctx.numeric_predictors, y_unit, limit.value, ranks.limit)
     for column in ctx.numeric_predictors:
+        if candidates is not None and column not in candidates:
+            continue
         values = ctx.design_column(column)
         with np.errstate(over="ignore", invalid="ignore"):
             np.subtract(values, values.mean(), out=x)
@@ -563,6 +566,47 @@ def _target_leak(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
             f"computed from {ctx.roles.target} (a sub-meter sum, a unit conversion, a later reading)",
             details={"r_squared": r2, "slope": slope, "intercept": intercept, "exact": exact},
         )
+
+
+BATCH_SCREEN_MARGIN = 1e-6
+BATCH_VALUES = 4_000_000
+
+
+def _leak_candidates(ctx: RunContext, columns: Sequence[str], y_unit: np.ndarray, r2_limit: float, rho_limit: float) -> set[str] | None:
+    """The predictors that may leak the target, screened many columns at a time; None to check every one by itself.
+
+    For a table short enough that :class:`_TargetRanks` ranks every row (no
+    look at evenly spaced rows first), blocks of columns get their
+    correlation and their rank correlation with the target from two matrix
+    products; a column clearly below both limits (by
+    :data:`BATCH_SCREEN_MARGIN`) cannot give a finding and is not visited
+    again, so a wide table of short columns pays no per-column overhead.
+    The columns kept go through the exact per-column computation.
+    """
+    from scipy.stats import rankdata
+
+    design = ctx.design
+    n = design.n
+    if len(columns) < 2 or n > 2 * evenly_spaced(design.y).size:
+        return None
+    index = design.column_index
+    target_ranks = rankdata(design.y)
+    target_ranks -= target_ranks.mean()
+    target_ranks /= np.sqrt(_sum_of_products(target_ranks, target_ranks))
+    kept: set[str] = set()
+    step = max(1, BATCH_VALUES // max(n, 1))
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        for start in range(0, len(columns), step):
+            chosen = list(columns[start : start + step])
+            block = design.X[:, [index[c] for c in chosen]]
+            centred = block - block.mean(axis=0)
+            r = (centred.T @ y_unit) / np.sqrt(np.einsum("ij,ij->j", centred, centred))
+            ranked = rankdata(block, axis=0)
+            ranked -= ranked.mean(axis=0)
+            rho = (ranked.T @ target_ranks) / np.sqrt(np.einsum("ij,ij->j", ranked, ranked))
+            near = ~(np.isfinite(r) & (r * r < r2_limit - BATCH_SCREEN_MARGIN)) | ~(np.isfinite(rho) & (np.abs(rho) < rho_limit - BATCH_SCREEN_MARGIN))
+            kept.update(c for c, flag in zip(chosen, near.tolist()) if flag)
+    return kept
 
 
 def rank_limit(r2_limit: float) -> float:

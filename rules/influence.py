@@ -21,7 +21,7 @@ from prefit.stats.chance import (
     t_tail,
 )
 from prefit.stats.influence import group_deletion
-from prefit.stats.resistant import MIN_ROWS_PER_PARAMETER, RESIDUAL_LIMIT, RowClass, classify, distance_cutoff, resistant_rows
+from prefit.stats.resistant import DISTANCE_QUANTILE, RESIDUAL_LIMIT, RowClass, classify, resistant_stands_aside
 
 from ._rowfindings import (
     CHANCE,
@@ -396,10 +396,11 @@ DISTORTION_SOURCE = (
 
 def robust_classes(ctx: RunContext, residual_limit: float = RESIDUAL_LIMIT) -> tuple[np.ndarray, float] | None:
     """Each complete row's :class:`RowClass` under the MM fit and the MCD distances, with the squared-distance cutoff; None without both."""
-    resistant, robust = ctx.resistant, ctx.robust
+    resistant = ctx.resistant
+    robust = ctx.robust if resistant is not None else None
     if resistant is None or robust is None:
         return None
-    cutoff = distance_cutoff(len(robust.columns))
+    cutoff = robust.cutoff(DISTANCE_QUANTILE)
     return classify(resistant.residual, robust.squared, cutoff, residual_limit), cutoff
 
 
@@ -430,11 +431,9 @@ def _robust_distortion(ctx: RunContext, settings: RuleSettings) -> Iterator[Find
 
     if not _usable(ctx):
         return
-    fitted_rows, rank = resistant_rows(ctx.design.n), ctx.fit.rank
-    if fitted_rows < MIN_ROWS_PER_PARAMETER * rank:
-        raise NotApplicable(
-            f"{fitted_rows:,} rows for {rank:,} parameters: a high-breakdown fit needs at least {MIN_ROWS_PER_PARAMETER} rows per parameter"
-        )
+    aside = resistant_stands_aside(ctx.design.n, ctx.fit.rank)
+    if aside is not None:
+        raise NotApplicable(aside)
     residual_limit = settings.limit("residual")
     classified = robust_classes(ctx, residual_limit)
     resistant = ctx.resistant

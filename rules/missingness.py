@@ -18,7 +18,7 @@ from prefit.rule import COMMON_PRACTICE, Repair, Rule, RuleSettings, Threshold, 
 from prefit.stats.blas import one_blas_thread
 from prefit.stats.missingness import PatternMoments, little_mcar, pattern_index
 from prefit.stats.ranks import RankedColumn
-from prefit.stats.sentinels import Sentinel, SentinelLimits, find_sentinels
+from prefit.stats.sentinels import Sentinel, SentinelLimits, find_sentinels, sentinel_free
 from prefit.stats.textnumbers import is_text_type, mostly_number_like, parsed_values, placeholder_levels
 
 PER_PARAMETER_SOURCE = (
@@ -238,8 +238,11 @@ def _disguised_codes(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
         repeat_contrast=settings.limit("repeat-contrast"),
         zero_share=settings.limit("zero-share"),
     )
+    free = _without_codes(ctx, [c for c in candidates if roles.kinds[c] is Kind.NUMERIC], limits)
     for column in candidates:
         kind = roles.kinds[column]
+        if column in free:
+            continue
         table_column = ctx.table.column(column)
         tokens: dict[str, int] = {}
         if kind is Kind.NUMERIC:
@@ -256,6 +259,24 @@ def _disguised_codes(ctx: RunContext, settings: RuleSettings) -> Iterator[Findin
         if not sentinels and not tokens:
             continue
         yield _codes_finding(ctx, settings, column, kind, values, sentinels, tokens)
+
+
+SCREEN_VALUES = 4_000_000
+SCREEN_ROWS = 4_096
+
+
+def _without_codes(ctx: RunContext, columns: list[str], limits: SentinelLimits) -> set[str]:
+    """Numeric columns without missing values that :func:`sentinel_free` clears many at a time (a wide table's short columns)."""
+    if ctx.table.num_rows > SCREEN_ROWS or len(columns) < 2:
+        return set()  # a long column's own search already looks at its edges only (find_sentinels)
+    whole = [c for c in columns if not np.isnan(ctx.values(c)).any()]
+    step = max(1, SCREEN_VALUES // max(ctx.table.num_rows, 1))
+    free: set[str] = set()
+    for start in range(0, len(whole), step):
+        chosen = whole[start : start + step]
+        cleared = sentinel_free(np.column_stack([ctx.values(c) for c in chosen]), limits)
+        free.update(c for c, ok in zip(chosen, cleared.tolist()) if ok)
+    return free
 
 
 def _codes_finding(

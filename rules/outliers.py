@@ -9,9 +9,22 @@ import numpy as np
 
 from prefit.context import RunContext
 from prefit.findings import MAX_LISTED_ROWS, Finding, Grade
-from prefit.rule import COMMON_PRACTICE, Cutoffs, Repair, RowScreen, Rule, RuleSettings, ScreenScale, Threshold, fmt
+from prefit.rule import (
+    COMMON_PRACTICE,
+    LISTED_NAMES,
+    Cutoffs,
+    NotApplicable,
+    Repair,
+    RowScreen,
+    Rule,
+    RuleSettings,
+    ScreenScale,
+    Threshold,
+    capped_names,
+    fmt,
+)
 from prefit.stats.chance import chance_check, probability_text, t_tail
-from prefit.stats.robust import MODIFIED_Z_FACTOR, MODIFIED_Z_LIMIT
+from prefit.stats.robust import ESTIMATE_ROWS_PER_COLUMN, MCD_SAMPLE_ROWS, MODIFIED_Z_FACTOR, MODIFIED_Z_LIMIT, bulk_quantile
 from prefit.stats.skewed import FENCE_MULTIPLE, NORMAL_SHARE_BEYOND, AdjustedFences
 
 from ._rowfindings import (
@@ -135,7 +148,11 @@ def _slip(value: float, fences: AdjustedFences, ordered: np.ndarray, gap: float)
     order of magnitude by default), stand apart from the rest of the column
     (no value within a factor ``SLIP_ISOLATION`` outside its own cluster),
     and land within the fences when scaled back by that power of ten: a long
-    continuous tail is not a slip. A value too small must come from a column
+    continuous tail is not a slip. The gap is measured from the wider of the
+    adjusted and Tukey's plain upper fence: a short column's medcouple varies
+    widely (two standard errors is about 0.3 at 50 values), and a negative one
+    pulls the adjusted upper fence towards the upper quartile, which made
+    ordinary normal values "10x" slips in one column of 10,000 such columns. A value too small must come from a column
     of positive values whose ordinary range stays a factor ``gap`` from zero
     (Tukey's plain lower fence at least the upper quartile over ``gap``), lie
     ``gap`` times below that fence, and land between the quartiles when
@@ -144,10 +161,11 @@ def _slip(value: float, fences: AdjustedFences, ordered: np.ndarray, gap: float)
     if value <= 0:
         return None
     upper, lower = fences.upper, fences.lower
+    tukey_upper = max(upper, fences.q3 + FENCE_MULTIPLE * (fences.q3 - fences.q1))
     positive = ordered[0] > 0
     for power in SLIP_POWERS:
         factor = 10.0**power
-        if upper > 0 and value >= gap * upper and lower <= value / factor <= upper:
+        if upper > 0 and value >= gap * tukey_upper and lower <= value / factor <= upper:
             return f"{factor:,.0f}x" if _isolated(value, ordered, upward=True) else None
         tukey_lower = min(lower, fences.q1 - FENCE_MULTIPLE * (fences.q3 - fences.q1))
         if positive and tukey_lower * gap >= fences.q3 and value * gap <= tukey_lower and fences.q1 <= value * factor <= fences.q3:
@@ -170,7 +188,7 @@ class _ColumnOutliers:
 
 
 def _column_outliers(ctx: RunContext, column: str, fence: float, gap: float) -> _ColumnOutliers | None:
-    import scipy.stats
+    import scipy.special
 
     fences = ctx.fences(column)
     if fences is None:
@@ -182,7 +200,7 @@ def _column_outliers(ctx: RunContext, column: str, fence: float, gap: float) -> 
         return None
     finite = values[np.isfinite(values)]
     expected = finite.size * NORMAL_SHARE_BEYOND
-    count_p = float(scipy.stats.poisson.sf(rows.size - 1, expected))
+    count_p = float(scipy.special.pdtrc(rows.size - 1, expected))  # Poisson P(count >= rows), as scipy.stats.poisson.sf(rows - 1)
     ordered = np.sort(finite)
     slips = {int(r): s for r in rows if (s := _slip(float(values[r]), fences, ordered, gap)) is not None}
     return _ColumnOutliers(column, rows, scores[rows], int(finite.size), expected, count_p, fences, slips)
@@ -260,6 +278,7 @@ def _slips_scaled_back(ctx: RunContext, finding: Finding) -> Repair | None:
 def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     fence = settings.threshold("note")
     columns = ctx.value_screened_columns
+    ctx.prepare_fences(columns)
     found = [f for c in columns if (f := _column_outliers(ctx, c, fence.value, settings.limit("weakens"))) is not None]
     if not found:
         return
@@ -274,7 +293,10 @@ def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     for f in reported:
         np.maximum.at(largest, f.rows, f.scores)
     labels, row_values, total = ctx.listed_rows(rows, largest[rows])
-    text = "; ".join(_column_text(ctx, f) for f in reported)
+    described = reported if len(reported) <= LISTED_NAMES else sorted(reported, key=lambda f: f.count_p)[: LISTED_NAMES - 2]
+    text = "; ".join(_column_text(ctx, f) for f in described)
+    if len(described) < len(reported):
+        text += f"; and {len(reported) - len(described):,} more columns (every one in the details)"
     if slipped:
         message = f"values a power of ten away from the rest of their column, beyond the adjusted boxplot's fences: {text}"
     else:
@@ -324,24 +346,30 @@ def _label_groups(ctx: RunContext, positions: np.ndarray) -> str:
 
 
 def _multivariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
-    import scipy.stats
 
     chosen = ctx.robust_columns
     columns, data, median, mad = chosen.names, chosen.data, chosen.median, chosen.mad
     q, n = len(columns), data.shape[0]
-    if q < 2 or n < settings.limit("rows_per_variable") * q:
+    per_variable = settings.limit("rows_per_variable")
+    if q < 2 or n < per_variable * q:
         return
+    if min(n, MCD_SAMPLE_ROWS) < ESTIMATE_ROWS_PER_COLUMN * q:
+        raise NotApplicable(
+            f"{q:,} numeric predictors: the robust estimate is computed on at most {MCD_SAMPLE_ROWS:,} rows and needs "
+            f"{ESTIMATE_ROWS_PER_COLUMN} of them per column, so robust distances are measured in at most "
+            f"{MCD_SAMPLE_ROWS // ESTIMATE_ROWS_PER_COLUMN:,} columns (the design's leverage, influence.leverage, covers every column)"
+        )
     robust = ctx.robust
     if robust is None:
         return
     limit = settings.threshold("weakens")
-    cutoff = float(scipy.stats.chi2.ppf(limit.value, q))
+    cutoff = robust.cutoff(limit.value)
     squared = robust.squared
     crossed = squared > cutoff
     if not crossed.any():
         return
     expected = n * (1.0 - limit.value)
-    check = chance_check(crossed, expected, scipy.stats.chi2.sf(np.array([squared.max()]), q))
+    check = chance_check(crossed, expected, robust.tail(np.array([squared.max()])))
     material = check.crossed >= settings.limit("excess") * expected
     if not (check.single_p < settings.limit("chance") / 2.0 or (material and beyond_chance(settings, check))):
         return
@@ -358,9 +386,11 @@ def _multivariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     labels, values, total = ctx.listed_rows(ctx.design.positions[rows], squared[rows])
     sampled = "" if robust.sampled == n else f", estimated on a fixed sample of {robust.sampled:,} rows"
     groups = _label_groups(ctx, ctx.design.positions[rows])
+    reference = f"the chi-square({q}) 0.975 quantile" if robust.bulk is None else "the 0.975 quantile of the distances' own bulk"
+    corrected = "corrected for the sample size" if robust.bulk is None else f"compared with {robust.reference}"
     message = (
-        f"{total:,} of {n:,} complete rows{groups} lie beyond the chi-square({q}) 0.975 quantile {fmt(cutoff)} in robust squared "
-        f"distance ({robust.method}, corrected for the sample size) from the bulk of {', '.join(columns)} (largest "
+        f"{total:,} of {n:,} complete rows{groups} lie beyond {reference} {fmt(cutoff)} in robust squared "
+        f"distance ({robust.method}, {corrected}) from the bulk of {capped_names(columns)} (largest "
         f"{fmt(float(squared[rows].max()))}; {check.describe()}{sampled}); {only_combined:,} of them are unremarkable in "
         "every single column and unusual only in combination"
     )
@@ -392,6 +422,7 @@ def _multivariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         details={
             "cutoff": cutoff,
             "estimator": robust.method,
+            "reference": "chi-square" if robust.bulk is None else "own bulk (Wilson-Hilferty cube roots, median and MAD)",
             "only_in_combination": only_combined,
             "estimated_on_rows": robust.sampled,
             "skewed_columns": skewed,
@@ -417,10 +448,15 @@ def _fence_cutoffs(scale: ScreenScale, settings: RuleSettings) -> Cutoffs:
 
 
 def _robust_distance_cutoffs(scale: ScreenScale, settings: RuleSettings) -> Cutoffs:
-    """Pass 2 counts squared robust distances beyond the chi-square quantile at the weakens probability (0.975)."""
+    """Pass 2 counts squared robust distances beyond the weakens probability's (0.975) quantile of the sample's reference.
+
+    The reference is chi-square, or in many columns the distances' own bulk (see :class:`RobustDistances`).
+    """
     import scipy.stats
 
     probability = settings.limit("weakens")
+    if scale.robust_bulk is not None:
+        return ((f"own bulk {probability:g}", bulk_quantile(scale.robust_bulk, probability)),)
     return ((f"chi-square {probability:g}", float(scipy.stats.chi2.ppf(probability, scale.robust_columns))),)
 
 

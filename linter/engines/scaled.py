@@ -176,7 +176,8 @@ def scaled_context(
     resistant = (line, context.design.terms) if line is not None else None
     fences = column_fences(context) if "fence_score" in wanted else None
     if fit is not None:
-        scale = ScreenScale(fit.n, fit.rank, fit.df_resid, len(robust.columns) if robust is not None else 0)
+        bulk = context.robust.bulk if robust is not None and context.robust is not None else None
+        scale = ScreenScale(fit.n, fit.rank, fit.df_resid, len(robust.columns) if robust is not None else 0, bulk)
     else:
         scale = ScreenScale(statistics.model.rows, 0, 0)
     measurable = {"fence_score"} if fit is None else set(SCREEN_MEASURES)

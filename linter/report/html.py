@@ -215,7 +215,7 @@ def table_section(report: "Report", findings: list[Finding], run: RunFacts, plot
     if first:
         items = "".join(
             f'<li><span class="tag grade-{root.grade.word}">{esc(root.grade.word)}</span> <span class="rule">{esc(root.rule)}</span>'
-            + (f' <span class="columns">{esc(", ".join(root.columns))}</span>' if root.columns else "")
+            + (f' <span class="columns">{esc(capped_names(root.columns))}</span>' if root.columns else "")
             + (f' <span class="label">explains {explained} finding{"" if explained == 1 else "s"}</span>' if explained else "")
             + "</li>"
             for root, explained in ((r.shown(), n) for r, n in first)

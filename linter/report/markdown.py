@@ -86,7 +86,7 @@ class MarkdownWriter(ReportWriter):
             lines += ["**Fix first**", ""]
             for number, (root, explained) in enumerate(first, 1):
                 root = root.shown()
-                columns = f" ({', '.join(md_text(c) for c in root.columns)})" if root.columns else ""
+                columns = f" ({md_text(capped_names(root.columns))})" if root.columns else ""
                 also = f": explains {explained} finding{'' if explained == 1 else 's'}" if explained else ""
                 lines.append(f"{number}. {root.grade.word} `{root.rule}`{columns}{also}")
             lines.append("")

@@ -167,7 +167,7 @@ def render_terminal(report: "Report", colour: bool, width: int | None = None, ex
             entry.append(MARKERS[root.grade], style=f"grade.{root.grade.word}")
             entry.append(f" {root.rule}", style="finding.rule")
             if root.columns:
-                entry.append("  " + ", ".join(root.columns), style="finding.columns")
+                entry.append("  " + capped_names(root.columns), style="finding.columns")
             if explained:
                 entry.append(f"  (explains {explained} finding{'' if explained == 1 else 's'})", style="facts.label")
             console.print(Padding(entry, (0, 0, 0, INDENT_HEAD)))
@@ -194,7 +194,7 @@ def render_terminal(report: "Report", colour: bool, width: int | None = None, ex
                 folded_line = Text(MARKERS[effect.grade] + " ", style=f"grade.{effect.grade.word}")
                 folded_line.append(effect.rule, style="finding.rule")
                 if effect.columns:
-                    folded_line.append("  " + ", ".join(effect.columns), style="finding.columns")
+                    folded_line.append("  " + capped_names(effect.columns), style="finding.columns")
                 folded_line.append(": " + effect.message)
                 if effect.rows:
                     items, more = row_groups(effect, 10)

@@ -225,3 +225,34 @@ def _judge(
     if reason is None:
         return None
     return Sentinel(float(value), count, gap, in_spacings, in_scales, reason)
+
+
+def sentinel_free(block: np.ndarray, limits: SentinelLimits = SentinelLimits()) -> np.ndarray:
+    """Per column of ``block`` (rows x columns): True where :func:`find_sentinels` is sure to find no code.
+
+    Decided many columns at once for the common case of short columns of
+    distinct finite values: there every value occurs once, so an edge value
+    can only be a code when it is ``limits.gap_to_spacing`` times the edge's
+    spacing away from the rest *and* code-shaped or zero (the first test of
+    :func:`_judge`, :func:`_edge_rules_out`, with a count of one). When that
+    rules out the outermost value on both sides, the search stops at once
+    and finds nothing. Every other column is False (searched in full).
+    """
+    rows, columns = block.shape
+    free = np.zeros(columns, dtype=bool)
+    if rows < EDGE_VALUES + 2 or columns == 0:
+        return free
+    ordered = np.sort(block, axis=0)
+    steps = np.diff(ordered, axis=0)
+    distinct = np.isfinite(ordered).all(axis=0) & (steps > 0).all(axis=0)
+    low_gap, high_gap = steps[0], steps[-1]
+    low_spacing = np.median(steps[1:EDGE_VALUES], axis=0)
+    high_spacing = np.median(steps[-EDGE_VALUES:-1], axis=0)
+    with np.errstate(invalid="ignore", over="ignore"):
+        low_out = low_gap < limits.gap_to_spacing * low_spacing
+        high_out = high_gap < limits.gap_to_spacing * high_spacing
+    free = distinct & low_out & high_out
+    for j in np.flatnonzero(distinct & ~free):
+        edges = [float(v) for v, out in ((ordered[0, j], low_out[j]), (ordered[-1, j], high_out[j])) if not out]
+        free[j] = not any(value == 0 or code_shaped(value) for value in edges)
+    return free

@@ -21,6 +21,8 @@ SHORT_SIDE, LONG_SIDE = -4.0, 3.0
 NORMAL_SHARE_BEYOND = 0.00698
 #: The bisection stops when the bracket is this narrow (the kernel values lie in [-1, 1]).
 BISECTION_WIDTH = 2.0**-44
+#: Up to this many kernels, the medcouple is read from all of them at once (one partition) instead of by bisection.
+DIRECT_KERNELS = 65_536
 
 
 def _count_at_most(upper: np.ndarray, lower: np.ndarray, ties: int, t: float) -> int:
@@ -58,12 +60,28 @@ def _kth_kernel(upper: np.ndarray, lower: np.ndarray, ties: int, k: int) -> floa
     return high
 
 
+def _direct_median_kernel(upper: np.ndarray, lower: np.ndarray, ties: int, total: int) -> float:
+    """The median of all ``total`` kernel values, each written out (a short column: one partition, no bisection).
+
+    The same multiset as :func:`_count_at_most` counts: ``(z_i + z_j) / (z_i - z_j)`` for ``z_i > 0 > z_j``, +1
+    for a positive deviation with a tie, -1 for a tie with a negative one, and among the ties ``k (k - 1) / 2``
+    kernels of -1, ``k`` of 0 and ``k (k - 1) / 2`` of +1; the mean of the two middle values for an even count.
+    """
+    pairs = ties * (ties - 1) // 2
+    inner = ((upper[:, None] + lower[None, :]) / (upper[:, None] - lower[None, :])).ravel()
+    kernels = np.concatenate([inner, np.full(ties * upper.size + pairs, 1.0), np.full(ties * lower.size + pairs, -1.0), np.zeros(ties)])
+    middle = (total // 2,) if total % 2 else (total // 2 - 1, total // 2)
+    part = np.partition(kernels, middle)
+    return float(part[middle[0]]) if len(middle) == 1 else float(0.5 * (part[middle[0]] + part[middle[1]]))
+
+
 def medcouple(values: np.ndarray) -> float:
     """The medcouple of the finite values: a robust skewness in [-1, 1] (NaN with fewer than three values).
 
     The median of ``((x_i - m) - (m - x_j)) / (x_i - x_j)`` over ``x_i >= m >= x_j``, ``m`` the median; found by
     bisection on the kernel value, each step counting the kernels below it with one sorted search (O(n log n)
-    per step, no n x n array).
+    per step, no n x n array); a short column (at most ``DIRECT_KERNELS`` kernels) writes its kernels out and
+    partitions them once, which a wide table of short columns needs (10,000 columns of 50 rows).
 
     References
     ----------
@@ -82,6 +100,8 @@ def medcouple(values: np.ndarray) -> float:
     ties = int(np.count_nonzero(z == 0))
     upper, lower = z[z > 0], z[z < 0]
     total = (upper.size + ties) * (lower.size + ties)
+    if total <= DIRECT_KERNELS:
+        return _direct_median_kernel(upper, lower, ties, total)
     if total % 2:
         return _kth_kernel(upper, lower, ties, total // 2 + 1)
     first = _kth_kernel(upper, lower, ties, total // 2)
@@ -150,3 +170,67 @@ def adjusted_fences(values: np.ndarray) -> AdjustedFences | None:
     else:
         below, above = np.exp(-LONG_SIDE * mc), np.exp(-SHORT_SIDE * mc)
     return AdjustedFences(q1, q3, mc, float(below * iqr), float(above * iqr))
+
+
+#: The batched medcouple writes out at most this many kernels at once (u * l * columns).
+BATCH_KERNELS = 4_000_000
+
+
+def adjusted_fences_of_block(block: np.ndarray) -> list[AdjustedFences | None]:
+    """:func:`adjusted_fences` of every column of ``block`` (rows x columns, every value finite), in a few array operations.
+
+    The same arithmetic as :func:`adjusted_fences` and :func:`medcouple` column by column, applied to all the
+    columns at once: quartiles along the rows, one sort, and for the columns whose kernels fit
+    ``DIRECT_KERNELS`` the kernels of all columns with the same counts above, below and at the median written
+    out together and partitioned once; the rest go through :func:`adjusted_fences`. A wide table of short
+    columns (10,000 columns of 50 rows) spends milliseconds instead of seconds of per-column overhead.
+    """
+    n, k = block.shape
+    out: list[AdjustedFences | None] = [None] * k
+    if n < 3 or k == 0:
+        return out
+    quartiles = np.quantile(block, [0.25, 0.75], axis=0)
+    ordered = np.sort(block, axis=0)
+    centre = np.median(ordered, axis=0)
+    z = ordered - centre
+    scale = np.max(np.abs(z), axis=0)
+    iqr = quartiles[1] - quartiles[0]
+    usable = np.flatnonzero((iqr > 0) & (scale > 0))
+    if usable.size == 0:
+        return out
+    z = z[:, usable] / scale[usable]
+    above = np.count_nonzero(z > 0, axis=0)
+    below = np.count_nonzero(z < 0, axis=0)
+    ties = n - above - below
+    mc = np.full(usable.size, np.nan)
+    groups: dict[tuple[int, int, int], list[int]] = {}
+    for j, key in enumerate(zip(above.tolist(), below.tolist(), ties.tolist())):
+        groups.setdefault(key, []).append(j)
+    for (u, l, t), members in groups.items():
+        total = (u + t) * (l + t)
+        if total > DIRECT_KERNELS:
+            for j in members:
+                mc[j] = medcouple(block[:, usable[j]])
+            continue
+        pairs = t * (t - 1) // 2
+        middle = (total // 2,) if total % 2 else (total // 2 - 1, total // 2)
+        step = max(1, BATCH_KERNELS // max(total, 1))
+        for start in range(0, len(members), step):
+            chosen = np.asarray(members[start : start + step])
+            zc = z[:, chosen]
+            upper, lower = zc[n - u :], zc[:l]
+            inner = ((upper[:, None, :] + lower[None, :, :]) / (upper[:, None, :] - lower[None, :, :])).reshape(u * l, chosen.size)
+            fixed = np.concatenate([np.full(t * u + pairs, 1.0), np.full(t * l + pairs, -1.0), np.zeros(t)])
+            kernels = np.concatenate([inner, np.repeat(fixed[:, None], chosen.size, axis=1)], axis=0)
+            part = np.partition(kernels, middle, axis=0)
+            mc[chosen] = part[middle[0]] if len(middle) == 1 else 0.5 * (part[middle[0]] + part[middle[1]])
+    for j, column in enumerate(usable.tolist()):
+        q1, q3 = float(quartiles[0, column]), float(quartiles[1, column])
+        value = float(mc[j])
+        if value >= 0:
+            down, up = np.exp(SHORT_SIDE * value), np.exp(LONG_SIDE * value)
+        else:
+            down, up = np.exp(-LONG_SIDE * value), np.exp(-SHORT_SIDE * value)
+        iqr_j = q3 - q1
+        out[column] = AdjustedFences(q1, q3, value, float(down * iqr_j), float(up * iqr_j))
+    return out
