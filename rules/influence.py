@@ -20,7 +20,7 @@ from prefit.stats.chance import (
     expected_count,
     t_tail,
 )
-from prefit.stats.influence import group_deletion
+from prefit.stats.influence import group_deletion, rows_deleted
 from prefit.stats.resistant import DISTANCE_QUANTILE, RESIDUAL_LIMIT, RowClass, classify, resistant_stands_aside
 
 from ._rowfindings import (
@@ -451,7 +451,7 @@ def _robust_distortion(ctx: RunContext, settings: RuleSettings) -> Iterator[Find
     if not beyond_chance(settings, check):
         return
     rows = np.flatnonzero(hidden)
-    group = group_deletion(ctx.fit, ctx.design.X[rows], ctx.row_scores.residual[rows])
+    group = rows_deleted(ctx.fit, hidden)
     moved = movement(ctx, group.shift, group.se_after)
     largest = moved.largest()
     shift = abs(largest[1]) if largest is not None else (float("inf") if not np.isfinite(group.cooks) else 0.0)

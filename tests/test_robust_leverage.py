@@ -86,3 +86,27 @@ def test_beyond_the_row_budget_pass_two_scores_every_row_against_the_sample_fit(
     top = [int(p) + 1 for p in screen.top_positions[:10]]
     assert set(top) == set(range(1, 11))
     assert screen.cutoffs[0].beyond >= 10
+
+
+def test_deleting_many_rows_refits_and_agrees_with_the_block_formula() -> None:
+    from prefit.stats.factor import DesignFactor
+    from prefit.stats.fit import PreliminaryFit
+    from prefit.stats.influence import DIRECT_DELETION_ROWS, group_deletion, rows_deleted
+
+    # Invented site-days; reference: numpy least squares refitted without the deleted rows.
+    rng = np.random.default_rng(3)
+    n = 4_000
+    X = np.column_stack([np.ones(n), rng.normal(10, 3, n), rng.uniform(0, 50, n)])
+    y = X @ np.array([5.0, 2.0, -0.5]) + rng.normal(0, 1.0, n)
+    fit = PreliminaryFit(DesignFactor.of(X, y), float(np.sum((y - y.mean()) ** 2)), True, X, y)
+    deleted = np.zeros(n, dtype=bool)
+    deleted[rng.choice(n, DIRECT_DELETION_ROWS + 300, replace=False)] = True
+    refit = rows_deleted(fit, deleted)
+    reference = np.linalg.lstsq(X[~deleted], y[~deleted], rcond=None)[0]
+    np.testing.assert_allclose(fit.coef - refit.shift, reference, rtol=1e-9)
+    residual = y - X @ fit.coef
+    block = group_deletion(fit, X[deleted], residual[deleted])
+    np.testing.assert_allclose(refit.shift, block.shift, rtol=1e-7, atol=1e-10)
+    np.testing.assert_allclose(refit.se_after, block.se_after, rtol=1e-7)
+    assert refit.cooks == pytest.approx(block.cooks, rel=1e-7)
+    assert refit.rss_drop == pytest.approx(block.rss_drop, rel=1e-6)

@@ -237,6 +237,48 @@ def group_deletion(fit: PreliminaryFit, X: np.ndarray, residual: np.ndarray) -> 
         return _group_deletion(fit, X, residual)
 
 
+#: Deleted sets larger than this are refitted without the rows (O(n p^2)) instead of forming the m x m block (O(m^3)).
+DIRECT_DELETION_ROWS = 500
+
+
+def rows_deleted(fit: PreliminaryFit, deleted: np.ndarray) -> GroupDeletion:
+    """Delete the rows where ``deleted`` (a boolean mask over the complete cases) is set, for any number of them.
+
+    Up to :data:`DIRECT_DELETION_ROWS` rows this is :func:`group_deletion`;
+    beyond, the coefficients are fitted again on the remaining rows (SVD least
+    squares on the estimable columns), which gives the same shift, Cook's
+    distance, fall in the residual sum of squares and standard errors.
+    """
+    rows = np.flatnonzero(deleted)
+    X, y = fit.X, fit.y
+    if X is None or y is None:
+        raise ValueError("deleting rows needs the fit's design and target")
+    residual = y - X @ np.nan_to_num(fit.coef)
+    if rows.size <= DIRECT_DELETION_ROWS:
+        return group_deletion(fit, X[rows], residual[rows])
+    f, k, m = fit.factor, fit.rank, int(rows.size)
+    shift, se_after = np.full(f.p, np.nan), np.full(f.p, np.nan)
+    cols = np.sort(f.perm[:k])
+    kept = ~deleted
+    dof_after = fit.df_resid - m
+    if k == 0 or dof_after <= 0:
+        return GroupDeletion(m, shift, float("inf"), float("nan"), se_after)
+    with one_blas_thread():
+        after, _, rank_after, singular = np.linalg.lstsq(X[kept][:, cols], y[kept], rcond=None)
+        if rank_after < k:
+            return GroupDeletion(m, shift, float("inf"), float("nan"), se_after)
+        moved = fit.coef[cols] - after
+        shift[cols] = moved
+        rss_after = float(np.sum((y[kept] - X[kept][:, cols] @ after) ** 2))
+        s2 = fit.rss / fit.df_resid
+        change = X[:, cols] @ moved
+        cooks = float(change @ change / (k * s2)) if s2 > 0 else float("inf")
+        _, r = np.linalg.qr(X[kept][:, cols])
+        inverse = scipy.linalg.solve_triangular(r, np.eye(k), check_finite=False)
+        se_after[cols] = np.sqrt(rss_after / dof_after * np.einsum("ij,ij->i", inverse, inverse))
+    return GroupDeletion(m, shift, cooks, fit.rss - rss_after, se_after)
+
+
 def _group_deletion(fit: PreliminaryFit, X: np.ndarray, residual: np.ndarray) -> GroupDeletion:
     f, k, m = fit.factor, fit.rank, len(residual)
     shift, se_after = np.full(f.p, np.nan), np.full(f.p, np.nan)
