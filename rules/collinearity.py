@@ -455,7 +455,7 @@ def dependency_groups(ctx: RunContext, settings: RuleSettings) -> list[Dependenc
 
 def coexisting_limit(settings: RuleSettings) -> float:
     """The condition index from which near dependencies count as coexisting: the strongest grade's limit."""
-    return max((t for t in settings.thresholds if t.grade is not None), key=lambda t: t.grade).value
+    return max((t for t in settings.thresholds if t.grade is not None), key=lambda t: int(t.grade or 0)).value
 
 
 def _with_coexisting(

@@ -33,7 +33,7 @@ def test_quick_start_check_prints_what_the_readme_says() -> None:
     run = run_cli(*arguments[:1], *(str(ROOT / a) if a.startswith("sample_tables/") else a for a in arguments[1:]))
     assert run.code == 1
     assert "NOT READY at gate misleads" in run.out
-    assert " BLOCKS " in run.out and "collinearity.exact" in run.out and "collinearity.vif" in run.out
+    assert " BLOCKS " in run.out and "collinearity.exact" in run.out and "collinearity.condition" in run.out
 
 
 def test_python_example_runs_as_written() -> None:
