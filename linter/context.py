@@ -299,6 +299,11 @@ class RunContext:
             self._text_numbers[column] = TextNumbers.of(self.table.column(column))
         return self._text_numbers[column]
 
+    def with_target(self, values: np.ndarray) -> pa.Table:
+        """The table with the target column replaced by ``values`` (NaN missing), same rows in the same order: a repair's table."""
+        target = self.roles.target
+        return self.table.set_column(self.table.column_names.index(target), target, pa.array(values, from_pandas=True))
+
     def values(self, column: str) -> np.ndarray:
         """A numeric column over all table rows as float64 (NaN for missing); converted once, shared read-only."""
         if column not in self._values:

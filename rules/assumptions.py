@@ -306,7 +306,6 @@ def _bend_allowed_for(ctx: RunContext, finding: Finding) -> Repair | None:
     diagnostics re-run on it see the fit with the bend allowed for, on the
     same design columns and leverage.
     """
-    import pyarrow as pa
 
     design = ctx.design
     bent = [column for column in finding.columns if column in design.column_names]
@@ -318,7 +317,7 @@ def _bend_allowed_for(ctx: RunContext, finding: Finding) -> Repair | None:
     target = ctx.roles.target
     repaired = np.array(ctx.values(target), dtype=float)
     repaired[design.positions] = design.y - residual + curved.residual
-    table = ctx.table.set_column(ctx.table.column_names.index(target), target, pa.array(repaired, from_pandas=True))
+    table = ctx.with_target(repaired)
     return Repair(f"a square term for {', '.join(bent)}", rows=design.n, table=table)
 
 

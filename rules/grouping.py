@@ -143,7 +143,6 @@ def _group_effects_allowed_for(ctx: RunContext, finding: Finding) -> Repair | No
     the groups' shared offsets allowed for. Rows that stop being outlying or
     influential were whole groups standing apart, not rows gone wrong.
     """
-    import pyarrow as pa
 
     rows = ctx.group_rows
     if rows is None or not _fit_ready(ctx):
@@ -154,13 +153,12 @@ def _group_effects_allowed_for(ctx: RunContext, finding: Finding) -> Repair | No
     target = ctx.roles.target
     repaired = np.array(ctx.values(target), dtype=float)
     repaired[design.positions] = design.y - residual + within
-    table = ctx.table.set_column(ctx.table.column_names.index(target), target, pa.array(repaired, from_pandas=True))
+    table = ctx.with_target(repaired)
     return Repair(f"one intercept per {_group_name(ctx)}", rows=design.n, table=table)
 
 
 def _influential_groups_left_out(ctx: RunContext, finding: Finding) -> Repair | None:
     """The table with the target of the named groups' rows set missing: the fit without the groups that decide it."""
-    import pyarrow as pa
 
     rows = ctx.group_rows
     if rows is None or not finding.rows:
@@ -171,7 +169,7 @@ def _influential_groups_left_out(ctx: RunContext, finding: Finding) -> Repair | 
     target = ctx.roles.target
     values = np.array(ctx.values(target), dtype=float)
     values[ctx.design.positions[left_out]] = np.nan
-    table = ctx.table.set_column(ctx.table.column_names.index(target), target, pa.array(values, from_pandas=True))
+    table = ctx.with_target(values)
     return Repair(f"{len(named):,} {_group_name(ctx)} groups left out", rows=int(left_out.sum()), table=table)
 
 

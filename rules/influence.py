@@ -413,7 +413,6 @@ def _hidden_distorting(ctx: RunContext, classes: np.ndarray, least_squares_limit
 
 def _distorting_rows_removed(ctx: RunContext, finding: Finding) -> Repair | None:
     """The table with the target of the finding's rows set missing: the fit without the rows that distort it."""
-    import pyarrow as pa
 
     classified = robust_classes(ctx, float(finding.details["residual_limit"]))
     if classified is None:
@@ -422,7 +421,7 @@ def _distorting_rows_removed(ctx: RunContext, finding: Finding) -> Repair | None
     target = ctx.roles.target
     values = np.array(ctx.values(target), dtype=float)
     values[ctx.design.positions[hidden]] = np.nan
-    table = ctx.table.set_column(ctx.table.column_names.index(target), target, pa.array(values, from_pandas=True))
+    table = ctx.with_target(values)
     return Repair(f"{int(hidden.sum()):,} distorting rows left out", rows=int(hidden.sum()), table=table)
 
 
