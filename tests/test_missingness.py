@@ -639,3 +639,30 @@ def test_a_placeholder_level_of_a_text_category_is_reported(tmp_path: Path) -> N
     finding = _findings(report, "missingness.disguised-codes")[0]
     assert finding["grade"] == "weakens" and finding["details"]["tokens"] == {"NA": int((kinds == "NA").sum())}
     assert "level of its own" in finding["message"]
+
+
+def test_short_columns_cleared_of_codes_many_at_a_time_are_the_ones_the_full_search_clears() -> None:
+    rng = np.random.default_rng(31)
+    columns = []
+    for j in range(1_400):
+        x = rng.standard_normal(50)
+        kind = j % 7
+        if kind == 1:
+            x[3] = -999.0
+        elif kind == 2:
+            x[5] = 99.0
+        elif kind == 3:
+            x = np.abs(x) + 1.0
+            x[2] = 0.0
+        elif kind == 4:
+            x[:3] = 9999.0
+        elif kind == 5:
+            x = np.round(x, 1)  # repeated values: left to the full search
+        columns.append(x)
+    block = np.column_stack(columns)
+    free = sentinels.sentinel_free(block, SentinelLimits())
+    # never clears a column in which find_sentinels (one column at a time) finds a code
+    assert not [j for j in range(block.shape[1]) if free[j] and find_sentinels(block[:, j])]
+    # and clears every plain noise column (kinds 0 and 6), none of the planted ones
+    assert free[0::7].all() and free[6::7].all()
+    assert not free[1::7].any() and not free[2::7].any() and not free[4::7].any()

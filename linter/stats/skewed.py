@@ -148,8 +148,27 @@ class AdjustedFences:
         return {"q1": self.q1, "q3": self.q3, "medcouple": self.medcouple, "lower_fence": self.lower, "upper_fence": self.upper}
 
 
+MEDCOUPLE_GRID = 4_096
+"""Columns with more finite values take the medcouple of this many of their order statistics, evenly spaced.
+
+The exact medcouple's bisection costs about 0.2 s for 100,000 values (90 sorted searches of half the column), a
+minute and a half for 500 such columns. The grid's empirical distribution is within 1/4,096 of the column's at
+every value, so its medcouple differs from the column's by far less than the medcouple's own standard error
+sqrt(1.25 / n) (Brys, Hubert & Struyf 2004) at any n; it depends on the values only, never on the row order.
+"""
+
+
+def order_statistic_grid(values: np.ndarray, size: int) -> np.ndarray:
+    """``size`` order statistics of ``values`` at evenly spaced ranks, the smallest and the largest included."""
+    ranks = np.round(np.linspace(0, values.size - 1, size)).astype(np.int64)
+    return np.partition(values, ranks)[ranks]
+
+
 def adjusted_fences(values: np.ndarray) -> AdjustedFences | None:
     """The adjusted boxplot of the finite values (quartiles as :func:`numpy.quantile`); None when the IQR is zero.
+
+    Beyond ``MEDCOUPLE_GRID`` values the medcouple is that of the evenly spaced order statistics
+    (:func:`order_statistic_grid`); the quartiles are always the column's own.
 
     References
     ----------
@@ -164,7 +183,7 @@ def adjusted_fences(values: np.ndarray) -> AdjustedFences | None:
     iqr = q3 - q1
     if not iqr > 0:
         return None
-    mc = medcouple(x)
+    mc = medcouple(x if x.size <= MEDCOUPLE_GRID else order_statistic_grid(x, MEDCOUPLE_GRID))
     if mc >= 0:
         below, above = np.exp(SHORT_SIDE * mc), np.exp(LONG_SIDE * mc)
     else:
