@@ -161,7 +161,7 @@ sqrt(1.25 / n) (Brys, Hubert & Struyf 2004) at any n; it depends on the values o
 def order_statistic_grid(values: np.ndarray, size: int) -> np.ndarray:
     """``size`` order statistics of ``values`` at evenly spaced ranks, the smallest and the largest included."""
     ranks = np.round(np.linspace(0, values.size - 1, size)).astype(np.int64)
-    return np.partition(values, ranks)[ranks]
+    return np.sort(values)[ranks]  # one sort: numpy's partition at thousands of ranks costs far more
 
 
 def adjusted_fences(values: np.ndarray) -> AdjustedFences | None:
