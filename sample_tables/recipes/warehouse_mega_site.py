@@ -29,7 +29,7 @@ EXPECTED = [
     ("target.skewed", "note", ("energy_kwh",)),
 ]
 FIX_FIRST = [
-    ("assumptions.nonlinearity", "misleads", ("pallets_stored", "floor_area_m2"), 6),
+    ("assumptions.nonlinearity", "misleads", ("pallets_stored", "floor_area_m2"), 5),
     ("grouping.group-outliers", "weakens", ("floor_area_m2",), 0),
 ]
 EXIT_CODE = 1
