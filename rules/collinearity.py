@@ -431,14 +431,18 @@ def dependency_groups(ctx: RunContext, settings: RuleSettings) -> list[Dependenc
 
     A group is a condition index at or above the weakest index limit with two
     or more predictors (the intercept aside) whose variance proportions exceed
-    the proportion limit (Belsley, Kuh & Welsch 1980, sec. 3.3). One below the
-    strongest index limit is kept only when it inflates some member's variance
-    to the ``weak-vif`` level. ``collinearity.vif`` leaves the members of these
-    groups to this finding, which names their VIFs.
+    the proportion limit (Belsley, Kuh & Welsch 1980, sec. 3.3), kept only when
+    it inflates some member's variance to the ``weak-vif`` level: the VIF is a
+    slope's variance inflation in the centred design, which gives the same
+    slopes, so a high index whose members' VIFs stay low comes from the
+    columns' distance from zero (their means large beside their spread, many
+    of them together), which only the intercept's precision pays for
+    (nonessential ill-conditioning: Marquardt 1980, JASA 75; Snee & Marquardt
+    1984, The American Statistician 38, 83-87). ``collinearity.vif`` leaves
+    the members of these groups to this finding, which names their VIFs.
     """
     diagnostics = ctx.collinearity
     graded_thresholds = [t for t in settings.thresholds if t.grade is not None]
-    strongest = max(t.grade for t in graded_thresholds if t.grade is not None)
     inflation = {column: term.vif_scale for term in diagnostics.terms for column in term.columns}
     groups: list[DependencyGroup] = []
     for dependency in diagnostics.near_dependencies(min(t.value for t in graded_thresholds), settings.limit("proportion")):
@@ -447,7 +451,7 @@ def dependency_groups(ctx: RunContext, settings: RuleSettings) -> list[Dependenc
         if graded is None or len(predictors) < 2:
             continue
         grade, limit = graded
-        if grade < strongest and max(inflation.get(name, 1.0) for name in predictors) < settings.limit("weak-vif"):
+        if max(inflation.get(name, 1.0) for name in predictors) < settings.limit("weak-vif"):
             continue
         groups.append(DependencyGroup(dependency, grade, limit, predictors))
     return _with_coexisting(ctx, groups, settings, inflation)
@@ -665,10 +669,12 @@ CONDITION_RULE = Rule(
         Threshold(
             "weak-vif",
             5.0,
-            "prefit: a dependency below the strongest index limit is reported only when it inflates some "
-            "involved predictor's variance to the VIF weakens level; one between the intercept and a single "
-            "predictor is never reported (centring removes it without changing a slope: Marquardt 1980, "
-            "JASA 75, 87-91; from memory)",
+            "prefit: a dependency is reported only when it inflates some involved predictor's variance to the VIF "
+            "weakens level, at any condition index; one between the intercept and predictors whose VIFs stay low is "
+            "nonessential ill-conditioning, which centring removes without changing a slope (Marquardt 1980, "
+            "JASA 75, 87-91; Snee & Marquardt 1984, The American Statistician 38, 83-87; from memory); prefit's "
+            "calibration study: with the index alone, a correlated pair (r = 0.6, VIFs 1.6) among 30 predictors of "
+            "mean five SDs from zero drew misleads on every clean table",
         ),
     ),
 )

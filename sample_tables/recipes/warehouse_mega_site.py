@@ -22,7 +22,7 @@ EXPECTED = [
     ("grouping.residual-correlation", "misleads", ("compressor_type",)),
     ("grouping.within-between", "weakens", ("pallets_stored",)),
     ("influence.cooks-distance", "misleads", ()),
-    ("influence.leverage", "weakens", ()),
+    ("influence.leverage", "note", ()),
     ("influence.robust-distortion", "misleads", ()),
     ("outliers.multivariate", "note", ("outdoor_c", "door_openings", "pallets_stored", "defrost_cycles")),
     ("outliers.univariate", "note", ("energy_kwh", "pallets_stored")),
