@@ -10,10 +10,11 @@ from __future__ import annotations
 import json
 from dataclasses import dataclass, field, replace
 from functools import cached_property
-from typing import TYPE_CHECKING, Any, Mapping
+from typing import TYPE_CHECKING, Any, Callable, Mapping
 
 from . import __version__
 from .accepted import AcceptedSet, Fingerprint, fingerprint
+from .figures import FigureData
 from .findings import Finding, Grade, RowLabel, count_by_grade
 from .reading import TableInfo
 from .report import WriterSettings, render
@@ -230,8 +231,11 @@ class Report:
         The baseline the table was vetted against.
     rules : tuple of RuleLike
         The rules the run knew (not part of the JSON report).
+    figure_source : callable or None
+        Gathers the plots' data (:class:`~prefit.figures.FigureData`) for given findings; set by the pipeline,
+        called once through :attr:`figures`, so that a check that draws no plot gathers nothing.
     context : RunContext or None
-        The run's statistics, kept for the HTML plots and ``--save-baseline``; no writer but the plots reads it.
+        The run's statistics, kept for ``--save-baseline`` and for callers who read them; no writer reads it.
     """
 
     info: TableInfo
@@ -250,7 +254,13 @@ class Report:
     row_positions: Mapping[RowLabel, int] = field(default_factory=dict, compare=False, repr=False)
     baseline: Mapping[str, Any] | None = None
     rules: tuple[RuleLike, ...] = field(default=(), compare=False, repr=False)
+    figure_source: Callable[[tuple[Finding, ...]], FigureData] | None = field(default=None, compare=False, repr=False)
     context: RunContext | None = field(default=None, compare=False, repr=False)
+
+    @cached_property
+    def figures(self) -> FigureData | None:
+        """What the HTML plots draw for this report's findings, gathered on first use; None for a report built without a run."""
+        return self.figure_source(self.findings) if self.figure_source is not None else None
 
     @property
     def failed_rules(self) -> tuple[str, ...]:
