@@ -13,6 +13,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from .accepted import RowDigester, fingerprint
+from .baseline import profile_of
 from .causes import find_causes
 from .context import RunContext
 from .design import INTERCEPT
@@ -177,6 +178,18 @@ def context_for(table: "pa.Table | pd.DataFrame", target: str, **options: Any) -
     return build_context(data, info, options_from(target=target, **options))
 
 
+def checked_context(table: "pa.Table | pd.DataFrame", target: str, **options: Any) -> tuple[Report, RunContext]:
+    """The report of an in-memory table (every installed rule the options select) with the run context it was read from.
+
+    For notebooks and tests that read the shared statistics behind a report: the report itself holds no context.
+    """
+    data, info = as_table(table, ReadOptions())
+    request = CheckRequest(options_from(target=target, **options), table=data, info=info)
+    registry, selected = _rules(request)
+    context, engine = memory_context(data, info, request.options)
+    return report_for(context, registry, selected, engine), context
+
+
 def report_for(
     context: RunContext,
     registry: Registry,
@@ -233,7 +246,7 @@ def report_for(
         baseline=context.baseline.describe() if context.baseline is not None else None,
         rules=tuple(registry),
         figure_source=partial(figure_data, context, rules=tuple(registry), outcomes=tuple(outcomes), digester=digester),
-        context=context,
+        profile_source=partial(profile_of, context),
     )
 
 

@@ -11,6 +11,7 @@ import pkgutil
 import subprocess
 import sys
 from concurrent.futures import ThreadPoolExecutor
+from pathlib import Path
 
 import prefit
 import prefit.rules
@@ -42,3 +43,19 @@ def test_each_module_imports_alone_in_a_fresh_interpreter() -> None:
         results = list(pool.map(_import_alone, _modules()))
     failed = [f"{name}: {last}" for name, code, last in results if code != 0]
     assert not failed, "\n".join(failed)
+
+
+def _writer_modules() -> list[str]:
+    return ["prefit.outcome", "prefit.figures", *(name for name in _modules() if name == "prefit.report" or name.startswith("prefit.report."))]
+
+
+def test_the_report_model_and_its_writers_load_without_the_run_context() -> None:
+    script = "import sys, importlib\nfor name in sys.argv[1:]:\n    importlib.import_module(name)\nprint('prefit.context' in sys.modules)\n"
+    done = subprocess.run([sys.executable, "-c", script, *_writer_modules()], capture_output=True, text=True, timeout=300)
+    assert done.returncode == 0 and done.stdout.strip() == "False", done.stdout + done.stderr
+
+
+def test_no_writer_names_the_run_context() -> None:
+    # Writers draw from the report model alone (figure data included), not even for type hints.
+    for path in sorted((Path(prefit.__file__).parent / "report").glob("*.py")):
+        assert "RunContext" not in path.read_text(encoding="utf-8"), path.name
