@@ -3,8 +3,8 @@
 Each function draws from the report's figure data (:attr:`Report.figures`,
 gathered by the pipeline from the run's statistics; no plot reads the run
 itself) and returns an SVG fragment, or None when the plot has nothing to
-show (no fit, fewer than two numeric predictors). Large tables are sampled deterministically and the caption
-says so. Text is written as SVG text elements, which matplotlib's XML
+show (no fit, fewer than two numeric predictors). Large tables are sampled
+deterministically and the caption says so. Text is written as SVG text elements, which matplotlib's XML
 writer escapes, so no data text becomes markup; the page names no font file.
 """
 
