@@ -17,7 +17,7 @@ from .engines.memory import build_context
 from .findings import GRADES_STRONGEST_FIRST
 from .options import CheckOptions, options_from
 from .outcome import Report
-from .pipeline import CheckRequest, as_table, context_for, heavy_first, report_for, run
+from .pipeline import CheckRequest, as_table, checked_context, context_for, heavy_first, report_for, run
 from .progress import RunProgress
 from .reading import ReadOptions, TableInfo
 from .registry import Registry
@@ -27,7 +27,7 @@ if TYPE_CHECKING:
     import pyarrow as pa
 
 __all__ = [
-    "CheckRequest", "NotReady", "Report", "apply_accepted", "build_context", "check", "check_file", "context_for",
+    "CheckRequest", "NotReady", "Report", "apply_accepted", "build_context", "check", "check_file", "checked_context", "context_for",
     "heavy_first", "options_from", "report_for", "require_ready", "run", "run_check", "write_baseline",
 ]
 

@@ -357,8 +357,8 @@ def read_profile(path: str) -> BaselineProfile | None:
 
 def write_baseline(report: Report, path: str | Path) -> BaselineProfile:
     """Write the baseline profile of a checked table (``--save-baseline``) and return it."""
-    if report.context is None:
+    profile = report.profile
+    if profile is None:
         raise UsageProblem("--save-baseline", "needs the statistics of a check run in this process", "run the check and save in one call")
-    profile = profile_of(report.context)
     save_profile(profile, path)
     return profile

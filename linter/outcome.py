@@ -10,10 +10,11 @@ from __future__ import annotations
 import json
 from dataclasses import dataclass, field, replace
 from functools import cached_property
-from typing import TYPE_CHECKING, Any, Mapping
+from typing import TYPE_CHECKING, Any, Callable, Mapping
 
 from . import __version__
 from .accepted import AcceptedSet, Fingerprint, fingerprint
+from .figures import FigureData
 from .findings import Finding, Grade, RowLabel, count_by_grade
 from .reading import TableInfo
 from .report import WriterSettings, render
@@ -22,7 +23,7 @@ from .stats.screens import FENCE_CONFIDENCE, ColumnFences, MeasureScreen
 from .text import cut_texts, json_inert
 
 if TYPE_CHECKING:
-    from .context import RunContext
+    from .baseline import BaselineProfile
     from .rule import RuleLike
 
 RULE_ERROR = "engine.rule-error"
@@ -230,8 +231,15 @@ class Report:
         The baseline the table was vetted against.
     rules : tuple of RuleLike
         The rules the run knew (not part of the JSON report).
-    context : RunContext or None
-        The run's statistics, kept for the HTML plots and ``--save-baseline``; no writer but the plots reads it.
+    figure_source : callable or None
+        Gathers the plots' data (:class:`~prefit.figures.FigureData`) for given findings; set by the pipeline,
+        called once through :attr:`figures`, so that a check that draws no plot gathers nothing.
+    profile_source : callable or None
+        Profiles the checked table for ``--save-baseline``; set by the pipeline, called once through :attr:`profile`.
+
+    The report holds no run context: writers and callers read the report model, and the two sources
+    above are the only way back to the run's statistics (:func:`prefit.pipeline.checked_context`
+    gives a caller both the report and the context).
     """
 
     info: TableInfo
@@ -250,7 +258,18 @@ class Report:
     row_positions: Mapping[RowLabel, int] = field(default_factory=dict, compare=False, repr=False)
     baseline: Mapping[str, Any] | None = None
     rules: tuple[RuleLike, ...] = field(default=(), compare=False, repr=False)
-    context: RunContext | None = field(default=None, compare=False, repr=False)
+    figure_source: Callable[[tuple[Finding, ...]], FigureData] | None = field(default=None, compare=False, repr=False)
+    profile_source: Callable[[], BaselineProfile] | None = field(default=None, compare=False, repr=False)
+
+    @cached_property
+    def figures(self) -> FigureData | None:
+        """What the HTML plots draw for this report's findings, gathered on first use; None for a report built without a run."""
+        return self.figure_source(self.findings) if self.figure_source is not None else None
+
+    @cached_property
+    def profile(self) -> BaselineProfile | None:
+        """The checked table's baseline profile (:func:`prefit.baseline.profile_of`), made on first use; None for a report built without a run."""
+        return self.profile_source() if self.profile_source is not None else None
 
     @property
     def failed_rules(self) -> tuple[str, ...]:
@@ -361,7 +380,7 @@ class Report:
         Parameters
         ----------
         plots : bool, default True
-            Draw the SVG plots (needs matplotlib; they read the run's statistics).
+            Draw the SVG plots (needs matplotlib; they draw the report's figure data, gathered from the run on first use).
 
         Returns
         -------

@@ -4,32 +4,54 @@ from __future__ import annotations
 
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
+from functools import partial
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Sequence
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.compute as pc
 
 from .accepted import RowDigester, fingerprint
+from .baseline import profile_of
 from .causes import find_causes
 from .context import RunContext
+from .design import INTERCEPT
 from .engines.batches import choose_engine, open_batches
 from .engines.dask import DaskRunner
 from .engines.memory import build_context, memory_context
 from .engines.scaled import scaled_context
 from .engines.stream import StreamRunner
 from .errors import UsageProblem
+from .figures import (
+    COOK_CONTOURS,
+    MAX_LABELS,
+    MAX_MAP_COLUMNS,
+    MAX_MAP_ROWS,
+    MAX_MATRIX_COLUMNS,
+    ROBUST_RULE,
+    ROW_FAMILIES,
+    CollinearityView,
+    FigureData,
+    InfluencePoints,
+    MissingMap,
+    RangeBar,
+    RobustPoints,
+    evenly,
+    frozen_view,
+)
 from .findings import Finding, RowLabel
 from .options import CheckOptions, options_from
-from .outcome import DesignDescription, DesignTerm, EngineRun, Grouping, Report
+from .outcome import DesignDescription, DesignTerm, EngineRun, Grouping, Report, RuleOutcome
 from .preload import imports_ready, warm_imports
 from .progress import RunProgress, pass_bars
 from .reading import ReadOptions, TableInfo, decode_dictionaries, read_table
 from .registry import Registry, discover
 from .roles import distinct_labels
-from .rule import RuleLike, RuleSettings
+from .rule import RuleLike, RuleSettings, rule_family
 from .runner import error_finding, run_rule, select_rules
 from .stats.blas import one_blas_thread
+from .stats.resistant import RowClass, classify, distance_cutoff
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -156,6 +178,18 @@ def context_for(table: "pa.Table | pd.DataFrame", target: str, **options: Any) -
     return build_context(data, info, options_from(target=target, **options))
 
 
+def checked_context(table: "pa.Table | pd.DataFrame", target: str, **options: Any) -> tuple[Report, RunContext]:
+    """The report of an in-memory table (every installed rule the options select) with the run context it was read from.
+
+    For notebooks and tests that read the shared statistics behind a report: the report itself holds no context.
+    """
+    data, info = as_table(table, ReadOptions())
+    request = CheckRequest(options_from(target=target, **options), table=data, info=info)
+    registry, selected = _rules(request)
+    context, engine = memory_context(data, info, request.options)
+    return report_for(context, registry, selected, engine), context
+
+
 def report_for(
     context: RunContext,
     registry: Registry,
@@ -211,7 +245,8 @@ def report_for(
         row_positions=row_positions(ordered, digester),
         baseline=context.baseline.describe() if context.baseline is not None else None,
         rules=tuple(registry),
-        context=context,
+        figure_source=partial(figure_data, context, rules=tuple(registry), outcomes=tuple(outcomes), digester=digester),
+        profile_source=partial(profile_of, context),
     )
 
 
@@ -297,3 +332,180 @@ def as_table(source: "pa.Table | pd.DataFrame | str | Path", read: ReadOptions) 
         raise UsageProblem("table", "has no data rows", "give a table with at least one row")
     name = "<table>" if isinstance(source, pa.Table) else "<DataFrame>"
     return table, TableInfo(path=name, format="memory", rows=table.num_rows, columns=table.num_columns, sha256=None)
+
+
+def figure_data(
+    context: RunContext, findings: Sequence[Finding], rules: Sequence[RuleLike], outcomes: Sequence[RuleOutcome], digester: RowDigester
+) -> FigureData:
+    """What the HTML report's plots draw, gathered from the run's shared statistics (never refitted here).
+
+    Called only when a page with plots is written (:attr:`Report.figures`), so a
+    check that writes no HTML computes none of it; statistics the rules already
+    read are reused from the context's caches.
+    """
+    with one_blas_thread():
+        return FigureData(
+            influence=influence_points(context, findings, rules, digester),
+            robust=robust_points(context, outcomes),
+            missing=missing_map(context),
+            collinearity=collinearity_view(context),
+            ranges=range_bars(context),
+        )
+
+
+def cook_levels(rules: Sequence[RuleLike], n: int, rank: int, df_resid: int) -> tuple[tuple[float, str], ...]:
+    """The Cook's distance levels the rule grades at, weakest first, each with its grade; fixed levels otherwise.
+
+    The rule's ``weakens`` threshold is the numerator of a size-scaled cut-off (4/n) and its ``misleads``
+    threshold a quantile of F(p, n - p) (the median); a plugin rule with other thresholds gets the fixed levels.
+    """
+    for rule in rules:
+        if rule.id != "influence.cooks-distance":
+            continue
+        limits = {t.name: t.value for t in rule.thresholds if t.grade is not None}
+        if {"weakens", "misleads"} <= set(limits):
+            import scipy.stats
+
+            return ((limits["weakens"] / n, "weakens"), (float(scipy.stats.f.ppf(limits["misleads"], rank, df_resid)), "misleads"))
+    return tuple((level, "reference") for level in COOK_CONTOURS)
+
+
+def influence_points(context: RunContext, findings: Sequence[Finding], rules: Sequence[RuleLike], digester: RowDigester) -> InfluencePoints | None:
+    """Leverage, studentized residuals and Cook's distances of the complete cases, the rows to mark and their labels.
+
+    None without a numeric target, a fit of at least one parameter and two residual degrees of freedom, or a finite row.
+    """
+    if not context.target_is_numeric:
+        return None
+    fit = context.fit
+    rank, df_resid = fit.rank, fit.df_resid
+    if rank == 0 or df_resid <= 1:
+        return None
+    shared = context.influence
+    hat, studentized, cook = np.clip(shared.hat, 0.0, 1.0), shared.studentized, shared.cooks
+    n = hat.size
+    finite = np.flatnonzero(np.isfinite(studentized) & np.isfinite(cook))
+    if finite.size == 0:
+        return None
+    labels = [label for f in findings if rule_family(f.rule) in ROW_FAMILIES for label in f.rows]
+    named = np.asarray(digester.positions(labels), dtype=np.int64)
+    rows = context.design.positions
+    in_design = np.minimum(np.searchsorted(rows, named), n - 1)
+    marked = np.intersect1d(in_design[rows[in_design] == named], finite)
+    levels = cook_levels(rules, n, rank, df_resid)
+    if marked.size == 0:
+        marked = finite[cook[finite] >= levels[0][0]]
+    labelled: dict[str, int] = {}
+    for i in marked[np.argsort(-cook[marked], kind="stable")]:
+        label = str(context.row_label(int(rows[i])))
+        if label not in labelled and len(labelled) < MAX_LABELS:
+            labelled[label] = int(i)
+    return InfluencePoints(
+        hat=frozen_view(hat),
+        studentized=frozen_view(studentized),
+        cooks=frozen_view(cook),
+        rank=rank,
+        df_resid=df_resid,
+        levels=levels,
+        marked=frozen_view(marked),
+        labelled=tuple(labelled.items()),
+    )
+
+
+def robust_points(context: RunContext, outcomes: Sequence[RuleOutcome]) -> RobustPoints | None:
+    """Robust distances, robust residuals and row classes, when the robust-distortion rule ran and both estimates exist."""
+    if not any(o.rule == ROBUST_RULE and o.error is None and o.not_applicable is None for o in outcomes):
+        return None
+    resistant, robust = context.resistant, context.robust
+    if resistant is None or robust is None:
+        return None
+    cutoff = distance_cutoff(len(robust.columns))
+    distance, residual = np.sqrt(robust.squared), resistant.residual
+    classes = classify(residual, robust.squared, cutoff)
+    finite = np.flatnonzero(np.isfinite(distance) & np.isfinite(residual))
+    if finite.size == 0:
+        return None
+    unusual = finite[classes[finite] != RowClass.REGULAR]
+    extreme = unusual[np.argsort(-np.abs(residual[unusual]), kind="stable")][:MAX_LABELS]
+    return RobustPoints(
+        distance=frozen_view(distance),
+        residual=frozen_view(residual),
+        classes=frozen_view(classes),
+        cutoff=cutoff,
+        predictors=len(robust.columns),
+        labelled=tuple((int(i), context.row_label(int(context.design.positions[i]))) for i in extreme),
+    )
+
+
+def _missing_mask(column: pa.ChunkedArray) -> np.ndarray:
+    """True where a column's value is null, or NaN in a floating-point column."""
+    mask = np.asarray(column.is_null().to_numpy(zero_copy_only=False), dtype=bool)
+    if pa.types.is_floating(column.type):
+        mask |= np.asarray(pc.fill_null(pc.is_nan(column), False).to_numpy(zero_copy_only=False), dtype=bool)
+    return mask
+
+
+def missing_map(context: RunContext) -> MissingMap:
+    """Missing values per column over every row, and their map on evenly spaced rows (model columns first)."""
+    table = context.table
+    model = list(context.model_columns)
+    columns = (model + [c for c in table.column_names if c not in model])[:MAX_MAP_COLUMNS]
+    picked = evenly(np.arange(table.num_rows), MAX_MAP_ROWS)
+    masks = [_missing_mask(table.column(c)) for c in columns]
+    return MissingMap(
+        columns=tuple(columns),
+        counts=tuple(int(m.sum()) for m in masks),
+        rows=frozen_view(picked),
+        mask=frozen_view(np.column_stack([m[picked] for m in masks])),
+        table_rows=table.num_rows,
+        table_columns=table.num_columns,
+        complete_cases=context.design.n,
+    )
+
+
+def collinearity_view(context: RunContext) -> CollinearityView | None:
+    """Correlations of the design's predictor columns and each term's inflation; None below 3 complete cases or 2 columns."""
+    if context.design.n < 3:
+        return None
+    shared = context.collinearity
+    kept = list(shared.predictor_names())
+    exact = [shared.design_names[j] for j in shared.left_out if shared.design_names[j] != INTERCEPT]
+    shown = min(len(kept), MAX_MATRIX_COLUMNS)
+    names = kept[:shown] + exact[: MAX_MATRIX_COLUMNS - shown]
+    if len(names) < 2:
+        return None
+    graded = {term.term: term.vif_scale for term in shared.terms}
+    left_out = {shared.design_names[j] for j in shared.left_out}
+    terms: list[str] = []
+    inflation: list[float] = []
+    for term in context.design.terms:
+        if term.source == INTERCEPT or not term.columns:
+            continue
+        if term.source in graded:
+            terms.append(term.source)
+            inflation.append(graded[term.source])
+        elif left_out.intersection(term.columns):
+            terms.append(term.source)
+            inflation.append(np.inf)
+    return CollinearityView(
+        names=tuple(names),
+        shown=shown,
+        correlation=frozen_view(shared.correlation[:shown, :shown]),
+        columns=len(kept) + len(exact),
+        terms=tuple(terms[:MAX_MATRIX_COLUMNS]),
+        inflation=frozen_view(np.asarray(inflation[:MAX_MATRIX_COLUMNS], dtype=float)),
+    )
+
+
+def range_bars(context: RunContext) -> tuple[RangeBar, ...]:
+    """Observed ends and 5th to 95th percentiles of the first numeric predictors, beside their declared intended ranges."""
+    bars = []
+    for name in list(context.numeric_predictors)[:MAX_MATRIX_COLUMNS]:
+        values = context.values(name)
+        values = values[np.isfinite(values)]
+        observed = None
+        if values.size:
+            inner = np.percentile(values, [5, 95])
+            observed = (float(values.min()), float(values.max()), float(inner[0]), float(inner[1]))
+        bars.append(RangeBar(name, observed, context.options.ranges.get(name)))
+    return tuple(bars)

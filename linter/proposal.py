@@ -98,8 +98,7 @@ def propose_config(path: str, target: str | None = None, sep: str | None = None,
     id_column, id_reason = _id_column(table, kinds, target)
     read_settings = {"sep": sep, "encoding": encoding}
     report = run(CheckRequest(options_from(target=target, id=id_column, **read_settings), table=table, info=info))
-    roles = report.context.roles if report.context is not None else None
-    left_out = dict(roles.left_out) if roles is not None else {}
+    left_out = dict(report.design.left_out)
     codes = [f for f in report.findings if f.rule == "design.possible-code"]
     stand_ins = [f for f in report.findings if f.rule == "missingness.disguised-codes"]
     grouped = id_reason.startswith("repeats")

@@ -18,7 +18,7 @@ from hypothesis import strategies as st
 
 import prefit
 from prefit.accepted import DEFAULT_REASON, AcceptedSet, fingerprints, load_accepted
-from prefit.api import run_check
+from prefit.api import build_context, run_check
 from prefit.context import RunContext
 from prefit.findings import Finding, Grade
 from prefit.options import CheckOptions
@@ -63,11 +63,19 @@ def invented(with_id: bool) -> pd.DataFrame:
     return frame
 
 
-def demo_report(frame: pd.DataFrame) -> prefit.Report:
+def demo_input(frame: pd.DataFrame) -> tuple[pa.Table, TableInfo, CheckOptions]:
     table = pa.Table.from_pandas(frame, preserve_index=False)
     info = TableInfo(path="invented.csv", format="csv", rows=table.num_rows, columns=table.num_columns, sha256=None)
-    options = CheckOptions(target="energy_kwh", id="site_day" if "site_day" in frame else None)
-    return run_check(table, info, options, registry=demo_registry())
+    return table, info, CheckOptions(target="energy_kwh", id="site_day" if "site_day" in frame else None)
+
+
+def demo_report(frame: pd.DataFrame) -> prefit.Report:
+    return run_check(*demo_input(frame), registry=demo_registry())
+
+
+def demo_context(frame: pd.DataFrame) -> RunContext:
+    """The run context of the demo table, through which its findings' rows are digested."""
+    return build_context(*demo_input(frame))
 
 
 def keys(frame: pd.DataFrame) -> dict[str, object]:
@@ -105,9 +113,9 @@ def test_a_changed_value_in_a_flagged_row_makes_the_fingerprint_new(with_id: boo
 def test_a_stronger_grade_makes_the_fingerprint_new() -> None:
     report = demo_report(invented(False))
     finding = report.findings[0]
-    stronger = demo_report(invented(False))
+    context = demo_context(invented(False))
     raised = replace(finding, grade=Grade.BLOCKS)
-    assert fingerprints([raised], stronger.context)[0] != fingerprints([finding], stronger.context)[0]
+    assert fingerprints([raised], context)[0] != fingerprints([finding], context)[0]
 
 
 def test_accepting_moves_matches_out_of_the_gate() -> None:
@@ -238,11 +246,12 @@ def test_a_hostile_or_foreign_accepted_findings_file_is_one_line_usage_error(tmp
 def test_a_weaker_grade_of_an_accepted_finding_is_not_new() -> None:
     report = demo_report(invented(True))
     stronger = [replace(f, grade=Grade.BLOCKS) for f in report.findings]
-    accepted = AcceptedSet.from_findings(stronger, fingerprints(stronger, report.context))
+    context = demo_context(invented(True))
+    accepted = AcceptedSet.from_findings(stronger, fingerprints(stronger, context))
     after = report.accepting(accepted)
     assert after.findings == () and len(after.accepted) == len(report.findings)
     weaker = [replace(f, grade=Grade.NOTE) for f in report.findings]
-    only_notes = AcceptedSet.from_findings(weaker, fingerprints(weaker, report.context))
+    only_notes = AcceptedSet.from_findings(weaker, fingerprints(weaker, context))
     assert report.accepting(only_notes).findings == report.findings
 
 

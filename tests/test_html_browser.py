@@ -185,7 +185,8 @@ def test_sample_table_page_loads_cleanly_with_its_plots(browser: DevTools, name:
     assert facts["scripts"] == 0
     assert (ARTIFACTS / f"{name}.png").stat().st_size > 10_000
     drawn = {f["id"]: f for f in facts["figures"]}
-    expected = {"t1-missingness", "t1-ranges"} if report.context is not None and report.context.numeric_predictors else {"t1-missingness"}
+    numeric_predictors = any(term.kind == "numeric" for term in report.design.terms)
+    expected = {"t1-missingness", "t1-ranges"} if numeric_predictors else {"t1-missingness"}
     assert expected <= set(drawn)
     for figure in drawn.values():
         if figure["marks"] or figure["id"] != "t1-missingness":
@@ -260,12 +261,13 @@ def test_vif_chart_draws_each_term_once_on_a_log_scale_with_an_exact_dependency_
     vif = _axes_text(facts, "t1-collinearity", "variance inflation by term")
     assert "log scale" in vif
     # compressor_type is one term of several dummies: one bar (GVIF^(1/df)), no bar per dummy
-    assert report.context is not None
-    dummies = [name for name in report.context.design.column_names if name.startswith("compressor_type") and name != "compressor_type"]
+    shared = report.figures.collinearity if report.figures is not None else None
+    assert shared is not None
+    dummies = [name for name in shared.names if name.startswith("compressor_type") and name != "compressor_type"]
     assert dummies and "compressor_type" in vif and not any(d in vif for d in dummies)
     # gross_kwh = compressor_kwh + lighting_kwh + defrost_kwh exactly: its inflation is infinite, drawn off scale
     assert "inf (off scale)" in vif
-    graded = {term.term: term.vif_scale for term in report.context.collinearity.terms}  # type: ignore[union-attr]
+    graded = dict(zip(shared.terms, shared.inflation))
     assert f"{graded['compressor_type']:.3g}" in vif
 
 
@@ -278,9 +280,9 @@ def test_cook_contours_are_drawn_at_the_rules_own_levels(browser: DevTools) -> N
     report = check_demonstration(mega_site())  # 30 invented sites, one of them a mega-site with Cook's D far above 1
     facts = load(browser, report.to_html(), "cook-mega_site-demonstration")
     assert facts["errors"] == [] and facts["requests"] == []
-    ctx = report.context
-    assert ctx is not None
-    n, rank, df_resid = ctx.design.n, ctx.fit.rank, ctx.fit.df_resid
+    # the demonstration's design has full rank: its parameters are the fit's rank
+    n, rank = report.complete_cases, report.parameters
+    df_resid = n - rank
     legend = _axes_text(facts, "t1-influence", "Cook")
     # the rule's own thresholds: weakens at 4/n, misleads at the median of F(p, n - p), not fixed levels
     assert f"Cook's distance {4 / n:.3g} (weakens)" in legend

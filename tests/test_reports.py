@@ -346,7 +346,7 @@ def test_html_of_every_sample_table_is_self_contained_with_plots(name: str) -> N
     svgs = [t for t, _ in page.tags if t == "svg"]
     text = " ".join(page.text)
     assert len(svgs) == len(figures) - ("No missing values" in text)  # a table without holes gets a sentence, not a map
-    if report.context is not None and report.context.target_is_numeric and report.complete_cases > report.parameters:
+    if report.design.kinds[report.target] in ("numeric", "boolean") and report.complete_cases > report.parameters:
         assert "t1-missingness" in figures and "t1-influence" in figures
     for finding in report.findings:
         assert finding.message in text

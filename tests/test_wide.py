@@ -16,7 +16,7 @@ from statsmodels.stats.outliers_influence import variance_inflation_factor
 from test_engines import report_of, same_values, scheduler  # noqa: F401 (the Dask cluster fixture)
 from test_missingness import _little_by_rows
 
-from prefit.api import check
+from prefit.api import check, checked_context
 from prefit.findings import Grade
 from prefit.rule import capped_names
 
@@ -54,14 +54,14 @@ def test_pure_noise_2000_by_300_gives_no_strong_finding_but_the_shortage_of_rows
 
 
 def test_pure_noise_10000_by_200_gives_no_finding_at_weakens_and_robust_distances_against_their_own_bulk() -> None:
-    report = check(noise(10_000, 200, 5, holed=10, share=0.005), target="y")
+    report, context = checked_context(noise(10_000, 200, 5, holed=10, share=0.005), target="y")
     # 47 rows per parameter: nothing about the rows is short, and the noise fit shows no effect to plan for
     assert not [f for f in report.findings if f.grade >= Grade.WEAKENS]
     minimum = next(f for f in report.findings if f.rule == "sample-size.minimum")
     assert minimum.grade is Grade.NOTE and minimum.details["f_p_value"] > 0.05
     assert "sample-size.power" not in {f.rule for f in report.findings}  # a small effect has power near 1 here
     # 200 columns: the OGK with Spearman pairwise correlations, its distances compared with their own bulk
-    robust = report.context.robust if report.context is not None else None
+    robust = context.robust
     assert robust is not None and robust.bulk is not None and "Spearman" in robust.method
     share = float((robust.squared > robust.cutoff(0.975)).mean())
     assert 0.01 < share < 0.03
@@ -194,8 +194,8 @@ def test_cause_rechecks_on_repaired_tables_are_bounded(monkeypatch: pytest.Monke
 def test_high_breakdown_fit_stands_aside_beyond_its_parameter_bound() -> None:
     from prefit.stats.resistant import MAX_PARAMETERS
 
-    report = check(noise(2_000, 60, 9), target="y")
+    report, context = checked_context(noise(2_000, 60, 9), target="y")
     # 61 parameters on 1,000 fitted rows is 16 rows per parameter, yet past the bound on the MM fit's cost
     reason = report.to_dict()["rules_not_applicable"]["influence.robust-distortion"]
     assert f"up to {MAX_PARAMETERS} parameters" in reason and "61 parameters" in reason
-    assert report.context is not None and report.context.resistant is None
+    assert context.resistant is None

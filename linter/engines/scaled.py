@@ -41,7 +41,6 @@ from .memory import build_context
 from .passes import first_pass, merge_screens, second_pass
 
 SAMPLE_CELLS = 6_000_000
-ROWS_PER_VARIABLE = 5
 SAMPLE_SEED = 0x5EED_0F_1E1D
 
 
@@ -212,11 +211,11 @@ def column_fences(context: RunContext) -> ColumnFences | None:
 def robust_centre(context: RunContext) -> RobustCentre | None:
     """The sample's MCD location and scatter (:attr:`RunContext.robust`, the estimate ``outliers.multivariate`` reads), or None.
 
-    Pass 2 then measures every complete row of the table against it.
+    Pass 2 then measures every complete row of the table against it. The
+    context decides whether the sample can carry the estimate (two columns,
+    enough rows per column); the engine keeps no rule of its own about it.
     """
     names = context.robust_columns.names
-    if len(names) < 2 or context.design.n < ROWS_PER_VARIABLE * len(names):
-        return None
     estimate = context.robust
     if estimate is None:
         return None

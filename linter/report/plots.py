@@ -1,9 +1,10 @@
 """Plots for the HTML report, drawn with matplotlib (imported only here) and returned as inline SVG.
 
-Each function reads the run context and returns an SVG fragment, or None
-when the plot has nothing to show (no fit, fewer than two numeric
-predictors). Large tables are sampled deterministically and the caption
-says so. Text is written as SVG text elements, which matplotlib's XML
+Each function draws from the report's figure data (:attr:`Report.figures`,
+gathered by the pipeline from the run's statistics; no plot reads the run
+itself) and returns an SVG fragment, or None when the plot has nothing to
+show (no fit, fewer than two numeric predictors). Large tables are sampled
+deterministically and the caption says so. Text is written as SVG text elements, which matplotlib's XML
 writer escapes, so no data text becomes markup; the page names no font file.
 """
 
@@ -12,38 +13,25 @@ from __future__ import annotations
 import io
 import re
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Mapping
+from typing import TYPE_CHECKING
 
 import numpy as np
-import pyarrow as pa
-import pyarrow.compute as pc
 
-from ..accepted import RowDigester
-from ..design import INTERCEPT
-from ..findings import RowLabel
-from ..rule import fmt, rule_family
-from ..stats.resistant import RESIDUAL_LIMIT, RowClass, classify, distance_cutoff
+from ..figures import evenly
+from ..rule import fmt
+from ..stats.resistant import RESIDUAL_LIMIT, RowClass
 from ..text import inert
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
 
-    from ..context import RunContext
     from ..outcome import Report
 
-COOK_CONTOURS = (0.5, 1.0)
-"""Cook's distance contours drawn when no installed rule declares Cook's distance thresholds (common practice)."""
 VIF_LINES = ((5.0, "common practice"), (10.0, "common practice"))
 """VIF reference lines used when no installed rule declares VIF thresholds."""
 MAX_POINTS = 4000
-MAX_MAP_ROWS = 300
-MAX_MAP_COLUMNS = 60
-MAX_MATRIX_COLUMNS = 25
-MAX_LABELS = 12
 RASTER_POINTS = 500
 """Above this many points the point cloud is embedded as an image inside the SVG, to keep the page small."""
-ROW_FAMILIES = frozenset({"influence", "outliers"})
-"""Rule families whose named rows are marked on the influence plot."""
 COLOURS = {"point": "#5b7083", "flagged": "#b3261e", "contour": "#c77700", "present": "#e8eef3", "missing": "#1f3a5f", "intended": "#cfe3cf", "observed": "#1f3a5f"}
 
 
@@ -87,21 +75,6 @@ def _figure(width: float, height: float) -> "Figure":
     return figure
 
 
-def _flagged_positions(report: "Report") -> list[int]:
-    """Table rows (0-based) named by findings of the row-diagnostic families."""
-    if report.context is None:
-        return []
-    digester = RowDigester(report.context)
-    labels: list[RowLabel] = [label for f in report.findings if rule_family(f.rule) in ROW_FAMILIES for label in f.rows]
-    return digester.positions(labels)
-
-
-def _evenly(indices: np.ndarray, limit: int) -> np.ndarray:
-    if indices.size <= limit:
-        return indices
-    return indices[np.linspace(0, indices.size - 1, limit).round().astype(np.int64)]
-
-
 def cook_contour(hat: np.ndarray, level: float, parameters: int, df_resid: int) -> np.ndarray:
     """The |externally studentized residual| at which a row of leverage ``hat`` has Cook's distance ``level``.
 
@@ -121,50 +94,21 @@ def cook_contour(hat: np.ndarray, level: float, parameters: int, df_resid: int) 
     return np.where((internal < df_resid) & (hat > 0) & (hat < 1), external, np.nan)
 
 
-def _cook_levels(report: "Report", n: int, rank: int, df_resid: int) -> list[tuple[float, str]]:
-    """The Cook's distance levels the rule grades at, weakest first, each with its grade; fixed levels otherwise.
-
-    The rule's ``weakens`` threshold is the numerator of a size-scaled cut-off (4/n) and its ``misleads``
-    threshold a quantile of F(p, n - p) (the median); a plugin rule with other thresholds gets the fixed levels.
-    """
-    for rule in report.rules:
-        if rule.id != "influence.cooks-distance":
-            continue
-        limits = {t.name: t.value for t in rule.thresholds if t.grade is not None}
-        if {"weakens", "misleads"} <= set(limits):
-            import scipy.stats
-
-            return [(limits["weakens"] / n, "weakens"), (float(scipy.stats.f.ppf(limits["misleads"], rank, df_resid)), "misleads")]
-    return [(level, "reference") for level in COOK_CONTOURS]
-
-
 def influence(report: "Report", key: str = "influence") -> Plot | None:
     """Leverage against externally studentized residual, with Cook's distance contours and flagged rows labelled.
 
     The measures are the run's shared influence statistics; the contours are exact in these coordinates.
     """
-    ctx = report.context
-    if ctx is None or not ctx.target_is_numeric:
+    data = report.figures.influence if report.figures is not None else None
+    if data is None:
         return None
-    fit = ctx.fit
-    rank, df_resid = fit.rank, fit.df_resid
-    if rank == 0 or df_resid <= 1:
-        return None
-    shared = ctx.influence
-    hat, studentized, cook = np.clip(shared.hat, 0.0, 1.0), shared.studentized, shared.cooks
+    hat, studentized, cook = data.hat, data.studentized, data.cooks
+    rank, df_resid, levels, flagged = data.rank, data.df_resid, list(data.levels), data.marked
     n = hat.size
     finite = np.flatnonzero(np.isfinite(studentized) & np.isfinite(cook))
-    if finite.size == 0:
-        return None
-    named = np.asarray(_flagged_positions(report), dtype=np.int64)
-    in_design = np.minimum(np.searchsorted(ctx.design.positions, named), n - 1)
-    flagged = np.intersect1d(in_design[ctx.design.positions[in_design] == named], finite)
-    levels = _cook_levels(report, n, rank, df_resid)
     beyond = finite[cook[finite] >= levels[0][0]]
-    if flagged.size == 0:
-        flagged = beyond
     by_cook = finite[np.argsort(-cook[finite], kind="stable")]
-    shown = np.union1d(np.union1d(beyond, flagged), np.union1d(by_cook[: MAX_POINTS // 10], _evenly(finite, MAX_POINTS)))
+    shown = np.union1d(np.union1d(beyond, flagged), np.union1d(by_cook[: MAX_POINTS // 10], evenly(finite, MAX_POINTS)))
     figure = _figure(7.0, 4.6)
     axes = figure.add_subplot(1, 1, 1)
     axes.scatter(hat[shown], studentized[shown], s=12, color=COLOURS["point"], alpha=0.7, linewidths=0, label="complete cases", rasterized=shown.size > RASTER_POINTS)
@@ -181,11 +125,7 @@ def influence(report: "Report", key: str = "influence") -> Plot | None:
         axes.plot(grid[keep], bound[keep], style, color=COLOURS["contour"], linewidth=1, label=f"Cook's distance {level:.3g} ({word})" if keep.any() else None)
         axes.plot(grid[keep], -bound[keep], style, color=COLOURS["contour"], linewidth=1)
     axes.axhline(0.0, color="#999999", linewidth=0.6)
-    labelled: dict[str, int] = {}
-    for i in flagged[np.argsort(-cook[flagged], kind="stable")]:
-        label = str(ctx.row_label(int(ctx.design.positions[i])))
-        if label not in labelled and len(labelled) < MAX_LABELS:
-            labelled[label] = int(i)
+    labelled = dict(data.labelled)
     for label, i in labelled.items():
         axes.annotate(_plain(label), (hat[i], studentized[i]), xytext=(4, 4), textcoords="offset points", fontsize=7, color=COLOURS["flagged"])
     axes.set_ylim(-r_lim, r_lim)
@@ -206,28 +146,14 @@ def influence(report: "Report", key: str = "influence") -> Plot | None:
     return Plot(key, "Leverage and residuals", _svg(figure, key), caption)
 
 
-def _missing_mask(column: pa.ChunkedArray) -> np.ndarray:
-    mask = np.asarray(column.is_null().to_numpy(zero_copy_only=False), dtype=bool)
-    if pa.types.is_floating(column.type):
-        mask |= np.asarray(pc.fill_null(pc.is_nan(column), False).to_numpy(zero_copy_only=False), dtype=bool)
-    return mask
-
-
 def missingness(report: "Report", key: str = "missingness") -> Plot | None:
     """A rows x columns map of missing values (null or NaN), sampled when large, with the complete-case count."""
-    ctx = report.context
-    if ctx is None:
+    data = report.figures.missing if report.figures is not None else None
+    if data is None:
         return None
-    model = list(ctx.model_columns)
-    others = [c for c in ctx.table.column_names if c not in model]
-    columns = (model + others)[:MAX_MAP_COLUMNS]
-    rows = ctx.table.num_rows
-    picked = _evenly(np.arange(rows), MAX_MAP_ROWS)
-    masks = [_missing_mask(ctx.table.column(c)) for c in columns]
-    counts = [int(m.sum()) for m in masks]
-    if not any(counts) and len(columns) == ctx.table.num_columns:
+    columns, counts, rows, picked, mask = data.columns, data.counts, data.table_rows, data.rows, data.mask
+    if not any(counts) and len(columns) == data.table_columns:
         return Plot(key, "Missing values", "", f"No missing values: all {rows:,} rows are complete in every column.")
-    mask = np.column_stack([m[picked] for m in masks])
     figure = _figure(min(1.2 + 0.28 * len(columns), 12.0), 4.6)
     axes = figure.add_subplot(1, 1, 1)
     from matplotlib.colors import ListedColormap
@@ -237,12 +163,12 @@ def missingness(report: "Report", key: str = "missingness") -> Plot | None:
     axes.set_ylabel("row" + (" (sampled)" if picked.size < rows else ""))
     ticks = np.linspace(0, picked.size - 1, min(6, picked.size)).round().astype(int)
     axes.set_yticks(ticks, [f"{int(picked[t]) + 1:,}" for t in ticks], fontsize=7)
-    axes.set_title(f"complete cases: {ctx.design.n:,} of {rows:,} rows", fontsize=9)
+    axes.set_title(f"complete cases: {data.complete_cases:,} of {rows:,} rows", fontsize=9)
     sampled = f" Showing {picked.size:,} evenly spaced rows of {rows:,}." if picked.size < rows else ""
-    shown_columns = "" if len(columns) == ctx.table.num_columns else f" First {len(columns)} of {ctx.table.num_columns} columns (target and predictors first)."
+    shown_columns = "" if len(columns) == data.table_columns else f" First {len(columns)} of {data.table_columns} columns (target and predictors first)."
     caption = (
         f"Dark cells are missing values (null or NaN); each column label gives its count of missing values. "
-        f"{ctx.design.n:,} rows have the target and every predictor present.{sampled}{shown_columns}"
+        f"{data.complete_cases:,} rows have the target and every predictor present.{sampled}{shown_columns}"
     )
     return Plot(key, "Missing values", _svg(figure, key), caption)
 
@@ -257,43 +183,16 @@ def _vif_lines(report: "Report") -> tuple[list[tuple[float, str]], str]:
     return [(value, "reference") for value, _ in VIF_LINES], "common practice"
 
 
-def _term_inflation(ctx: "RunContext") -> tuple[list[str], np.ndarray]:
-    """Each design term's inflation as the VIF rule grades it (GVIF^(1/df)); terms in an exact dependency are infinite."""
-    shared = ctx.collinearity
-    graded = {term.term: term.vif_scale for term in shared.terms}
-    left_out = {shared.design_names[j] for j in shared.left_out}
-    names: list[str] = []
-    values: list[float] = []
-    for term in ctx.design.terms:
-        if term.source == INTERCEPT or not term.columns:
-            continue
-        if term.source in graded:
-            names.append(term.source)
-            values.append(graded[term.source])
-        elif left_out.intersection(term.columns):
-            names.append(term.source)
-            values.append(np.inf)
-    order = np.arange(len(names))[:MAX_MATRIX_COLUMNS]
-    return [names[i] for i in order], np.asarray([values[i] for i in order], dtype=float)
-
-
 def collinearity(report: "Report", key: str = "collinearity") -> Plot | None:
     """The predictor correlation heatmap (complete cases) beside a bar chart of VIFs with the threshold lines.
 
     Correlations and VIFs come from the run's shared collinearity statistics;
     a column in an exact dependency has no VIF of its own and is drawn as infinite.
     """
-    ctx = report.context
-    if ctx is None or ctx.design.n < 3:
+    data = report.figures.collinearity if report.figures is not None else None
+    if data is None:
         return None
-    shared = ctx.collinearity
-    kept = list(shared.predictor_names())
-    exact = [shared.design_names[j] for j in shared.left_out if shared.design_names[j] != INTERCEPT]
-    shown = min(len(kept), MAX_MATRIX_COLUMNS)
-    names = kept[:shown] + exact[: MAX_MATRIX_COLUMNS - shown]
-    if len(names) < 2:
-        return None
-    correlation = shared.correlation[:shown, :shown]
+    names, shown, correlation = data.names, data.shown, data.correlation
     lines, lines_source = _vif_lines(report)
     figure = _figure(min(8.0 + 0.45 * len(names), 14.0), min(3.2 + 0.3 * len(names), 9.5))
     left, right = figure.subplots(1, 2, gridspec_kw={"width_ratios": [1.2, 1.0]})
@@ -307,7 +206,7 @@ def collinearity(report: "Report", key: str = "collinearity") -> Plot | None:
                 left.text(j, i, f"{correlation[i, j]:.2f}", ha="center", va="center", fontsize=6, color="white" if abs(correlation[i, j]) > 0.6 else "black")
     figure.colorbar(image, ax=left, fraction=0.046, pad=0.04)
     left.set_title("correlation (complete cases)", fontsize=9)
-    terms, inflation = _term_inflation(ctx)
+    terms, inflation = data.terms, data.inflation
     finite = inflation[np.isfinite(inflation)]
     top = max(float(np.max(finite, initial=1.0)), max(v for v, _ in lines)) * 3.0
     heights = np.where(np.isfinite(inflation), np.maximum(inflation, 1.0), top)
@@ -332,7 +231,7 @@ def collinearity(report: "Report", key: str = "collinearity") -> Plot | None:
         + " and ".join(f"{style} line at {value:g} ({word})" for (value, word), style in zip(lines, ("Dashed", "dotted", "dash-dotted")))
         + f": {lines_source}."
         + (f" {infinite} term(s) in an exact dependency have infinite inflation, drawn to the edge as off scale." if infinite else "")
-        + ("" if len(names) == len(kept) + len(exact) else f" Correlations: first {len(names)} of {len(kept) + len(exact)} columns.")
+        + ("" if len(names) == data.columns else f" Correlations: first {len(names)} of {data.columns} columns.")
     )
     return Plot(key, "Correlation and variance inflation", _svg(figure, key), caption)
 
@@ -347,24 +246,17 @@ def _end(value: float) -> str:
 
 def ranges(report: "Report", key: str = "ranges") -> Plot | None:
     """Per numeric predictor: the observed range (min to max, 5th to 95th percentile) against the declared intended range."""
-    ctx = report.context
-    if ctx is None:
+    bars = report.figures.ranges if report.figures is not None else ()
+    if not bars:
         return None
-    names = list(ctx.numeric_predictors)[:MAX_MATRIX_COLUMNS]
-    if not names:
-        return None
-    intended: Mapping[str, tuple[float, float]] = ctx.options.ranges
-    figure = _figure(7.5, 0.9 + 0.42 * len(names))
+    figure = _figure(7.5, 0.9 + 0.42 * len(bars))
     axes = figure.add_subplot(1, 1, 1)
     declared = 0
-    for row, name in enumerate(names):
-        values = ctx.values(name)
-        values = values[np.isfinite(values)]
-        if values.size == 0:
+    for row, bar in enumerate(bars):
+        if bar.observed is None:
             continue
-        low, high = float(values.min()), float(values.max())
-        inner = np.percentile(values, [5, 95])
-        window = intended.get(name)
+        low, high, *inner = bar.observed
+        window = bar.intended
         ends = [low, high, *(window or ())]
         span_low, span_high = min(ends), max(ends)
         width = span_high - span_low or 1.0
@@ -383,8 +275,8 @@ def ranges(report: "Report", key: str = "ranges") -> Plot | None:
         else:
             middle = min(max(scaled((low + high) / 2), 0.15), 0.85)
             axes.text(middle, row - 0.4, f"observed {_end(low)} to {_end(high)}", ha="center", va="bottom", fontsize=7)
-    tick_labels = [_plain(n if n not in intended else f"{n} (intended {_end(intended[n][0])} to {_end(intended[n][1])})") for n in names]
-    axes.set_yticks(range(len(names)), tick_labels, fontsize=7)
+    tick_labels = [_plain(b.name if b.intended is None else f"{b.name} (intended {_end(b.intended[0])} to {_end(b.intended[1])})") for b in bars]
+    axes.set_yticks(range(len(bars)), tick_labels, fontsize=7)
     axes.invert_yaxis()
     axes.set_xlim(-0.25, 1.25)
     axes.set_xticks([])
@@ -399,7 +291,6 @@ def ranges(report: "Report", key: str = "ranges") -> Plot | None:
     return Plot(key, "Observed and intended ranges", _svg(figure, key), caption)
 
 
-ROBUST_RULE = "influence.robust-distortion"
 CLASS_COLOURS = {
     RowClass.REGULAR: "#5b7083",
     RowClass.VERTICAL: "#c77700",
@@ -414,20 +305,13 @@ def robust_map(report: "Report", key: str = "robust_map") -> Plot | None:
     Drawn only when ``influence.robust-distortion`` ran, from the run's shared
     high-breakdown fit and MCD distances (never fitted here).
     """
-    ctx = report.context
-    if ctx is None or not any(o.rule == ROBUST_RULE and o.error is None and o.not_applicable is None for o in report.outcomes):
+    data = report.figures.robust if report.figures is not None else None
+    if data is None:
         return None
-    resistant, robust = ctx.resistant, ctx.robust
-    if resistant is None or robust is None:
-        return None
-    cutoff = distance_cutoff(len(robust.columns))
-    distance, residual = np.sqrt(robust.squared), resistant.residual
-    classes = classify(residual, robust.squared, cutoff)
+    cutoff, distance, residual, classes = data.cutoff, data.distance, data.residual, data.classes
     finite = np.flatnonzero(np.isfinite(distance) & np.isfinite(residual))
-    if finite.size == 0:
-        return None
     unusual = finite[classes[finite] != RowClass.REGULAR]
-    shown = np.union1d(unusual, _evenly(finite, MAX_POINTS))
+    shown = np.union1d(unusual, evenly(finite, MAX_POINTS))
     figure = _figure(7.0, 4.6)
     axes = figure.add_subplot(1, 1, 1)
     counts: dict[RowClass, int] = {}
@@ -439,11 +323,10 @@ def robust_map(report: "Report", key: str = "robust_map") -> Plot | None:
     for level in (RESIDUAL_LIMIT, -RESIDUAL_LIMIT):
         axes.axhline(level, linestyle="--", color=COLOURS["contour"], linewidth=1)
     axes.axvline(float(np.sqrt(cutoff)), linestyle=":", color=COLOURS["contour"], linewidth=1)
-    labelled = 0
-    for i in unusual[np.argsort(-np.abs(residual[unusual]), kind="stable")][:MAX_LABELS]:
-        axes.annotate(_plain(ctx.row_label(int(ctx.design.positions[i]))), (distance[i], residual[i]), xytext=(4, 4), textcoords="offset points", fontsize=7, color=CLASS_COLOURS[RowClass(int(classes[i]))])
-        labelled += 1
-    axes.set_xlabel(f"robust distance (MCD of {len(robust.columns)} predictors)")
+    for i, label in data.labelled:
+        axes.annotate(_plain(label), (distance[i], residual[i]), xytext=(4, 4), textcoords="offset points", fontsize=7, color=CLASS_COLOURS[RowClass(int(classes[i]))])
+    labelled = len(data.labelled)
+    axes.set_xlabel(f"robust distance (MCD of {data.predictors} predictors)")
     axes.set_ylabel("standardized residual of the robust (MM) fit")
     axes.legend(loc="best", fontsize=7, frameon=False)
     axes.grid(alpha=0.25)
