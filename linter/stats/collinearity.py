@@ -252,8 +252,10 @@ class Collinearity:
         sources = [self.sources[j] for j in self.predictors]
         names = self.predictor_names()
         out: list[TermInflation] = []
-        for term in dict.fromkeys(sources):
-            inside = [i for i, s in enumerate(sources) if s == term]
+        positions: dict[str, list[int]] = {}
+        for i, source in enumerate(sources):
+            positions.setdefault(source, []).append(i)
+        for term, inside in positions.items():
             if len(inside) == 1:
                 gvif = float(self.precision[inside[0], inside[0]])
             else:
@@ -387,8 +389,10 @@ class Collinearity:
         names = self.column_names()
         out: list[NearDependency] = []
         for index, row in zip(self.condition_indices, self.variance_proportions):
-            involved = [(names[j], float(row[j])) for j in range(len(names)) if row[j] > proportion_limit]
-            if index >= index_limit and len(involved) >= 2:
+            if not index >= index_limit:
+                continue
+            involved = [(names[j], float(row[j])) for j in np.flatnonzero(row > proportion_limit).tolist()]
+            if len(involved) >= 2:
                 out.append(NearDependency(float(index), tuple(involved)))
         return tuple(sorted(out, key=lambda d: -d.index))
 
