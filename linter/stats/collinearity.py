@@ -14,8 +14,9 @@ the estimable design and stays finite.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from functools import cached_property
+from typing import Callable
 
 import numpy as np
 import scipy.linalg
@@ -194,6 +195,7 @@ class Collinearity:
     correlation_factor: np.ndarray
     centred: bool
     centring_loss: float
+    screen_values: Callable[[], np.ndarray] | None = field(default=None, repr=False, compare=False)
 
     @classmethod
     def of(cls, design: Design, factor: DesignFactor) -> "Collinearity":
@@ -222,6 +224,8 @@ class Collinearity:
             correlation_factor=corr_factor,
             centred=bool(skip),
             centring_loss=float(1.0 / norms[varying].min()) if np.any(varying) else 1.0,
+            # every column kept: the factor's own singular values serve the screen (the same matrix but for rounding)
+            screen_values=(lambda: factor.singular_values_scaled) if not left_out and factor.n >= factor.p else None,
         )
 
     @cached_property
@@ -359,6 +363,8 @@ class Collinearity:
     def _screen_values(self) -> np.ndarray:
         if self.r_scaled.size == 0:
             return np.zeros(0)
+        if self.screen_values is not None:
+            return self.screen_values()
         return scipy.linalg.svdvals(self.r_scaled, check_finite=False)
 
     def index_may_reach(self, index_limit: float) -> bool:
