@@ -291,6 +291,8 @@ def test_row_texts_are_the_json_modules_texts_of_the_rows() -> None:
             "b_flag": [True, False, None, True, False],
             "d_day": [datetime.date(2024, 1, 2), None, datetime.date(1999, 12, 31), datetime.date(2000, 2, 29), None],
             'q"uoted ☃': [1.5, 2.5, None, 3.0, 5e-324],
+            "{braces} {0}": [1.5, -0.0, 1e22, 3.0, 5e-324],
+            "ints_as_floats": [1.0, 2.0, 3.0, 4.0, 1e16],
         }
     )
     picked = table.to_pydict()
