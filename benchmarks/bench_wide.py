@@ -134,8 +134,13 @@ def measure(rows: int, columns: int, robust_timeout: float, repeats: int = 1) ->
     and the largest peak memory of each are kept (on a shared machine the load moves from one run to the next).
     """
     import os
+    import subprocess
 
-    path = generate(rows, columns)
+    # Written by a child process: a process started from this one counts this one's resident memory in its peak
+    # (the exec records the memory it replaces), so this process must stay small.
+    command = f"import sys; sys.path.insert(0, {str(HERE)!r}); from bench_wide import generate; generate({rows}, {columns})"
+    subprocess.run([sys.executable, "-c", command], check=True)
+    path = table_path(rows, columns)
     load = os.getloadavg()[0]
     floors, checks = [], []
     for _ in range(repeats):

@@ -61,6 +61,41 @@ def _canonical(value: Any) -> Any:
     return str(value)
 
 
+def _encoded(values: list[Any]) -> list[str]:
+    """Each value of one column as ``json.dumps(_canonical(value), ensure_ascii=False)`` writes it.
+
+    A column of floats (with or without missing values) takes the short road: a float's repr holds no
+    character JSON escapes, so it is quoted as it is. Anything else goes through the JSON encoder.
+    """
+    if all(type(v) is float or v is None for v in values):
+        return ["null" if v is None else '"' + repr(v) + '"' for v in values]
+    return [json.dumps(_canonical(v), ensure_ascii=False) for v in values]
+
+
+def row_texts(picked: Mapping[str, list[Any]], columns: Sequence[str], rows: int) -> list[str]:
+    """The JSON text of each picked row, ``json.dumps({c: _canonical(value)}, sort_keys=True, ensure_ascii=False)``.
+
+    Built column by column and filled into one template per table (one encoder pass per column, one format per
+    row) rather than cell by cell: a finding that lists 600 rows of a 1,000-column table digests 600,000 values.
+    A column of floats without missing values enters as its values' reprs, the template holding the quotes.
+    """
+    ordered = sorted(columns)
+    if not ordered:
+        return ["{}"] * rows
+    fields, encoded = [], []
+    for column in ordered:
+        values = picked[column]
+        key = json.dumps(column, ensure_ascii=False).replace("{", "{{").replace("}", "}}") + ": "
+        if all(type(v) is float for v in values):
+            fields.append(key + '"{}"')
+            encoded.append(list(map(float.__repr__, values)))
+        else:
+            fields.append(key + "{}")
+            encoded.append(_encoded(values))
+    template = "{{" + ", ".join(fields) + "}}"
+    return [template.format(*row) for row in zip(*encoded)]
+
+
 class RowDigester:
     """Digests of a table's rows, read through one run's context (labels mapped back to rows once)."""
 
@@ -101,11 +136,7 @@ class RowDigester:
         positions = self.positions(labels)
         columns = self._columns(finding)
         picked = self.context.table.select(columns).take(positions).to_pydict() if positions else {c: [] for c in columns}
-        row_hashes = []
-        for i in range(len(positions)):
-            row = {c: _canonical(picked[c][i]) for c in columns}
-            text = json.dumps(row, sort_keys=True, ensure_ascii=False)
-            row_hashes.append(hashlib.sha256(text.encode("utf-8")).hexdigest())
+        row_hashes = [hashlib.sha256(text.encode("utf-8")).hexdigest() for text in row_texts(picked, columns, len(positions))]
         unmatched = sorted(str(label) for label in labels) if labels and not positions else []
         body = "\n".join(sorted(row_hashes) + unmatched + [rest])
         return "sha256:" + hashlib.sha256(body.encode("utf-8")).hexdigest()

@@ -141,7 +141,7 @@ def run(request: CheckRequest) -> Report:
         if chosen == "memory" or request.path == "-":
             table, info = read_table(request.path, read)
             # Started after the read: the reader already keeps both cores busy.
-            warm_imports()
+            warm_imports(table.num_columns)
             registry, selected = _rules(request)
             context, engine = memory_context(table, info, request.options)
         else:

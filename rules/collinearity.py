@@ -17,7 +17,7 @@ from prefit.context import RunContext
 from prefit.design import INTERCEPT, Design
 from prefit.findings import Finding, Grade
 from prefit.rule import COMMON_PRACTICE, NotApplicable, Repair, Rule, RuleSettings, Threshold, capped_names, fmt
-from prefit.stats.collinearity import Collinearity, NearDependency, TermInflation
+from prefit.stats.collinearity import SCREEN_MARGIN, Collinearity, NearDependency, TermInflation
 from prefit.stats.factor import EPS, DesignFactor, Relation
 
 NEGLIGIBLE = 1e-9
@@ -479,6 +479,8 @@ def _with_coexisting(
     strongest index.
     """
     diagnostics = ctx.collinearity
+    if not diagnostics.index_may_reach(coexisting_limit(settings)):
+        return groups
     indices = np.asarray(diagnostics.condition_indices, dtype=float)
     proportions = np.asarray(diagnostics.variance_proportions, dtype=float)
     strong = np.flatnonzero(indices >= coexisting_limit(settings))
@@ -591,6 +593,11 @@ def _precision(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     if shortage is not None:
         raise NotApplicable(shortage)
     diagnostics = ctx.collinearity
+    # The condition number from the singular values alone screens out a design clearly below every limit, before
+    # the full decomposition that gives each column's share.
+    screened = diagnostics.condition_raw * (1.0 + SCREEN_MARGIN)
+    if not any(t.crossed(screened) for t in settings.thresholds if t.grade is not None):
+        return
     worst = diagnostics.raw_dependency()
     kappa = worst.index
     graded = settings.grade_of(kappa)

@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 import re
-from typing import Iterator, Sequence
+from dataclasses import dataclass
+from typing import Any, Iterator, Sequence
 
 import numpy as np
 import pyarrow as pa
@@ -13,7 +14,7 @@ from prefit.context import RunContext
 from prefit.design import category_codes
 from prefit.findings import Finding, Grade, counted
 from prefit.roles import Kind, numeric_values
-from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, fmt
+from prefit.rule import COMMON_PRACTICE, Rule, RuleSettings, Threshold, capped_names, fmt
 from prefit.stats.robust import median
 from prefit.stats.rowmatch import ColumnBits, candidate_rows, value_bits
 from prefit.stats.spot import evenly_spaced, finite_spot, spot_step
@@ -521,6 +522,18 @@ def _median_floor(values: np.ndarray) -> float | None:
 # ---------------------------------------------------------------- target-leak
 
 
+@dataclass(frozen=True)
+class _Leak:
+    """One predictor beyond a leak limit: what it crossed, how likely an unrelated column is to go as far, the finding's parts."""
+
+    column: str
+    monotone: bool
+    value: float
+    chance: float
+    what: str
+    details: dict[str, Any]
+
+
 def _target_leak(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     design = ctx.design
     if design.n < 3 or not ctx.target_is_numeric:
@@ -536,6 +549,7 @@ def _target_leak(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
     x = np.empty_like(y)
     ranks = _TargetRanks(design.y, rank_limit(limit.value))
     candidates = _leak_candidates(ctx, ctx.numeric_predictors, y_unit, limit.value, ranks.limit)
+    leaks: list[_Leak] = []
     for column in ctx.numeric_predictors:
         if candidates is not None and column not in candidates:
             continue
@@ -547,7 +561,8 @@ def _target_leak(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
         r = float(np.dot(x / x_norm, y_unit)) if x_norm > 0 and np.isfinite(x_norm) else float("nan")
         r2 = r * r
         if not limit.crossed(r2):
-            yield from _monotone_leak(ctx, settings, column, values, r2, ranks)
+            leak = _monotone_leak(ctx, column, values, r2, ranks)
+            leaks += [leak] if leak is not None else []
             continue
         slope = float(np.dot(x, y) / (x_norm * x_norm))
         intercept = float(design.y.mean() - slope * values.mean())
@@ -556,16 +571,105 @@ def _target_leak(ctx: RunContext, settings: RuleSettings) -> Iterator[Finding]:
             what = f"{ctx.roles.target} = {slope:.6g} x {column} + {intercept:.6g} exactly: the target itself under another name or a fixed multiple"
         else:
             what = f"{column} alone explains R² = {r2:.4f} of {ctx.roles.target}"
-        yield settings.finding(
+        details = {"r_squared": r2, "slope": slope, "intercept": intercept, "exact": exact}
+        leaks.append(_Leak(column, False, r2, _chance_of_correlation(r2, design.n), what, details))
+    # Bonferroni over the predictors tested: a wide table of unrelated columns crosses the limits by chance when
+    # its rows are few (three rows put 6% of unrelated columns beyond R^2 = 0.99).
+    beyond_chance = [leak for leak in leaks if leak.chance * len(ctx.numeric_predictors) <= settings.threshold("chance").value]
+    for monotone in (False, True):
+        found = [leak for leak in beyond_chance if leak.monotone is monotone]
+        if len(found) == 1:
+            yield _single_leak_finding(ctx, settings, found[0], ranks.limit)
+        elif found:
+            yield _many_leaks_finding(ctx, settings, found, ranks.limit)
+
+
+def _chance_of_correlation(squared: float, n: int) -> float:
+    """The chance that a column unrelated to the target has a squared correlation at least ``squared`` over ``n`` rows.
+
+    Under independence with a normal target, r^2 follows Beta(1/2, (n - 2) / 2) (Fisher 1915); 1 for fewer than
+    three rows or an undefined correlation.
+    """
+    import scipy.stats
+
+    if n < 3 or not np.isfinite(squared):
+        return 1.0
+    return float(scipy.stats.beta.sf(min(squared, 1.0), 0.5, (n - 2) / 2.0))
+
+
+def _chance_of_rank_copy(rho: float, n: int) -> float:
+    """The chance that a column unrelated to the target has a rank correlation at least ``|rho|`` over ``n`` rows.
+
+    The large-sample approximation (Spearman's rho has the null variance 1 / (n - 1) of Pearson's r, so the
+    same Beta law), but never below the chance, 2 / n!, that a random order of ``n`` distinct values is the
+    target's own order or its reverse: the approximation's tail vanishes at |rho| = 1, which a few rows reach
+    often (one column in three of three rows).
+    """
+    from math import exp, lgamma
+
+    return max(_chance_of_correlation(rho * rho, n), 2.0 * exp(-lgamma(n + 1.0)))
+
+
+def _single_leak_finding(ctx: RunContext, settings: RuleSettings, leak: _Leak, rank_limit_value: float) -> Finding:
+    """The finding of one leaking predictor, linear or monotone."""
+    target, column = ctx.roles.target, leak.column
+    if not leak.monotone:
+        return settings.finding(
             Grade.MISLEADS,
-            f"{what}; a predictor that near-copies the response makes every other coefficient meaningless",
-            columns=[column, ctx.roles.target],
-            value=r2,
-            threshold=limit,
-            remedy=f"drop {column} unless it is truly known before {ctx.roles.target} is measured; check whether it is "
-            f"computed from {ctx.roles.target} (a sub-meter sum, a unit conversion, a later reading)",
-            details={"r_squared": r2, "slope": slope, "intercept": intercept, "exact": exact},
+            f"{leak.what}; a predictor that near-copies the response makes every other coefficient meaningless",
+            columns=[column, target],
+            value=leak.value,
+            threshold=settings.threshold("misleads"),
+            remedy=f"drop {column} unless it is truly known before {target} is measured; check whether it is "
+            f"computed from {target} (a sub-meter sum, a unit conversion, a later reading)",
+            details=leak.details,
         )
+    return settings.finding(
+        Grade.MISLEADS,
+        f"{leak.what}: a monotone function of the response, such as its log, its rank or an index of it",
+        columns=[column, target],
+        value=leak.value,
+        threshold=rank_limit_value,
+        source=RANK_LIMIT_SOURCE.format(source=settings.threshold("misleads").source),
+        remedy=f"drop {column} unless it is truly known before {target} is measured; check whether it is computed "
+        f"from {target} (a log, a rank, a band or an index of it)",
+        details=leak.details,
+    )
+
+
+def _many_leaks_finding(ctx: RunContext, settings: RuleSettings, leaks: list[_Leak], rank_limit_value: float) -> Finding:
+    """One finding for several leaking predictors of one kind (linear or monotone): every column listed, the strongest named."""
+    target = ctx.roles.target
+    columns = [leak.column for leak in leaks]
+    strongest = max(leaks, key=lambda leak: leak.value)
+    exact = sum(1 for leak in leaks if leak.details.get("exact"))
+    if strongest.monotone:
+        what = (
+            f"{len(leaks):,} predictors order the rows almost exactly as {target} does ({capped_names(columns)}; the strongest, "
+            f"{strongest.column}, Spearman rank correlation {strongest.value:.4f}): monotone functions of the response"
+        )
+        threshold: Threshold | float = rank_limit_value
+        source: str | None = RANK_LIMIT_SOURCE.format(source=settings.threshold("misleads").source)
+        kinds = "a log, a rank, a band or an index of it"
+    else:
+        copies = f", {exact:,} of them exact multiples of it" if exact else ""
+        what = (
+            f"{len(leaks):,} predictors each alone explain R² above {settings.threshold('misleads').value:g} of {target} "
+            f"({capped_names(columns)}{copies}; the strongest, {strongest.column}, R² = {strongest.value:.4f})"
+        )
+        threshold, source = settings.threshold("misleads"), None
+        kinds = "a sub-meter sum, a unit conversion, a later reading"
+    return settings.finding(
+        Grade.MISLEADS,
+        f"{what}; predictors that near-copy the response make every other coefficient meaningless",
+        columns=[*columns, target],
+        value=strongest.value,
+        threshold=threshold,
+        source=source,
+        remedy=f"drop {capped_names(columns)} unless they are truly known before {target} is measured; check whether "
+        f"they are computed from {target} ({kinds})",
+        details={"predictors": len(leaks), "exact": exact, "leaks": {leak.column: leak.details for leak in leaks}},
+    )
 
 
 BATCH_SCREEN_MARGIN = 1e-6
@@ -662,30 +766,20 @@ def _pearson(a: np.ndarray, b: np.ndarray) -> float:
     return _sum_of_products(a, b) / scale if scale > 0 else 0.0
 
 
-def _monotone_leak(
-    ctx: RunContext, settings: RuleSettings, column: str, values: np.ndarray, r2: float, ranks: _TargetRanks
-) -> Iterator[Finding]:
+RANK_LIMIT_SOURCE = "{source}: the rank correlation of a bivariate normal pair at that R² (Pearson 1907; Kruskal 1958, JASA 53)"
+
+
+def _monotone_leak(ctx: RunContext, column: str, values: np.ndarray, r2: float, ranks: _TargetRanks) -> _Leak | None:
     """A predictor whose ranks copy the target's (a log, a rank or an index of it) though its R^2 stays below the limit."""
     rho = ranks.correlation(values)
     if rho is None or not abs(rho) > ranks.limit:
-        return
-    target = ctx.roles.target
+        return None
     if not np.isfinite(r2):
         r2 = _pearson(values, ctx.design.y) ** 2
     linear = f"R² = {r2:.4f}" if np.isfinite(r2) else "R² not defined"
-    yield settings.finding(
-        Grade.MISLEADS,
-        f"{column} orders the rows almost exactly as {target} does (Spearman rank correlation {rho:.4f}, {linear}): "
-        f"a monotone function of the response, such as its log, its rank or an index of it",
-        columns=[column, target],
-        value=abs(rho),
-        threshold=ranks.limit,
-        source=f"{settings.threshold('misleads').source}: the rank correlation of a bivariate normal pair at that R² "
-        "(Pearson 1907; Kruskal 1958, JASA 53)",
-        remedy=f"drop {column} unless it is truly known before {target} is measured; check whether it is computed "
-        f"from {target} (a log, a rank, a band or an index of it)",
-        details={"spearman_rho": rho, "r_squared": r2 if np.isfinite(r2) else None, "monotone": True},
-    )
+    what = f"{column} orders the rows almost exactly as {ctx.roles.target} does (Spearman rank correlation {rho:.4f}, {linear})"
+    details = {"spearman_rho": rho, "r_squared": r2 if np.isfinite(r2) else None, "monotone": True}
+    return _Leak(column, True, abs(rho), _chance_of_rank_copy(rho, values.size), what, details)
 
 
 def _sum_of_products(a: np.ndarray, b: np.ndarray) -> float:
@@ -811,6 +905,15 @@ RULES = [
         "meaningless.",
         remedy="drop the leaking predictor",
         check=_target_leak,
-        thresholds=(Threshold("misleads", 0.99, COMMON_PRACTICE, Grade.MISLEADS, ">"),),
+        thresholds=(
+            Threshold("misleads", 0.99, COMMON_PRACTICE, Grade.MISLEADS, ">"),
+            Threshold(
+                "chance",
+                0.01,
+                "common practice: a predictor is reported when a column unrelated to the target would go as far with "
+                "probability below this level divided by the numeric predictors tested (Bonferroni), r^2 of an "
+                "unrelated column following Beta(1/2, (n - 2)/2) (Fisher 1915)",
+            ),
+        ),
     ),
 ]

@@ -283,3 +283,31 @@ def test_an_edit_to_a_row_no_finding_names_keeps_every_finding_accepted(tmp_path
     assert [f["row_values"] for f in after] != [f["row_values"] for f in before], "the edit must move measured values"
     again = run_cli(*args)
     assert again.json()["findings"] == [], [f["rule"] for f in again.json()["findings"]]
+
+
+def test_row_texts_are_the_json_modules_texts_of_the_rows() -> None:
+    import datetime
+
+    from prefit.accepted import _canonical, row_texts
+
+    # The row digest hashes each listed row as Python's json module writes it (sorted keys, canonical values);
+    # the column-by-column build must give the same text for every kind of cell.
+    table = pa.table(
+        {
+            "z_text": ['say "hi"\\n', "ümlaut ☃", None, "", "\x00\x1f"],
+            "a_float": [0.1, float("nan"), None, -1e300, float("inf")],
+            "m_int": [1, None, -(2**62), 0, 7],
+            "b_flag": [True, False, None, True, False],
+            "d_day": [datetime.date(2024, 1, 2), None, datetime.date(1999, 12, 31), datetime.date(2000, 2, 29), None],
+            'q"uoted ☃': [1.5, 2.5, None, 3.0, 5e-324],
+            "{braces} {0}": [1.5, -0.0, 1e22, 3.0, 5e-324],
+            "ints_as_floats": [1.0, 2.0, 3.0, 4.0, 1e16],
+        }
+    )
+    picked = table.to_pydict()
+    columns = sorted(table.column_names)
+    expected = [
+        json.dumps({c: _canonical(picked[c][i]) for c in columns}, sort_keys=True, ensure_ascii=False) for i in range(table.num_rows)
+    ]
+    assert row_texts(picked, columns, table.num_rows) == expected
+    assert row_texts({}, [], 2) == [json.dumps({})] * 2

@@ -384,3 +384,25 @@ def test_semidefinite_helpers_neither_raise_nor_go_negative_on_a_singular_matrix
     assert _determinant(rank_one) >= 0.0
     assert np.linalg.det(rank_one + np.diag([0.0, -1e9])) < 0  # the round-off a plain determinant can show
     assert _determinant(rank_one + np.diag([0.0, -1e9])) == 0.0
+
+
+@pytest.mark.parametrize(("frame", "target"), [(_longley(), "Employed"), (_mtcars(), "mpg")], ids=["longley", "mtcars"])
+def test_the_singular_value_screen_clears_no_limit_a_condition_index_reaches(frame: pd.DataFrame, target: str) -> None:
+    X = add_constant(frame.drop(columns=[target])).to_numpy(dtype=float)
+    # reference: numpy's SVD of the unit-length-scaled design (Belsley, Kuh & Welsch 1980, ch. 3)
+    s = np.linalg.svd(X / np.linalg.norm(X, axis=0), compute_uv=False)
+    largest = s[0] / s[-1]
+    for limit in (1.0, 5.0, 10.0, 30.0, largest * (1 - 1e-9), largest, largest * (1 + 1e-9), largest * 2):
+        diagnostics = context_for(frame, target).collinearity
+        reaches = bool(np.any(s[0] / s >= limit))
+        # the screen may let a limit through that no index reaches (within its margin), never the reverse
+        assert diagnostics.index_may_reach(limit) or not reaches
+        if limit > largest * (1 + 1e-5):
+            assert not diagnostics.index_may_reach(limit) and diagnostics.near_dependencies(limit) == ()
+    # the precision rule, screened by the raw design's singular values, reports what numpy's SVD says it should:
+    # its lowest limit is a condition number of 1e6 (note)
+    raw = np.linalg.svd(X, compute_uv=False)
+    findings = [f for f in check(frame, target=target).findings if f.rule == "collinearity.precision"]
+    assert len(findings) == int(raw[0] / raw[-1] >= 1e6)
+    for finding in findings:
+        assert_allclose(finding.value, raw[0] / raw[-1], rtol=1e-6)

@@ -309,6 +309,53 @@ def test_monotone_copies_of_the_target_leak(tmp_path: Path) -> None:
         assert finding["details"]["monotone"] is True
 
 
+def test_many_leaking_predictors_are_one_finding_listing_every_column(tmp_path: Path) -> None:
+    from prefit.api import check
+
+    frame = _mtcars()[["rownames", "mpg", "wt", "hp"]]
+    # the same fuel economy in twelve meters' units: mpg times 0.425144 (km/l, 1 mpg US = 0.425144 km/l) and its multiples
+    copies = {f"meter_{k:02d}": frame["mpg"] * 0.425144 * k for k in range(1, 13)}
+    leaked = frame.assign(**copies)
+    report = _report(tmp_path, leaked, "--target", "mpg", "--id", "rownames")
+    (finding,) = _findings(report, "hygiene.target-leak")
+    assert finding["columns"] == [*copies, "mpg"]  # every column in JSON
+    assert finding["details"]["predictors"] == 12 and finding["details"]["exact"] == 12
+    # reference: 1 mpg (US) = 0.425144 km/l, so mpg = meter_k / (0.425144 k)
+    for k, name in enumerate(copies, start=1):
+        assert_allclose(finding["details"]["leaks"][name]["slope"], 1 / (0.425144 * k), rtol=1e-9)
+    text = check(leaked, target="mpg", id="rownames").render("text")
+    assert "... and 4 more" in text  # the text report shows the first eight names and a count
+
+
+def test_unrelated_columns_of_a_short_wide_table_are_not_leaks() -> None:
+    from prefit.api import check
+
+    rng = np.random.default_rng(12)
+    n, columns = 4, 2_000
+    frame = pd.DataFrame(rng.normal(size=(n, columns)), columns=[f"probe_{j:04d}" for j in range(columns)]).assign(kwh=rng.normal(size=n))
+    # reference: numpy corrcoef and scipy spearmanr: by chance, many unrelated columns of four rows cross both limits
+    import scipy.stats
+
+    r2 = np.array([np.corrcoef(frame[c], frame["kwh"])[0, 1] ** 2 for c in frame.columns[:-1]])
+    rho = np.array([scipy.stats.spearmanr(frame[c], frame["kwh"])[0] for c in frame.columns[:-1]])
+    assert (r2 > 0.99).sum() > 0 and (np.abs(rho) > 0.9945).sum() > 50
+    found = [f for f in check(frame, target="kwh", skip_rules=["influence", "outliers", "assumptions", "collinearity"]).findings if f.rule == "hygiene.target-leak"]
+    assert found == []
+
+
+def test_chance_of_a_correlation_matches_simulated_unrelated_columns() -> None:
+    from prefit.rules.hygiene import _chance_of_correlation
+
+    # source: Fisher (1915): r^2 of independent normal samples follows Beta(1/2, (n - 2)/2); checked against numpy draws
+    rng = np.random.default_rng(13)
+    for n, level in ((5, 0.9), (12, 0.4)):
+        x, y = rng.normal(size=(2, 200_000, n))
+        x -= x.mean(axis=1, keepdims=True)
+        y -= y.mean(axis=1, keepdims=True)
+        r2 = (x * y).sum(axis=1) ** 2 / ((x * x).sum(axis=1) * (y * y).sum(axis=1))
+        assert_allclose(_chance_of_correlation(level, n), (r2 >= level).mean(), atol=0.003)
+
+
 def test_rank_limit_matches_the_bivariate_normal_relation() -> None:
     import scipy.stats
 

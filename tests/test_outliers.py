@@ -122,6 +122,16 @@ def test_medcouple_equals_statsmodels(seed: int) -> None:
         assert_allclose(medcouple(values), float(statsmodels_medcouple(values, use_fast=False)) if values.size >= 3 else np.nan, atol=1e-12)
 
 
+def test_long_columns_medcouple_equals_statsmodels() -> None:
+    # Columns long enough for the bisection (more than DIRECT_KERNELS kernels), which lists the pairs left in its
+    # bracket once they are few: continuous values, values rounded into many ties at the median, and a skewed tail.
+    rng = np.random.default_rng(21)
+    samples = [rng.normal(size=2_000), np.round(rng.normal(size=1_500), 1), np.r_[np.zeros(700), rng.exponential(size=600)], -rng.lognormal(0, 1, 1_201)]
+    for values in samples:
+        # source: statsmodels.stats.stattools.medcouple, the O(n^2) algorithm (ties at the median included)
+        assert_allclose(medcouple(values), float(statsmodels_medcouple(values, use_fast=False)), atol=1e-12)
+
+
 def test_short_columns_fences_many_at_a_time_equal_the_column_by_column_ones() -> None:
     from prefit.stats.skewed import DIRECT_KERNELS, adjusted_fences_of_block
 

@@ -96,7 +96,11 @@ class PreliminaryFit:
         Golub, G. H., Van Loan, C. F. (2013). Matrix Computations, 4th ed., sec. 5.3.8.
         """
         f, k = self.factor, self.rank
-        kappa = condition_number(scipy.linalg.svdvals(f.r[:k, :k]) if k else np.zeros(0))
+        if k == f.p and f.r.shape[0] == k:
+            values = f.singular_values_scaled  # the whole factor: shared with every other reader of its singular values
+        else:
+            values = scipy.linalg.svdvals(f.r[:k, :k]) if k else np.zeros(0)
+        kappa = condition_number(values)
         fitted = float(np.linalg.norm(f.qty[:k]))
         residual = float(np.sqrt(self.qr_rss))
         tangent = residual / fitted if fitted > 0 else float("inf")

@@ -22,6 +22,7 @@ from typing import Sequence
 
 import numpy as np
 
+from ..preload import serial_import
 from .robust import content_sample_positions
 
 RESISTANT_SAMPLE_ROWS = 1_000
@@ -114,7 +115,7 @@ def resistant_fit(
     """
     import warnings
 
-    from statsmodels.robust.resistant_linear_model import RLMDetSMM
+    RLMDetSMM = serial_import("statsmodels.robust.resistant_linear_model").RLMDetSMM
 
     columns = np.asarray(estimable, dtype=int)
     data = np.column_stack([X[:, columns], y])

@@ -17,6 +17,7 @@ from typing import Callable
 import numpy as np
 import scipy.linalg
 
+from ..preload import serial_import
 from .blas import one_blas_thread
 
 MODIFIED_Z_FACTOR = 0.6745
@@ -220,7 +221,7 @@ def mcd_estimate(data: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     ----------
     Hubert, Rousseeuw & Verdonck (2012); statsmodels.robust.covariance.CovDetMCD.
     """
-    from statsmodels.robust.covariance import CovDetMCD
+    CovDetMCD = serial_import("statsmodels.robust.covariance").CovDetMCD
 
     with np.errstate(all="ignore"), one_blas_thread():
         try:
@@ -278,7 +279,7 @@ def ogk_estimate(data: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     Maronna, R. A., Zamar, R. H. (2002). Robust estimates of location and dispersion for high-dimensional
     datasets. Technometrics 44(4), 307-317; statsmodels.robust.covariance.cov_ogk.
     """
-    from statsmodels.robust.covariance import cov_ogk
+    cov_ogk = serial_import("statsmodels.robust.covariance").cov_ogk
 
     pairwise = _gk_scatter if data.shape[1] <= WIDE_COLUMNS else _spearman_scatter
     with np.errstate(all="ignore"), one_blas_thread():

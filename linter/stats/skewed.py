@@ -25,6 +25,14 @@ BISECTION_WIDTH = 2.0**-44
 DIRECT_KERNELS = 65_536
 
 
+def _with_ties(inner: int, upper_size: int, lower_size: int, ties: int, t: float) -> int:
+    """The count of kernel values at most ``t`` given ``inner``, the count among pairs ``z_i > 0 > z_j`` (see :func:`_count_at_most`)."""
+    pairs = ties * (ties - 1) // 2
+    minus_one = (ties * lower_size + pairs) * (t >= -1.0)
+    plus_one = (ties * upper_size + pairs) * (t >= 1.0)
+    return inner + int(minus_one) + ties * int(t >= 0.0) + int(plus_one)
+
+
 def _count_at_most(upper: np.ndarray, lower: np.ndarray, ties: int, t: float) -> int:
     """How many medcouple kernel values ``h(z_i, z_j)`` (``z_i >= 0 >= z_j``) are at most ``t``.
 
@@ -40,23 +48,70 @@ def _count_at_most(upper: np.ndarray, lower: np.ndarray, ties: int, t: float) ->
         inner = upper.size * lower.size
     else:
         inner = int(np.searchsorted(lower, upper * ((t - 1.0) / (t + 1.0)), side="right").sum())
-    pairs = ties * (ties - 1) // 2
-    minus_one = (ties * lower.size + pairs) * (t >= -1.0)
-    plus_one = (ties * upper.size + pairs) * (t >= 1.0)
-    return inner + int(minus_one) + ties * int(t >= 0.0) + int(plus_one)
+    return _with_ties(inner, upper.size, lower.size, ties, t)
 
 
-def _kth_kernel(upper: np.ndarray, lower: np.ndarray, ties: int, k: int) -> float:
-    """The ``k``-th smallest kernel value (1-based), by bisection on ``[-1, 1]`` to within ``BISECTION_WIDTH``."""
+#: The bisection lists the pairs whose kernels lie inside its bracket once they number at most this many per value.
+LISTED_PAIRS_PER_VALUE = 2
+#: Pairs left inside the bracket are then counted as Python numbers once they are at most this many.
+FEW_PAIRS = 8
+
+
+def _kth_kernel(upper: np.ndarray, lower: np.ndarray, ties: int, k: int, steps: dict[float, np.ndarray] | None = None) -> float:
+    """The ``k``-th smallest kernel value (1-based), by bisection on ``[-1, 1]`` to within ``BISECTION_WIDTH``.
+
+    Each step counts the kernels at most its midpoint, ``z_j <= z_i (t - 1) / (t + 1)``. At first every positive
+    deviation's count is one sorted search of the negative ones (kept, per midpoint, in ``steps``, so that a
+    second search of the same column reuses them); each count lies between those at the bracket's ends, so once
+    the pairs between them are few they are listed and only they are compared, the bracket dropping those it
+    settles. The comparisons are the sorted search's own, so the steps, and the result, are the same as with a
+    sorted search at every step; only the work shrinks (about 10 sorted searches instead of 45).
+    """
     low, high = -1.0, 1.0
     if _count_at_most(upper, lower, ties, low) >= k:
         return low
+    u, l = upper.size, lower.size
+    steps = {} if steps is None else steps
+    below = np.zeros(u, dtype=np.int64)  # each positive deviation's count at ``low`` (none at -1)
+    above = np.full(u, l, dtype=np.int64)  # and at ``high`` (all at 1)
+    limit = LISTED_PAIRS_PER_VALUE * (u + l)
+    while high - low > BISECTION_WIDTH and int(above.sum()) - int(below.sum()) > limit:
+        middle = 0.5 * (low + high)
+        if middle not in steps:
+            steps[middle] = np.searchsorted(lower, upper * ((middle - 1.0) / (middle + 1.0)), side="right")
+        counts = steps[middle]
+        if _with_ties(int(counts.sum()), u, l, ties, middle) >= k:
+            high, above = middle, counts
+        else:
+            low, below = middle, counts
+    if not high - low > BISECTION_WIDTH:
+        return high
+    span = above - below
+    ends = np.cumsum(span)
+    pair_upper = np.repeat(upper, span)
+    pair_lower = lower[np.arange(int(span.sum())) - np.repeat(ends - span - below, span)]
+    settled = int(below.sum())  # kernels at most ``low``
+    while high - low > BISECTION_WIDTH and pair_lower.size > FEW_PAIRS:
+        middle = 0.5 * (low + high)
+        inside = pair_lower <= pair_upper * ((middle - 1.0) / (middle + 1.0))
+        counted = int(np.count_nonzero(inside))
+        if _with_ties(settled + counted, u, l, ties, middle) >= k:
+            high = middle
+            pair_lower, pair_upper = pair_lower[inside], pair_upper[inside]
+        else:
+            low, settled = middle, settled + counted
+            outside = ~inside
+            pair_lower, pair_upper = pair_lower[outside], pair_upper[outside]
+    pairs = list(zip(pair_lower.tolist(), pair_upper.tolist()))  # Python floats: the same IEEE products and comparisons
     while high - low > BISECTION_WIDTH:
         middle = 0.5 * (low + high)
-        if _count_at_most(upper, lower, ties, middle) >= k:
-            high = middle
+        ratio = (middle - 1.0) / (middle + 1.0)
+        counted_pairs = [(a, b) for a, b in pairs if a <= b * ratio]
+        if _with_ties(settled + len(counted_pairs), u, l, ties, middle) >= k:
+            high, pairs = middle, counted_pairs
         else:
-            low = middle
+            low, settled = middle, settled + len(counted_pairs)
+            pairs = [(a, b) for a, b in pairs if not a <= b * ratio]
     return high
 
 
@@ -104,10 +159,11 @@ def medcouple(values: np.ndarray) -> float:
         return _direct_median_kernel(upper, lower, ties, total)
     if total % 2:
         return _kth_kernel(upper, lower, ties, total // 2 + 1)
-    first = _kth_kernel(upper, lower, ties, total // 2)
+    steps: dict[float, np.ndarray] = {}
+    first = _kth_kernel(upper, lower, ties, total // 2, steps)
     if _count_at_most(upper, lower, ties, first) > total // 2:
         return first
-    return 0.5 * (first + _kth_kernel(upper, lower, ties, total // 2 + 1))
+    return 0.5 * (first + _kth_kernel(upper, lower, ties, total // 2 + 1, steps))
 
 
 @dataclass(frozen=True)
