@@ -11,6 +11,7 @@ scatter. J. Comput. Graph. Stat. 21(3), 618-637.
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass
 from typing import Callable
 
@@ -223,7 +224,8 @@ def mcd_estimate(data: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """
     CovDetMCD = serial_import("statsmodels.robust.covariance").CovDetMCD
 
-    with np.errstate(all="ignore"), one_blas_thread():
+    with np.errstate(all="ignore"), one_blas_thread(), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)  # statsmodels' starts meet empty or constant subsets: noise, not news
         try:
             result = CovDetMCD(data).fit(None)
         except (ValueError, ZeroDivisionError) as exc:
@@ -282,7 +284,8 @@ def ogk_estimate(data: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     cov_ogk = serial_import("statsmodels.robust.covariance").cov_ogk
 
     pairwise = _gk_scatter if data.shape[1] <= WIDE_COLUMNS else _spearman_scatter
-    with np.errstate(all="ignore"), one_blas_thread():
+    with np.errstate(all="ignore"), one_blas_thread(), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
         try:
             result = cov_ogk(data, cov_func=pairwise)
         except (ValueError, ZeroDivisionError) as exc:
